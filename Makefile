@@ -1,0 +1,38 @@
+# Two entry points for people: `make lab` and `make test`. Everything else is plumbing.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+PORT   ?= 8888
+
+.PHONY: lab test venv clean demo bench
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --upgrade pip
+
+# Marker files so that a second `make` does not reinstall.
+$(VENV)/.installed: pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install -e .
+	touch $@
+
+$(VENV)/.installed-test: pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install -e '.[test]'
+	touch $@ $(VENV)/.installed
+
+venv: $(VENV)/.installed
+
+lab: $(VENV)/.installed
+	@echo "JupyterLab will open on notebooks/ at http://127.0.0.1:$(PORT)/lab (the token is printed below)."
+	$(BIN)/jupyter lab --notebook-dir=notebooks --ServerApp.ip=127.0.0.1 --ServerApp.port=$(PORT) --no-browser
+
+test: $(VENV)/.installed-test
+	$(BIN)/python -m pytest
+
+demo: $(VENV)/.installed
+	$(BIN)/python -m kit.demo
+
+bench: $(VENV)/.installed
+	$(BIN)/python bench/run_all.py
+
+clean:
+	rm -rf $(VENV) .pytest_cache

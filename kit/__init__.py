@@ -1,0 +1,83 @@
+"""sweepbook: analysis of Touchstone captures of piezoelectric resonators and RF parts.
+
+The public API is re-exported here lazily, so that ``import kit`` stays light: numpy is
+imported at once, scikit-rf, scipy.optimize, matplotlib and ipywidgets only by the
+functions that use them.
+
+Main entry points: :func:`load`, :func:`check`, :func:`load_table`, :func:`load_folder`,
+:func:`impedance`, :func:`admittance`. See README.md and DEVELOPERS.md.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+__version__ = "0.1.0"
+
+from .capture import Capture, CaptureError, Finding  # noqa: E402  (light: numpy only)
+
+# name -> "module" or "module:attribute" (relative to kit). One line per public name;
+# each concept keeps its block. Modules are imported on first use.
+_EXPORTS: dict[str, str] = {
+    # -- import and pre-flight (foundation)
+    "load": "touchstone",
+    "check": "touchstone",
+    "load_table": "tables",
+    "load_folder": "folder",
+    "from_network": "capture",
+    "parse_name": "names",
+    # -- impedance methods (foundation)
+    "impedance": "impedance",
+    "admittance": "impedance",
+    "SingularPointsWarning": "impedance",
+    # -- corrections (issue 3)
+    "port_extension": "corrections",
+    "cable": "corrections",
+    "fixture": "corrections",
+    "osl": "corrections",
+    "open_short": "corrections",
+    "two_x_thru": "corrections",
+    "time_gate": "corrections",
+    "chain": "corrections",
+    "residual": "corrections",
+    # -- resonator analysis (issue 4)
+    "resonance": "resonance",
+    "q_factor": "qfactor",
+    "fit": "fitting",
+    "fit_lot": "fitting",
+    "FitResult": "fitting",
+    "filter_figures": "filters",
+    "component_figures": "filters",
+    # -- review, limits, export, report (issue 6)
+    "ReviewLog": "review",
+    "Limits": "limits",
+    "load_limits": "limits",
+    "verdict": "limits",
+    "tidy": "export",
+    "summary": "export",
+    "export": "export",
+    "write_touchstone": "export",
+    "report": "report",
+    # -- procedures and batch runs (issue 7)
+    "Procedure": "procedure",
+    # -- matching (issue 8): kit.match is a module
+    "match": "match",
+}
+
+__all__ = ["Capture", "CaptureError", "Finding", "__version__", *_EXPORTS]
+
+
+def __getattr__(name: str) -> Any:
+    target = _EXPORTS.get(name)
+    if target is None:
+        raise AttributeError(f"module 'kit' has no attribute {name!r}")
+    modname, _, attr = target.partition(":")
+    module = importlib.import_module(f".{modname}", __name__)
+    value = module if (attr == "" and name == modname) else getattr(module, attr or name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_EXPORTS))
