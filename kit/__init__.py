@@ -64,6 +64,8 @@ _EXPORTS: dict[str, str] = {
     # -- matching (issue 8): kit.match is a module
     "match": "match",
 }
+#: Public names that are whole modules rather than attributes of one.
+_MODULES = {"match"}
 
 __all__ = ["Capture", "CaptureError", "Finding", "__version__", *_EXPORTS]
 
@@ -74,7 +76,7 @@ def __getattr__(name: str) -> Any:
         raise AttributeError(f"module 'kit' has no attribute {name!r}")
     modname, _, attr = target.partition(":")
     module = importlib.import_module(f".{modname}", __name__)
-    value = module if (attr == "" and name == modname) else getattr(module, attr or name)
+    value = module if name in _MODULES else getattr(module, attr or name)
     globals()[name] = value
     return value
 

@@ -589,11 +589,6 @@ def load(path: str | Path, name_pattern: str | None = None) -> Capture:
                            path, first.line, errors)
     network = _read_network(scan, path)
     findings = [f for f in scan.findings if f.severity != "error"]
-    # drop repeated frequencies, keeping the first of each
-    f = network.frequency.f
-    if f.size > 1 and np.any(np.diff(f) == 0):
-        keep = np.concatenate(([True], np.diff(f) > 0))
-        network = network[keep]
     meta = header_meta(scan)
     if name_pattern:
         fields, finding = parse_name(path.stem, name_pattern, str(path))
@@ -620,8 +615,15 @@ def _read_network(scan: Scan, path: Path):
             warnings.simplefilter("always")
             t = Touchstone(sio)
             f, s = t.get_sparameter_arrays()
-            z0 = t.z0
+            z0 = np.asarray(t.z0)
             s_def = t.s_def or "power"
+            npts = f.size
+            if f.size > 1 and np.any(np.diff(f) == 0):
+                # repeated frequencies: keep the first of each (the scan reported how many)
+                keep = np.concatenate(([True], np.diff(f) > 0))
+                f, s = f[keep], s[keep]
+                if z0.ndim == 2 and z0.shape[0] == npts:
+                    z0 = z0[keep]
             net = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=s, z0=z0,
                                s_def=s_def, name=path.stem)
     except CaptureError:
@@ -629,7 +631,7 @@ def _read_network(scan: Scan, path: Path):
     except Exception as exc:  # noqa: BLE001 - reader errors become a CaptureError naming the file
         raise CaptureError(f"the Touchstone reader refused the file: {type(exc).__name__}: {exc}",
                            path) from None
-    if net.nports != scan.nports or net.frequency.npoints != len(scan.freqs):
+    if net.nports != scan.nports or npts != len(scan.freqs):
         raise CaptureError(
             f"the reader found {net.nports} port(s) x {net.frequency.npoints} points, the scan "
             f"{scan.nports} x {len(scan.freqs)}; the file is ambiguous", path)
