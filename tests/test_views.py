@@ -1,0 +1,243 @@
+"""Drawing functions: artists returned, units on axes, data untouched, quantities checked."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import kit.views as kv
+
+mpl = pytest.importorskip("matplotlib")
+from matplotlib.figure import Figure  # noqa: E402
+
+
+def _bvd(n=4001, r1=10.0, l1=1e-3, c0=1e-9, fs=1.1e6):
+    """Butterworth-Van Dyke impedance (methods sheet section 2.1) around its series resonance."""
+    c1 = 1 / ((2 * np.pi * fs) ** 2 * l1)
+    f = np.linspace(0.95 * fs, 1.1 * fs, n)
+    w = 2 * np.pi * f
+    zm = r1 + 1j * w * l1 + 1 / (1j * w * c1)
+    return f, 1 / (1 / zm + 1j * w * c0), fs
+
+
+def _axes(**kw):
+    fig = Figure(figsize=(6, 4), dpi=100)
+    return fig, fig.add_subplot(**kw)
+
+
+def test_vswr_and_return_loss_match_methods_table():
+    """VSWR 1.5 <-> |G| 0.2, RL 13.979400 dB; 25 ohm in 50 ohm: VSWR 2, RL 9.542425 dB (methods 8.3)."""
+    assert kv.vswr(np.array([0.2]))[0] == pytest.approx(1.5, abs=1e-12)
+    assert kv.return_loss_db(np.array([0.2]))[0] == pytest.approx(13.979400, abs=1e-6)
+    g = kv.gamma_from_z(np.array([25.0]), 50.0)
+    assert kv.vswr(g)[0] == pytest.approx(2.0, abs=1e-12)
+    assert kv.return_loss_db(g)[0] == pytest.approx(9.542425, abs=1e-6)
+    assert kv.vswr(np.array([1.0]))[0] == np.inf
+
+
+def test_quantities_agree_with_scikit_rf():
+    """VSWR, |S| dB and group delay agree with scikit-rf 2.2.0 (independent implementation)."""
+    rf = pytest.importorskip("skrf")
+    freq = rf.Frequency(1, 3, 201, unit="GHz")
+    line = rf.media.DefinedGammaZ0(freq, z0=50).line(35, unit="deg") ** \
+        rf.media.DefinedGammaZ0(freq, z0=50).resistor(30) ** \
+        rf.media.DefinedGammaZ0(freq, z0=50).short()
+    s = line.s[:, 0, 0]
+    assert np.allclose(kv.vswr(s), line.s_vswr[:, 0, 0], rtol=1e-12)
+    assert np.allclose(kv.db20(s), line.s_db[:, 0, 0], rtol=1e-12)
+    assert np.allclose(kv.group_delay_s(freq.f, s), line.group_delay[:, 0, 0], rtol=1e-9)
+
+
+def test_group_delay_of_pure_delay():
+    """A pure delay exp(-j w tau) has group delay tau (definition tau = -dphi/dw, Pozar from memory)."""
+    f = np.linspace(1e6, 5e8, 3001)
+    tau = 7.3e-9
+    assert np.allclose(kv.group_delay_s(f, np.exp(-2j * np.pi * f * tau)), tau, rtol=1e-9)
+
+
+def test_trace_of_reflection_capture_uses_s11_and_kit_impedance():
+    """A reflection trace keeps S11 as Gamma and Z from kit.impedance (Z = Z0 (1+G)/(1-G))."""
+    rf = pytest.importorskip("skrf")
+    import kit
+
+    freq = rf.Frequency(1, 2, 11, unit="MHz")
+    z = 20 + 1j * np.linspace(-40, 40, 11)
+    ntwk = rf.Network(frequency=freq, s=kv.gamma_from_z(z, 50.0).reshape(-1, 1, 1), z0=50)
+    t = kv.trace(kit.from_network(ntwk), label="d")
+    assert np.allclose(t.gamma, ntwk.s[:, 0, 0]) and np.allclose(t.z, z)
+    assert np.allclose(t.y, 1 / z) and t.z0_ohm == 50.0 and t.label == "d"
+
+
+def test_trace_of_series_through_gamma_from_device_z():
+    """A series-through trace: Z from S21 = 2Z0/(2Z0+Z) (methods sheet section 5), Gamma from Z."""
+    rf = pytest.importorskip("skrf")
+    import kit
+
+    freq = rf.Frequency(1, 2, 5, unit="MHz")
+    media = rf.media.DefinedGammaZ0(freq, z0=50)
+    ntwk = media.resistor(1000)
+    t = kv.trace(kit.from_network(ntwk), method="series-through")
+    assert np.allclose(t.z, 1000.0) and np.allclose(t.s, 0.0909090909, atol=1e-9)
+    assert np.allclose(t.gamma, 950 / 1050)
+
+
+def test_smith_grid_circles_lie_where_the_textbook_puts_them():
+    """Constant-r circles have centre r/(1+r) and radius 1/(1+r) (Pozar, Microwave Eng., from memory)."""
+    _, ax = _axes()
+    arts = kv.smith_grid(ax, z0_ohm=75, kind="z", values=(1.0,))
+    texts = [a.get_text() for a in arts if hasattr(a, "get_text")]
+    assert any("Z0 = 75 Ω" in s for s in texts)
+    assert any(s == "75" for s in texts)
+    circle = arts[2]  # unit circle, real axis, then the r = 1 circle
+    x, y = circle.get_data()
+    assert np.allclose(np.hypot(x - 0.5, y), 0.5, atol=1e-9)
+    with pytest.raises(ValueError, match="kind"):
+        kv.smith_grid(ax, kind="w")
+
+
+def test_admittance_grid_is_the_mirror_of_the_impedance_grid():
+    """The admittance grid is the impedance grid turned by 180 degrees (Gamma_Y = -Gamma_Z)."""
+    _, ax = _axes()
+    z = kv.smith_grid(ax, kind="z", values=(2.0,), label=False)
+    y = kv.smith_grid(ax, kind="y", values=(2.0,), label=False)
+    assert np.allclose(np.asarray(y[2].get_xdata()), -np.asarray(z[2].get_xdata()))
+
+
+def test_long_sweep_is_decimated_without_altering_data():
+    """100,001 points draw as a few points per pixel column; the input arrays are unchanged."""
+    f, z, _ = _bvd(n=100_001)
+    before = z.copy()
+    fig, ax = _axes()
+    (line,) = kv.plot_chart(ax, (f, z), "z_mag")
+    cols = int(ax.get_window_extent().width)
+    assert len(line.get_xdata()) <= 2 * cols + 2
+    assert np.max(line.get_ydata()) == pytest.approx(np.max(np.abs(z)))
+    assert np.array_equal(z, before)
+    (sm,) = kv.plot_smith(ax, (f, z))
+    assert len(sm.get_xdata()) <= 4 * kv.columns_of(ax) + 2
+
+
+@pytest.mark.parametrize("chart", list(kv.CHARTS))
+def test_every_chart_labels_units_and_returns_its_line(chart):
+    """Each named chart draws one line and labels x as frequency [Hz] and y with a unit."""
+    f, z, _ = _bvd(n=801)
+    _, ax = _axes()
+    arts = kv.plot_chart(ax, (f, z), chart, label="x")
+    assert len(arts) == 1 and arts[0].get_label() == "x"
+    assert ax.get_xlabel() == "frequency [Hz]"
+    assert "[" in ax.get_ylabel() and ax.get_ylabel().endswith("]")
+
+
+def test_array_functions_return_artists_with_units():
+    """The array-level plot functions draw their lines and unit labels."""
+    f, z, _ = _bvd(n=401)
+    g = kv.gamma_from_z(z)
+    fig = Figure()
+    a = fig.subplots(3, 3).ravel()
+    assert len(kv.plot_z_mag_phase(a[0], a[1], f, z)) == 2 and a[0].get_ylabel() == "|Z| [Ω]"
+    assert len(kv.plot_r_x(a[2], f, z)) == 2 and a[2].get_ylabel() == "R, X [Ω]"
+    assert len(kv.plot_g_b(a[3], f, 1 / z)) == 2 and a[3].get_ylabel() == "G, B [mS]"
+    assert np.allclose(a[3].lines[0].get_ydata(), 1e3 * (1 / z).real)
+    assert len(kv.plot_s_db(a[4], f, g)) == 1 and a[4].get_ylabel() == "|S| [dB]"
+    assert len(kv.plot_return_loss(a[5], f, g)) == 1
+    assert len(kv.plot_vswr(a[6], f, g)) == 1 and a[6].get_yscale() == "log"
+    assert len(kv.plot_group_delay(a[7], f, g)) == 1 and a[7].get_ylabel() == "group delay [ns]"
+    circ = kv.plot_admittance_circle(a[8], (f, z))
+    assert a[8].get_xlabel() == "conductance G [mS]" and len(circ) == 1
+    pol = Figure().add_subplot(projection="polar")
+    assert len(kv.plot_polar(pol, g)) == 1
+
+
+def test_admittance_circle_diameter_is_one_over_r1():
+    """Near fs the motional admittance circle has diameter 1/R1 (IEEE 177 method, methods 2.3)."""
+    f, z, fs = _bvd(n=20001, r1=10.0)
+    _, ax = _axes()
+    (line,) = kv.plot_admittance_circle(ax, (f, z), span_hz=(0.99 * fs, 1.01 * fs))
+    g_ms = line.get_xdata()
+    assert g_ms.max() == pytest.approx(100.0, rel=1e-3)  # 1/R1 = 0.1 S
+
+
+def test_marker_searches_find_series_resonance():
+    """min |Z|, max G and zero phase fall at fs = 1/(2 pi sqrt(L1 C1)) of a low-loss BVD (methods 2.1)."""
+    f, z, fs = _bvd(n=20001, r1=1.0)
+    t = kv.trace((f, z), label="bvd")
+    step = f[1] - f[0]
+    for kind in ("min_z", "max_g", "zero_phase"):
+        assert abs(f[kv.find_marker(t, kind)] - fs) < 0.002 * fs, kind
+    i = kv.find_marker(t, "nearest", f_hz=1.12e6)
+    assert abs(f[i] - 1.12e6) <= step / 2
+    assert f[kv.find_marker(t, "max_z")] > fs
+    with pytest.raises(ValueError, match="frequency"):
+        kv.find_marker(t, "nearest")
+    with pytest.raises(ValueError, match="does not cross zero"):
+        kv.find_marker(t, "zero_phase", span_hz=(f[0], f[10]))
+    with pytest.raises(ValueError, match="unknown marker"):
+        kv.find_marker(t, "peak")
+
+
+def test_marker_readout_is_consistent():
+    """The readout gives Y = 1/Z, Gamma = (Z-Z0)/(Z+Z0) and VSWR of |Gamma| (methods 0 and 8.3)."""
+    t = kv.trace((np.array([1e6, 2e6]), np.array([25 + 0j, 100 + 50j])), label="p")
+    r = kv.marker_readout(t, 0, "A")
+    assert r["f_hz"] == 1e6 and r["z_ohm"] == 25 and r["g_s"] == pytest.approx(0.04)
+    assert r["gamma"] == pytest.approx(-1 / 3) and r["vswr"] == pytest.approx(2.0)
+    text = kv.readout_text(r)
+    for unit in ("MHz", "Ω", "mS", "°", "VSWR"):
+        assert unit in text
+    with pytest.raises(IndexError):
+        kv.marker_readout(t, 5)
+
+
+def test_markers_csv_written_atomically(tmp_path):
+    """The markers table goes to CSV with units in the column names, and reads back."""
+    import pandas as pd
+
+    t = kv.trace((np.array([1e6, 2e6]), np.array([25 + 0j, 100 + 50j])), label="p")
+    table = kv.markers_table([kv.marker_readout(t, i, f"M{i + 1}") for i in range(2)])
+    out = kv.write_markers_csv(table, tmp_path / "m.csv")
+    back = pd.read_csv(out)
+    assert list(back["marker"]) == ["M1", "M2"] and back["x_ohm"][1] == 50.0
+    assert "f_hz" in back.columns and not list(tmp_path.glob("*.tmp"))
+
+
+def test_limits_and_markers_draw_where_asked():
+    """Limit segments sit at their value over their span; a marker sits at its point."""
+    _, ax = _axes()
+    arts = kv.plot_limits(ax, [(1e6, 2e6, 3.0), (2e6, 3e6, 1.0, "lower")])
+    assert list(arts[0].get_xdata()) == [1e6, 2e6] and list(arts[0].get_ydata()) == [3.0, 3.0]
+    with pytest.raises(ValueError, match="side"):
+        kv.plot_limits(ax, [(1, 2, 3, "middle")])
+    dot, _ = kv.draw_marker(ax, 1.5e6, 2.0)
+    assert list(dot.get_xdata()) == [1.5e6]
+
+
+def test_overlay_gives_one_colour_per_trace():
+    """An overlay draws one line per trace in distinct palette colours, with a legend."""
+    f, z, _ = _bvd(n=301)
+    _, ax = _axes()
+    lines = kv.overlay(ax, [(f, z * k) for k in (1, 2, 3)], "z_mag")
+    assert len(lines) == 3 and len({ln.get_color() for ln in lines}) == 3
+    assert ax.get_legend() is not None
+
+
+def test_update_line_follows_span():
+    """update_line re-decimates within a span, so a zoomed view keeps full detail."""
+    f, z, fs = _bvd(n=100_001)
+    t = kv.trace((f, z))
+    _, ax = _axes()
+    (line,) = kv.plot_chart(ax, t, "z_mag")
+    kv.update_line(line, t, "z_mag", span_hz=(0.999 * fs, 1.001 * fs))
+    x = line.get_xdata()
+    assert x.min() >= f[0] and x.max() <= 1.001 * fs + (f[1] - f[0])
+
+
+def test_demo_capture_draws(demo_dir):
+    """A demo lot capture loads and draws on the Smith chart and |Z| chart."""
+    import kit
+
+    t = kv.trace(kit.load(demo_dir / "lot" / "pzd7-01.s1p"))
+    fig = Figure()
+    a, b = fig.subplots(1, 2)
+    kv.smith_grid(a)
+    assert kv.plot_smith(a, t)[0].get_label() == "pzd7-01"
+    assert kv.plot_chart(b, t, "z_mag")[0].get_label() == "pzd7-01"
