@@ -28,9 +28,9 @@ _EXPORTS: dict[str, str] = {
     "from_network": "capture",
     "parse_name": "names",
     # -- impedance methods (foundation)
-    "impedance": "impedance",
-    "admittance": "impedance",
-    "SingularPointsWarning": "impedance",
+    "impedance": "immittance",
+    "admittance": "immittance",
+    "SingularPointsWarning": "immittance",
     # -- corrections (issue 3)
     "port_extension": "corrections",
     "cable": "corrections",
