@@ -12,7 +12,8 @@ bvd-loss   Rs - [ (R0 - C0) parallel (R1 - L1 - C1) ]           C0, R0, Rs, R1, 
 multi      C0 parallel N branches (Rn - Ln - Cn)                C0, R1, L1, C1, R2, L2, C2, ...
 inductor   (Rs - L) parallel Cp                                 L, Rs, Cp
 capacitor  ESR - ESL - C                                        C, ESR, ESL
-plate      thickness-mode plate, free or loaded                 kt, fp_hz, C0, qm, tan_delta
+plate      thickness-mode plate, free or loaded (modes > 1:     kt, fp_hz, C0, qm, tan_delta
+           extra branches Rn-Ln-Cn in parallel)                 (+ R2, L2, C2, ...)
 bar        length-extensional bar (k31 mode)                    CT, fs_hz, k31, qm, tan_delta
 ========== ==================================================== ==============================
 
@@ -389,9 +390,12 @@ def get_model(name: str, modes: int = 1, **options) -> Model:
         raise ValueError(f"unknown model {name!r}; choose one of {', '.join(MODEL_NAMES)}")
     if name in ("plate", "bar"):
         from . import models_physical as mp
-        if modes != 1:
-            raise ValueError(f"model {name!r} has a single mode; use modes=1")
-        return mp.plate_model(**options) if name == "plate" else mp.bar_model(**options)
+        if name == "bar" and modes != 1:
+            raise ValueError("model 'bar' has a single mode; use modes=1")
+        bad = set(options) - ({"z_front", "z_back"} if name == "plate" else set())
+        if bad:
+            raise ValueError(f"model {name!r} does not take option(s) {', '.join(sorted(bad))}")
+        return mp.plate_model(modes=int(modes), **options) if name == "plate" else mp.bar_model()
     if options:
         raise ValueError(f"model {name!r} takes no options, got {', '.join(options)}")
     if name == "multi" or (name == "bvd" and modes > 1):

@@ -260,11 +260,52 @@ def _plate_start(f, z):
     return {"kt": kt, "fp_hz": fp, "C0": abs(c0), "qm": q, "tan_delta": tand}
 
 
-def plate_model(z_front: complex = 0.0, z_back: complex = 0.0) -> Model:
+def _extra_branches(start, modes):
+    """Start function adding motional branches 2..modes (spurious modes) in parallel."""
+    from scipy.signal import find_peaks
+
+    def wrapped(f, z):
+        p = start(f, z)
+        if modes == 1:
+            return p
+        f, z = _clean(f, z)
+        g = (1.0 / z).real
+        peaks, props = find_peaks(g, prominence=0)
+        main = int(np.argmax(g))
+        keep = [(pr, i) for i, pr in zip(peaks, props["prominences"]) if abs(i - main) > 2]
+        keep.sort(reverse=True)
+        if len(keep) < modes - 1:
+            raise StartError(f"found {len(keep)} conductance peak(s) besides the main mode, "
+                             f"{modes - 1} asked; lower modes or widen the span")
+        for n, (prom, i) in enumerate(sorted(keep[:modes - 1], key=lambda t: t[1]), start=2):
+            fn = _peak(f, g, int(i))[0]
+            rn = 1.0 / prom
+            q = _half_power_q(f, g, int(i), g[i] - prom) or 100.0
+            wn = 2 * np.pi * fn
+            cn = 1.0 / (wn * q * rn)
+            p.update({f"R{n}": rn, f"L{n}": 1.0 / (wn**2 * cn), f"C{n}": cn})
+        return p
+
+    return wrapped
+
+
+def _with_branches(block, names, modes):
+    if modes == 1:
+        return block, names
+    from .circuits import C, L, R, parallel, series
+
+    extra = [series(R(f"R{n}"), L(f"L{n}"), C(f"C{n}")) for n in range(2, modes + 1)]
+    return (parallel(block, *extra),
+            names + tuple(f"{s}{n}" for n in range(2, modes + 1) for s in "RLC"))
+
+
+def plate_model(z_front: complex = 0.0, z_back: complex = 0.0, modes: int = 1) -> Model:
     """Fittable thickness-mode plate: free (loads 0, via kit.plate.free_plate_z) or loaded.
 
     Parameters are "kt", "fp_hz", "C0", "qm", "tan_delta"; the loads are fixed options,
-    normalised to rho v^D A.
+    normalised to rho v^D A. With ``modes > 1`` motional branches "Rn", "Ln", "Cn"
+    (n = 2..modes) are added in parallel for spurious (e.g. lateral) modes, started from the
+    most prominent conductance peaks other than the main one.
     """
     from .plate import free_plate_z
 
@@ -283,11 +324,13 @@ def plate_model(z_front: complex = 0.0, z_back: complex = 0.0) -> Model:
                 "qm": p["qm"], "kt": p["kt"]}
 
     opts = {} if free else {"z_front": z_front, "z_back": z_back}
-    return Model("plate", Block(zfun, names, label="plate"), names, _plate_start, derived,
+    circ, allnames = _with_branches(Block(zfun, names, label="plate"), names, modes)
+    return Model("plate", circ, allnames, _extra_branches(_plate_start, modes), derived,
                  bounds={"kt": (1e-4, 0.999), "tan_delta": (1e-7, 1.0), "qm": (1.0, 1e7)},
                  options=opts, analytic_jacobian=False,
                  description="thickness-mode plate, " + ("free faces" if free else
-                                                        f"loads z_F={z_front}, z_B={z_back}"))
+                                                        f"loads z_F={z_front}, z_B={z_back}")
+                 + (f", {modes - 1} extra branch(es)" if modes > 1 else ""))
 
 
 def _bar_start(f, z):
