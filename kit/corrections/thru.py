@@ -18,7 +18,8 @@ from .fixtures import Fixture, _role
 
 
 def _db(x: float) -> float:
-    return float(20 * np.log10(x)) if x > 0 else float("-inf")
+    # floored at -300 dB so that the report stays a finite number (JSON-friendly)
+    return float(20 * np.log10(max(x, 1e-15)))
 
 
 def symmetry_report(thru_s: np.ndarray, side1_s: np.ndarray, side2_s: np.ndarray,
@@ -144,7 +145,9 @@ def two_x_thru(thru: Any, *, resample: bool = False,
             raise CaptureError(f"the 2x-thru split failed ({type(exc).__name__}: {exc})",
                                cap.path) from None
     notes = [str(w.message) for w in caught]
-    s1, s2 = split.s_side1, split.s_side2
+    # scikit-rf stores side 2 flipped (its port 1 at the analyser); flip it back to the
+    # cascade orientation used here (port 1 at the device), as its deembed() does
+    s1, s2 = split.s_side1, split.s_side2.flipped()
     sym = symmetry_report(np.asarray(cap.s), s1.s, s2.s, cap.f_hz)
     left = from_network(s1, {"from": cap.name, "side": 1})
     right = from_network(s2, {"from": cap.name, "side": 2})
