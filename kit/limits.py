@@ -483,7 +483,7 @@ def curve_values(capture: Any, mask: Mask) -> tuple[np.ndarray, np.ndarray]:
             return f, 20.0 * np.log10(np.abs(net.s[:, i, j]))
     import warnings
 
-    from .impedance import impedance
+    from .immittance import impedance
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # singular points become NaN and are reported below
