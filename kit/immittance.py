@@ -47,14 +47,25 @@ def _warn_singular(bad: np.ndarray, f_hz: np.ndarray | None, what: str) -> None:
     )
 
 
-def _finish(num: np.ndarray, den: np.ndarray, f_hz, what: str, tol: float = 1e-12) -> np.ndarray:
-    with np.errstate(divide="ignore", invalid="ignore"):
+def _finish(num: np.ndarray, den: np.ndarray, f_hz, what: str) -> np.ndarray:
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         out = num / den
-    bad = (np.abs(den) <= tol * np.maximum(1.0, np.abs(num))) | ~np.isfinite(out)
-    if np.any(bad):
-        out = np.where(bad, np.nan + 1j * np.nan, out)
-        _warn_singular(bad, f_hz, what)
+    # fast path: one pass over the result; the singular points are found only when needed
+    if np.isfinite(out.real.sum() + out.imag.sum()):
+        return out
+    bad = ~np.isfinite(out)
+    out[bad] = np.nan + 1j * np.nan
+    _warn_singular(bad, f_hz, what)
     return out
+
+
+def _z0(z0: np.ndarray, p: int):
+    col = z0[:, p] if z0.ndim == 2 else z0
+    first = col[0]
+    # a single real reference (the usual case) is used as a scalar: no per-point array
+    if np.all(col == first) and first.imag == 0:
+        return float(first.real)
+    return col.real
 
 
 def z_from_reflection(gamma: np.ndarray, z0_ohm=50.0, f_hz=None) -> np.ndarray:
@@ -190,13 +201,13 @@ def impedance(capture, method: Method = "reflection", port: int = 1) -> np.ndarr
         if not 1 <= port <= n:
             raise CaptureError(f"port {port} does not exist: the capture has {n} port(s)", path)
         p = port - 1
-        return z_from_reflection(ntwk.s[:, p, p], z0[:, p].real, f)
+        return z_from_reflection(ntwk.s[:, p, p], _z0(z0, p), f)
     if method in ("series-through", "shunt-through"):
         if n < 2:
             raise CaptureError(
                 f"method {method!r} needs a two-port capture (S21), this one has {n} port; "
                 "use method='reflection' for a one-port", path)
-        z0r = z0[:, 0].real
+        z0r = _z0(z0, 0)
         if method == "series-through":
             return z_from_series_through(ntwk.s[:, 1, 0], z0r, f)
         return z_from_shunt_through(ntwk.s[:, 1, 0], z0r, f)
