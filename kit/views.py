@@ -50,9 +50,11 @@ PLANE_CHARTS: dict[str, str] = {"smith": "Smith chart", "polar": "polar", "circl
 
 def frequency_axis(ax) -> None:
     """Label the x axis as frequency with SI-prefixed tick labels in Hz."""
-    from matplotlib.ticker import EngFormatter
+    from matplotlib.ticker import EngFormatter, MaxNLocator
 
     ax.xaxis.set_major_formatter(EngFormatter(unit="Hz", places=None, sep=" "))
+    if ax.get_xscale() == "linear":
+        ax.xaxis.set_major_locator(MaxNLocator(nbins=6))
     ax.set_xlabel("frequency [Hz]")
     ax.grid(True, which="major", color="#e4e0da", lw=0.6)
 

@@ -188,7 +188,7 @@ def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None
         z0 = 50.0 if z0_ohm is None else float(z0_ohm)
         g = gamma_from_z(z, z0)
         return Trace(f, z, g, g, z0, label or "trace")
-    from .impedance import _network, impedance
+    from .immittance import _network, impedance
 
     ntwk = _network(obj)
     f = np.array(ntwk.frequency.f, dtype=float)

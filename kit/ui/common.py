@@ -1,0 +1,210 @@
+"""Shared helpers of the widget cells: figures, messages, guarded callbacks, controls.
+
+* :class:`FigureHost` makes a matplotlib figure once and shows it either as an ipympl
+  canvas (when the notebook runs ``%matplotlib widget``) or as a PNG in an
+  ``ipywidgets.Image`` (any other backend, and plain pytest). ``host.refresh()`` redraws
+  after artists were updated (``draw_idle`` on ipympl; a new PNG otherwise).
+* :class:`MessageBar` shows errors and notes in the panel (HTML-escaped), and
+  :meth:`MessageBar.guard` wraps a callback so an exception becomes a message instead of a
+  traceback that kills the panel.
+* :func:`classed` puts our CSS class names on widgets (stable selectors for browser tests).
+* :func:`span_slider` is a range slider that only reports when released.
+
+All CSS classes start with ``sb-``.
+"""
+
+from __future__ import annotations
+
+import functools
+import html
+import io
+import warnings
+from typing import Any, Callable
+
+#: Our panel look: header colour, accent, message colours.
+HEADER_BG = "#23414a"
+ACCENT = "#1f6f78"
+ERROR_FG = "#8c1d18"
+NOTE_FG = "#5b4a14"
+
+
+def classed(widget, *names: str):
+    """Add ``sb-<name>`` CSS classes to a widget and return it."""
+    for n in names:
+        widget.add_class(n if n.startswith("sb-") else f"sb-{n}")
+    return widget
+
+
+def interactive_backend() -> bool:
+    """True when matplotlib draws to ipympl canvases (``%matplotlib widget``)."""
+    import matplotlib
+
+    b = matplotlib.get_backend().lower()
+    return "ipympl" in b or b.endswith("widget") or "nbagg" in b
+
+
+class FigureHost:
+    """A figure made once, shown as an ipympl canvas or as a PNG image widget.
+
+    Parameters
+    ----------
+    figsize : (float, float)
+        Size [inch].
+    dpi : int
+        Resolution of the PNG fallback [dot/inch].
+    interactive : bool, optional
+        Force (True) or refuse (False) the ipympl canvas; default: follow the backend.
+    css : str
+        CSS class name of the shown widget.
+
+    Attributes
+    ----------
+    fig : matplotlib.figure.Figure
+    widget : ipywidgets.DOMWidget
+        The canvas (ipympl) or an ``ipywidgets.Image``.
+    interactive : bool
+    """
+
+    def __init__(self, figsize=(10.0, 4.2), dpi: int = 90, interactive: bool | None = None,
+                 css: str = "figure") -> None:
+        import ipywidgets as w
+
+        self.interactive = interactive_backend() if interactive is None else bool(interactive)
+        self.dpi = dpi
+        if self.interactive:
+            import matplotlib.pyplot as plt
+
+            with plt.ioff():
+                self.fig = plt.figure(figsize=figsize, dpi=dpi)
+            canvas = self.fig.canvas
+            for attr, val in (("header_visible", False), ("footer_visible", False),
+                              ("resizable", False), ("toolbar_position", "left")):
+                try:
+                    setattr(canvas, attr, val)
+                except Exception:  # noqa: BLE001 - older ipympl lacks some traits
+                    pass
+            self.widget = canvas
+        else:
+            from matplotlib.figure import Figure
+
+            self.fig = Figure(figsize=figsize, dpi=dpi)
+            self.widget = w.Image(format="png", layout=w.Layout(max_width="100%"))
+        classed(self.widget, css)
+        self.renders = 0
+
+    def refresh(self) -> None:
+        """Show the current state of the figure (after artists were updated)."""
+        self.renders += 1
+        if self.interactive:
+            self.fig.canvas.draw_idle()
+            return
+        buf = io.BytesIO()
+        self.fig.savefig(buf, format="png", dpi=self.dpi)
+        self.widget.value = buf.getvalue()
+
+    def close(self) -> None:
+        """Release the figure (ipympl keeps figures alive through pyplot)."""
+        if self.interactive:
+            import matplotlib.pyplot as plt
+
+            plt.close(self.fig)
+
+
+class MessageBar:
+    """A line of text in a panel for errors and notes; never raises into the frontend.
+
+    Attributes
+    ----------
+    widget : ipywidgets.HTML
+        Class ``sb-message``.
+    last : str
+        The last plain-text message ('' when cleared).
+    """
+
+    def __init__(self) -> None:
+        import ipywidgets as w
+
+        self.widget = classed(w.HTML(""), "message")
+        self.last = ""
+        self.kind = ""
+
+    def show(self, text: str, kind: str = "error") -> None:
+        """Show ``text`` (escaped) as an "error" or a "note"."""
+        self.last, self.kind = text, kind
+        fg = ERROR_FG if kind == "error" else NOTE_FG
+        mark = "⚠" if kind == "error" else "ℹ"
+        self.widget.value = (f'<span style="color:{fg}" data-kind="{kind}">{mark} '
+                             f"{html.escape(text)}</span>")
+
+    def clear(self) -> None:
+        """Remove the message."""
+        self.last, self.kind = "", ""
+        self.widget.value = ""
+
+    def guard(self, fn: Callable[..., Any]) -> Callable[..., Any]:
+        """Wrap a callback: exceptions become a message; warnings become a note."""
+
+        @functools.wraps(fn)
+        def wrapper(*args, **kwargs):
+            self.clear()
+            try:
+                with warnings.catch_warnings(record=True) as caught:
+                    warnings.simplefilter("always")
+                    out = fn(*args, **kwargs)
+            except Exception as exc:  # noqa: BLE001 - shown to the user instead
+                self.show(f"{type(exc).__name__}: {exc}", "error")
+                return None
+            notes = [str(c.message) for c in caught
+                     if not issubclass(c.category, (DeprecationWarning, PendingDeprecationWarning))]
+            if notes:
+                self.show("; ".join(dict.fromkeys(notes)), "note")
+            return out
+
+        return wrapper
+
+
+def span_slider(lo_hz: float, hi_hz: float, description: str = "span [MHz]"):
+    """A frequency range slider in MHz that reports only when released."""
+    import ipywidgets as w
+
+    lo, hi = lo_hz / 1e6, hi_hz / 1e6
+    step = max((hi - lo) / 1000.0, 1e-9)
+    return classed(w.FloatRangeSlider(
+        value=(lo, hi), min=lo, max=hi, step=step, description=description,
+        continuous_update=False, readout_format=".4f",
+        style={"description_width": "initial"}, layout=w.Layout(width="520px")), "span")
+
+
+def section(title: str, body, css: str, open_: bool = True):
+    """A titled, collapsible block of our own (a header button over its body).
+
+    Returns
+    -------
+    ipywidgets.VBox
+        Class ``sb-section`` and ``sb-<css>``; ``.header`` and ``.body`` attributes.
+    """
+    import ipywidgets as w
+
+    head = classed(w.ToggleButton(value=open_, description=title, icon="minus" if open_ else "plus",
+                                  layout=w.Layout(width="100%"), style={"button_color": "#dfe8e6",
+                                                                       "font_weight": "bold"}),
+                   "section-header", f"{css}-header")
+    box = w.VBox([head, body], layout=w.Layout(border="1px solid #c9d6d3", margin="4px 0",
+                                               padding="2px"))
+    classed(box, "section", css)
+    body.layout.display = None if open_ else "none"
+
+    def _toggle(change):
+        body.layout.display = None if change["new"] else "none"
+        head.icon = "minus" if change["new"] else "plus"
+
+    head.observe(_toggle, names="value")
+    box.header, box.body = head, body
+    return box
+
+
+def show(widget) -> None:
+    """Display a widget in the notebook."""
+    from IPython.display import display as _display
+
+    _display(widget)

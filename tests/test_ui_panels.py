@@ -1,0 +1,229 @@
+"""Widget cells in plain pytest (display=False): controls drive kit functions and the figure."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+pytest.importorskip("ipywidgets")
+
+import kit.views as kv  # noqa: E402
+from kit.ui.common import FigureHost, MessageBar, section  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def lot(demo_dir):
+    """The demo lot table (kit.load_folder with the lot's name pattern)."""
+    import kit
+
+    return kit.load_folder(demo_dir / "lot", pattern="{lot}-{serial}")
+
+
+def _rows(table, *names):
+    return tuple(table.index[table["name"] == n][0] for n in names)
+
+
+def test_message_bar_turns_errors_into_escaped_messages():
+    """A failing callback shows its error (HTML-escaped) instead of raising."""
+    bar = MessageBar()
+
+    @bar.guard
+    def boom():
+        raise ValueError("bad <file> & worse")
+
+    assert boom() is None
+    assert bar.kind == "error" and "bad <file> & worse" in bar.last
+    assert "&lt;file&gt; &amp; worse" in bar.widget.value
+
+
+def test_message_bar_reports_warnings_as_notes():
+    """A warning raised in a callback is shown as a note; the result is returned."""
+    import warnings
+
+    bar = MessageBar()
+    out = bar.guard(lambda: (warnings.warn("points set to NaN", UserWarning), 3)[1])()
+    assert out == 3 and bar.kind == "note" and "NaN" in bar.last
+
+
+def test_figure_host_png_fallback_refreshes():
+    """Without ipympl the figure is a PNG in an Image widget, renewed by refresh()."""
+    host = FigureHost(interactive=False)
+    ax = host.fig.add_subplot()
+    (line,) = ax.plot([0, 1], [0, 1])
+    host.refresh()
+    first = host.widget.value
+    line.set_data([0, 1], [1, 0])
+    host.refresh()
+    assert first[:4] == b"\x89PNG" and host.widget.value != first and host.renders == 2
+
+
+def test_section_folds_its_body():
+    """A section's header hides and shows its body."""
+    import ipywidgets as w
+
+    box = section("Lot", w.Label("x"), "lot")
+    box.header.value = False
+    assert box.body.layout.display == "none"
+    box.header.value = True
+    assert box.body.layout.display is None
+
+
+def test_lot_browser_overlays_selected_rows(lot):
+    """Selecting rows overlays their captures; the figure is updated in place, not rebuilt."""
+    from kit.ui.lot_browser import lot_browser
+
+    b = lot_browser(lot, display=False, interactive=False)
+    fig, ax = b.host.fig, b.ax_rect
+    b.select.value = _rows(lot, "pzd7-01", "pzd7-02", "pzd7-03")
+    assert [t.label for t in b.traces] == ["pzd7-01", "pzd7-02", "pzd7-03"]
+    assert len(b.lines_rect) == 3 and len(b.lines_plane) == 3
+    line0 = b.lines_rect[0]
+    before = b.host.widget.value
+    b.select.value = _rows(lot, "pzd7-04")
+    assert b.lines_rect[0] is line0 and len(b.lines_rect) == 1 and b.host.fig is fig
+    assert b.host.widget.value != before and b.ax_rect is ax
+    # the line holds the capture's |Z| (decimated), never altered
+    t = b.traces[0]
+    assert np.max(line0.get_ydata()) == pytest.approx(np.nanmax(np.abs(t.z)))
+
+
+def test_lot_browser_filters_and_table(lot):
+    """The name and status filters narrow the list; the HTML table escapes its text."""
+    from kit.ui.lot_browser import lot_browser
+
+    b = lot_browser(lot, display=False, interactive=False)
+    b.name_filter.value = "pzd7-1"
+    assert [lbl.split(" ")[0] for lbl, _ in b.select.options] == ["pzd7-10", "pzd7-11", "pzd7-12"]
+    b.name_filter.value = ""
+    b.status_filter.value = "warning"
+    assert all("warning" in lbl for lbl, _ in b.select.options)
+    assert "<table" in b.table_html.value
+
+
+def test_chart_span_and_plane_switch(lot):
+    """Switching chart relabels the axis; the span sets x limits; every left view draws."""
+    from kit.ui.lot_browser import lot_browser
+
+    b = lot_browser(lot, select=[1, 2], display=False, interactive=False)
+    b.chart.value = "z_phase"
+    assert b.ax_rect.get_ylabel() == "phase of Z [°]"
+    b.span.value = (1.7, 2.1)
+    assert b.ax_rect.get_xlim() == pytest.approx((1.7e6, 2.1e6))
+    assert b.lines_rect[0].get_xdata().max() <= 2.1e6 + 2e3
+    for plane in ("smith:y", "polar", "circle", "smith:both"):
+        b.plane.value = plane
+        assert len(b.lines_plane) == 2 and b.message.last == "", plane
+    b.plane.value = "circle"
+    x = b.lines_plane[0].get_xdata()
+    assert np.nanmax(x) == pytest.approx(1e3 * np.nanmax(b.traces[0].y.real[
+        (b.traces[0].f_hz >= 1.7e6) & (b.traces[0].f_hz <= 2.1e6)]), rel=1e-9)
+
+
+def test_callback_error_stays_in_panel(lot):
+    """A failing correction shows a message and leaves the panel working."""
+    from kit.ui.lot_browser import lot_browser
+
+    def broken(cap):
+        raise RuntimeError("standards missing for this fixture")
+
+    b = lot_browser(lot, select=[1], display=False, interactive=False, correction=broken)
+    b.corrected.value = "corrected"
+    assert "standards missing" in b.message.last
+    b.corrected.value = "raw"
+    assert b.message.last == "" and len(b.lines_rect) == 1
+
+
+def test_corrected_toggle_uses_the_correction(lot):
+    """The corrected view draws the correction's output (here a known 10 ohm series removal)."""
+    import skrf as rf
+
+    import kit
+    from kit.ui.lot_browser import lot_browser
+
+    def minus_10_ohm(cap):
+        z = kit.impedance(cap) - 10.0
+        ntwk = rf.Network(frequency=cap.network.frequency, s=kv.gamma_from_z(z).reshape(-1, 1, 1),
+                          z0=50)
+        return cap.derive(ntwk, step={"kind": "test"})
+
+    b = lot_browser(lot, select=[1], display=False, interactive=False, correction=minus_10_ohm)
+    raw = b.traces[0].z.copy()
+    b.corrected.value = "corrected"
+    assert np.allclose(b.traces[0].z, raw - 10.0)
+
+
+def test_marker_panel_places_lists_and_exports(lot, tmp_path):
+    """Markers are found with kit.views.find_marker, listed, drawn and written to CSV."""
+    import pandas as pd
+
+    from kit.ui.lot_browser import lot_browser
+    from kit.ui.markers import marker_panel
+
+    b = lot_browser(lot, select=[1, 2], display=False, interactive=False)
+    m = marker_panel(b, csv_path=tmp_path / "m.csv", display=False)
+    assert m.target.options == ("pzd7-01", "pzd7-02")
+    m.kind.value = "min_z"
+    m.place.click()
+    t = b.traces[0]
+    assert m.readouts[0]["index"] == kv.find_marker(t, "min_z", span_hz=b.span_hz())
+    assert "Ω" in m.readout.value and "M1" in m.table_html.value
+    m.add("nearest", 2.2)
+    assert abs(m.readouts[1]["f_hz"] - 2.2e6) < 2e3
+    assert len(b.marker_artists) == 2 * 2 * 2 + 1  # 2 markers x 2 views x (dot, label) + readout
+    m.export.click()
+    back = pd.read_csv(tmp_path / "m.csv")
+    assert list(back["marker"]) == ["M1", "M2"] and "wrote 2" in m.message.last
+    assert m.csv_text.value.startswith("marker,trace,f_hz")
+    b.chart.value = "r"  # markers follow a chart change
+    assert len(b.marker_artists) == 9
+    m.clear.click()
+    assert b.marker_artists == [] and m.readouts == []
+
+
+def test_marker_panel_reports_impossible_search(lot):
+    """A search that finds nothing says why in the panel."""
+    from kit.ui.lot_browser import lot_browser
+    from kit.ui.markers import marker_panel
+
+    b = lot_browser(lot, display=False, interactive=False)
+    m = marker_panel(b, display=False)
+    m.place.click()
+    assert "select at least one capture" in m.message.last
+    b.select.value = _rows(lot, "pzd7-01")
+    b.span.value = (1.0, 1.1)
+    m.kind.value = "zero_phase"
+    m.place.click()
+    assert "does not cross zero" in m.message.last
+
+
+def test_workbench_stacks_sections(lot, tmp_path):
+    """The workbench stacks the lot and marker sections (no tabs) and adds extra panels."""
+    import ipywidgets as w
+
+    from kit.ui.workbench import workbench
+
+    wb = workbench(lot, select=[1], display=False, interactive=False,
+                   markers_csv=str(tmp_path / "m.csv"), extras=False)
+    assert list(wb.sections) == ["Lot", "Markers"]
+    assert not any(isinstance(c, w.Tab) for c in wb.widget.children)
+    wb.add_section("Notes", w.Label("free text"))
+    assert wb.widget.children[-1] is wb.sections["Notes"]
+    wb.add_available_panels([("Nothing", "no_such_panel", "workbench_section")])
+    assert "not available" in wb.skipped["Nothing"]
+
+
+def test_interactive_canvas_when_ipympl_present(lot):
+    """With ipympl the figure is a canvas widget updated by draw_idle, and a span selector exists."""
+    pytest.importorskip("ipympl")
+    import matplotlib.pyplot as plt
+
+    from kit.ui.lot_browser import lot_browser
+
+    b = lot_browser(lot, select=[1], display=False, interactive=True)
+    try:
+        assert type(b.host.widget).__name__ == "Canvas" and b._span_selector is not None
+        b._span_selector.onselect(1.8e6, 2.0e6)
+        assert b.span.value == pytest.approx((1.8, 2.0), abs=b.span.step)
+    finally:
+        b.host.close()
+        plt.close("all")
