@@ -97,7 +97,7 @@ def residual(corrected: Any, expected_ohms: Any, *, limit: float | None = None,
     .. [1] Verification on a known part after compensation: an instrument maker's impedance
        measurement handbook, §4.3 (common practice of checking with a known standard).
     """
-    from ..impedance import impedance
+    from .. import impedance  # resolved through kit._EXPORTS (module may move)
 
     cap = as_capture(corrected)
     f = np.asarray(cap.f_hz, dtype=float)
