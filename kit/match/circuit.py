@@ -178,7 +178,7 @@ def load_name(load) -> str:
 
 def measured_z(load) -> tuple[np.ndarray, np.ndarray]:
     """Frequency grid [Hz] and one-port impedance [ohm] of a Capture or Network."""
-    from ..impedance import impedance
+    from ..immittance import impedance
 
     ntwk = load.network if isinstance(load, Capture) else load
     return np.asarray(ntwk.frequency.f, dtype=float), impedance(load, method="reflection")

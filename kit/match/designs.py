@@ -277,9 +277,11 @@ def _l_solutions(zl: complex, z0: float, topology: str):
         if disc >= 0:
             for sign in (+1, -1):
                 b = (xl + sign * np.sqrt(rl / z0) * np.sqrt(disc)) / (rl * rl + xl * xl)
-                if b == 0:
-                    continue
-                x = 1.0 / b + xl * z0 / rl - z0 / (b * rl)
+                if abs(b) < 1e-12 / abs(zl):
+                    b = 0.0
+                # X = 1/B + XL Z0/RL - Z0/(B RL) (Pozar), evaluated as the reactance that
+                # cancels Im of (YL + jB)^-1: identical, but without 0/0 when B -> 0.
+                x = -(1.0 / (1.0 / zl + 1j * b)).imag
                 out.append(("shunt-load", sign, x, b))
         elif topology == "shunt-load":
             raise ValueError(
@@ -348,14 +350,21 @@ def l_network(z_load_ohm, f_hz: float, r_source_ohm: float = 50.0,
         topology = "shunt-load" if zl.real > z0 else "series-load"
     if topology not in ("shunt-load", "series-load", "all"):
         raise ValueError(f"topology must be auto, shunt-load, series-load or all, got {topology!r}")
-    designs = []
-    for i, (topo, sign, x, b) in enumerate(_l_solutions(zl, z0, topology), start=1):
+    designs, seen = [], []
+    sols = []
+    for topo, sign, x, b in _l_solutions(zl, z0, topology):
+        key = (np.round(x / z0, 12), np.round(b * z0, 12), topo if b and x else "")
+        if key not in seen:  # a degenerate case (one element) comes out twice
+            seen.append(key)
+            sols.append((topo, sign, x, b))
+    for i, (topo, sign, x, b) in enumerate(sols, start=1):
         if topo == "shunt-load":
             parts = [_reactive_part("1", "series", x, w, "X"), _reactive_part("2", "shunt", b, w, "B")]
         else:
             parts = [_reactive_part("1", "shunt", b, w, "B"), _reactive_part("2", "series", x, w, "X")]
         parts = tuple(p for p in parts if p is not None)
         words = ", ".join(f"{p.placement} {'L' if p.kind == 'L' else 'C'}" for p in parts)
+        words = words or "no parts: the load is already matched"
         designs.append(MatchDesign(
             kind="l-network",
             title=f"L-network solution {i} ({topo}, {words}) at {eng(f, 'Hz')}",
