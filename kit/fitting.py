@@ -22,6 +22,11 @@ Method (methods sheet section 2.4; common practice, no source)
   count alike. ``weighting="reflection"`` uses the noise of a reflection measurement with a
   constant error in Gamma, sigma_Y = |Y| |Z + Z0|^2 / (2 Z0 |Z|); ``"uniform"`` is a plain
   admittance fit.
+* Flags: severe ones (:data:`SEVERE_FLAGS`) make ``ok`` False; advice flags are
+  "span-too-narrow" (fs or fp of the fitted model outside the data), "under-resolved" (fewer
+  than 3 points within the half-power band), "large-uncertainty:<p>" (stderr > 50 %) and
+  "systematic-residual" (lag-1 autocorrelation of the residual above 0.5: the model does
+  not describe the data to within the noise, so the stated errors are too small).
 * Uncertainties: cov(theta) = s^2 (J^T J)^-1 with s^2 = sum r^2 / (2N - P), so they are right
   when the weighting matches the noise up to a constant factor; stderr(p) = p stderr(theta).
   Derived figures (fs, fp, k_eff, Qm) carry uncertainties propagated from cov(theta).
@@ -402,6 +407,10 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
     if np.isfinite(fs) and np.isfinite(qm) and qm > 0:
         if np.count_nonzero(np.abs(f - fs) <= fs / (2 * qm)) < 3:
             flags.append("under-resolved")
+    half = len(res) // 2
+    rho = [_lag1(res[:half]), _lag1(res[half:])]
+    if half >= 20 and max(rho) > 0.5:
+        flags.append("systematic-residual")
     for p, e in stderr.items():
         if np.isfinite(e) and e > 0.5 * params[p]:
             flags.append(f"large-uncertainty:{p}")
@@ -411,6 +420,12 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
                      derived=derived, derived_stderr=derived_sd, residual_rel=resid_rel,
                      ok=not severe, flags=tuple(dict.fromkeys(flags)), reason=reason,
                      nfev=int(sol.nfev), njev=int(sol.njev or 0), start=dict(p0), **common)
+
+
+def _lag1(r):
+    """Lag-1 autocorrelation of a residual sequence (near 0 for white noise)."""
+    den = float(r @ r)
+    return float(r[:-1] @ r[1:]) / den if den > 0 else 0.0
 
 
 def _derived(mdl, th, cov):
@@ -513,6 +528,8 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         span = (float(np.min(f)), float(np.max(f))) if len(f) else None
     keep = np.isfinite(f) & np.isfinite(zz) & (zz != 0)
     f, zz = f[keep], zz[keep]
+    order = np.argsort(f, kind="stable")
+    f, zz = f[order], zz[order]
     common = dict(name=name, modes=int(modes), model_options=dict(mdl.options), method=method,
                   weighting=weighting, span_hz=span, n_points=int(len(f)),
                   f_hz=f if keep_data else None, z=zz if keep_data else None)
