@@ -71,7 +71,7 @@ def _load_plugins() -> None:
     # Commands that live with their concept register themselves on import.
     import importlib
 
-    for mod in ("kit.procedure",):
+    for mod in ("kit.batch",):
         try:
             importlib.import_module(mod)
         except ModuleNotFoundError as exc:

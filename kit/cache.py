@@ -1,0 +1,171 @@
+"""A cache of parsed captures keyed by the content hash of the file.
+
+Re-running a procedure over an unchanged folder reads each file's bytes (to hash them) but
+does not parse them again. Entries are numpy ``.npz`` files read with
+``allow_pickle=False``; each holds a checksum of its own arrays, so a corrupted entry is
+detected, rebuilt and reported, never trusted. The name-pattern fields come from the file
+name, not its content, and are computed afresh on every read.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import tempfile
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import __version__
+from .capture import Capture, CaptureError, Finding
+from .names import parse_name
+
+#: Bumped whenever the parser's output could change; old entries are then ignored.
+CACHE_FORMAT = f"1-{__version__}"
+
+
+def default_cache_dir() -> Path:
+    """The user's cache folder for sweepbook (``$XDG_CACHE_HOME/sweepbook`` or ``~/.cache/sweepbook``)."""
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    return Path(base) / "sweepbook"
+
+
+def _checksum(arrays: dict[str, np.ndarray]) -> str:
+    h = hashlib.sha256()
+    for k in sorted(arrays):
+        a = np.ascontiguousarray(arrays[k])
+        h.update(k.encode())
+        h.update(str(a.dtype).encode())
+        h.update(str(a.shape).encode())
+        h.update(a.tobytes())
+    return h.hexdigest()
+
+
+class CaptureCache:
+    """Parsed captures on disk, keyed by SHA-256 of the file bytes.
+
+    Parameters
+    ----------
+    folder : str or Path, optional
+        Where entries live; default :func:`default_cache_dir`.
+
+    Attributes
+    ----------
+    stats : dict
+        Counts of "hit", "miss" and "rebuilt" reads by this object.
+    """
+
+    def __init__(self, folder: str | Path | None = None) -> None:
+        self.folder = Path(folder) if folder is not None else default_cache_dir()
+        self.root = self.folder / f"v{CACHE_FORMAT}"
+        self.stats = {"hit": 0, "miss": 0, "rebuilt": 0}
+
+    def entry(self, sha256: str) -> Path:
+        """Path of the entry for a content hash."""
+        return self.root / sha256[:2] / f"{sha256}.npz"
+
+    def load(self, path: str | Path, name_pattern: str | None = None) -> tuple[Capture, str]:
+        """The capture of ``path`` and how it was obtained ("hit", "miss" or "rebuilt").
+
+        Raises
+        ------
+        CaptureError
+            As :func:`kit.load` for a file it refuses (refusals are not cached).
+        """
+        from .touchstone import load
+
+        path = Path(path)
+        try:
+            data = path.read_bytes()
+        except OSError:
+            return load(path, name_pattern), "miss"  # load raises the right CaptureError
+        sha = hashlib.sha256(data).hexdigest()
+        entry = self.entry(sha)
+        status = "miss"
+        problem = None
+        if entry.exists():
+            try:
+                cap = self._read(entry, sha, path, name_pattern)
+                self.stats["hit"] += 1
+                return cap, "hit"
+            except Exception as exc:  # noqa: BLE001 - any damage means: rebuild, never trust
+                status, problem = "rebuilt", f"{type(exc).__name__}: {exc}"
+        cap = load(path, name_pattern)
+        if cap.sha256 != sha:  # the file changed between the two reads
+            raise CaptureError("the file changed while it was being read; run again", path)
+        self._write(entry, cap)
+        self.stats[status] += 1
+        if problem:
+            cap = cap.derive(cap.network, findings=(Finding(
+                "warning", f"the cache entry {entry.name} was damaged ({problem}); it was "
+                "rebuilt from the file", None, None, "cache-rebuilt", str(path)),))
+        return cap, status
+
+    # ------------------------------------------------------------------ entries
+    def _write(self, entry: Path, cap: Capture) -> None:
+        meta = {k: v for k, v in cap.meta.items() if k not in ("fields", "name_pattern")}
+        arrays = {
+            "f_hz": np.asarray(cap.f_hz, float),
+            "s": np.asarray(cap.s, complex),
+            "z0": np.asarray(cap.z0, complex),
+            "meta": np.frombuffer(json.dumps(meta, default=str).encode(), dtype=np.uint8),
+            "findings": np.frombuffer(json.dumps([f.to_dict() for f in cap.findings
+                                                  if f.code != "name-pattern"]).encode(),
+                                      dtype=np.uint8),
+            "s_def": np.frombuffer(str(cap.network.s_def or "power").encode(), dtype=np.uint8),
+            "sha256": np.frombuffer(cap.sha256.encode(), dtype=np.uint8),
+        }
+        arrays["checksum"] = np.frombuffer(_checksum(arrays).encode(), dtype=np.uint8)
+        entry.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(dir=entry.parent, prefix=f".{entry.stem}.", suffix=".npz")
+        try:
+            with os.fdopen(fd, "wb") as fh:
+                np.savez(fh, **arrays)
+            os.replace(tmp, entry)
+        except BaseException:
+            Path(tmp).unlink(missing_ok=True)
+            raise
+
+    def _read(self, entry: Path, sha: str, path: Path, name_pattern: str | None) -> Capture:
+        import skrf
+
+        with np.load(entry, allow_pickle=False) as z:
+            arrays = {k: z[k] for k in z.files}
+        stored = arrays.pop("checksum").tobytes().decode()
+        if stored != _checksum(arrays):
+            raise ValueError("checksum mismatch")
+        if arrays["sha256"].tobytes().decode() != sha:
+            raise ValueError("entry belongs to other content")
+        meta = json.loads(arrays["meta"].tobytes().decode())
+        findings = [Finding(**d) for d in json.loads(arrays["findings"].tobytes().decode())]
+        for f in findings:
+            object.__setattr__(f, "path", str(path))
+        meta["name_pattern"] = name_pattern
+        meta["fields"] = {}
+        if name_pattern:
+            fields, finding = parse_name(path.stem, name_pattern, str(path))
+            meta["fields"] = fields
+            if finding is not None:
+                findings.append(finding)
+        net = skrf.Network(frequency=skrf.Frequency.from_f(arrays["f_hz"], unit="hz"),
+                           s=arrays["s"], z0=arrays["z0"],
+                           s_def=arrays["s_def"].tobytes().decode(), name=path.stem)
+        return Capture(network=net, path=path, sha256=sha, meta=meta, findings=tuple(findings))
+
+    def clear(self) -> int:
+        """Remove every entry of this cache format; returns how many were removed."""
+        n = 0
+        if self.root.exists():
+            for p in self.root.rglob("*.npz"):
+                p.unlink()
+                n += 1
+        return n
+
+
+def describe(cache: CaptureCache | None) -> dict[str, Any]:
+    """Plain-data description for provenance."""
+    if cache is None:
+        return {"cache": None}
+    return {"cache": str(cache.folder), "cache_format": CACHE_FORMAT, **cache.stats}
