@@ -203,3 +203,15 @@ def test_draw_limits_on_axes():
     vlines = [a for a in artists if "series resonance" in a.get_label()]
     assert sorted(v.get_xdata()[0] for v in vlines) == [1.95, 2.05]
     assert lim.draw(ax, curve="z_mag_ohm", quantities=False) == []
+
+
+def test_documented_example_parses():
+    """The example in docs/limits.md is a valid limits file (keeps the documentation true)."""
+    import re
+    from pathlib import Path
+
+    doc = (Path(__file__).resolve().parents[1] / "docs" / "limits.md").read_text()
+    block = re.search(r"```toml\n(.*?)```", doc, re.S).group(1)
+    lim = parse_limits(block, "docs/limits.md")
+    assert [q.name for q in lim.quantities] == ["fs_hz", "k_eff", "qm", "c0_f"]
+    assert lim.masks[1].upper == (-3.0, -6.0)
