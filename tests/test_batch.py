@@ -1,0 +1,151 @@
+"""Batch runs (kit.batch, kit.cache, `sweepbook run`) on the demo lot."""
+
+from __future__ import annotations
+
+import shutil
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from kit.batch import run
+from kit.cache import CaptureCache
+from kit.cli import main
+from kit.procedure import Procedure
+
+KEY = ["capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f",
+       "c0_f_stderr", "fit_ok", "verdict"]
+REQUIRED = ["capture", "path", "sha256", "status", "error", "fs_hz", "fp_hz", "fm_hz", "fn_hz",
+            "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f", "c0_f_stderr", "r1_ohm_stderr",
+            "l1_h_stderr", "c1_f_stderr", "fit_ok", "verdict", "verdict_reasons"]
+
+
+@pytest.fixture
+def lot(tmp_path, demo_dir):
+    """A copy of part of the demo lot, its standards, a broken file and a procedure file."""
+    d = tmp_path / "lot"
+    d.mkdir()
+    for n in ("01", "02", "04", "07"):
+        shutil.copy(demo_dir / "lot" / f"pzd7-{n}.s1p", d)
+    (d / "pzd7-99.s1p").write_text("# Hz S RI R 50\n1e6 0.1\n")  # truncated
+    shutil.copytree(demo_dir / "standards", tmp_path / "standards")
+    proc = tmp_path / "proc.toml"
+    proc.write_text("""
+[import]
+name_pattern = "{lot}-{serial}"
+[[correction]]
+kind = "osl"
+open = "standards/open.s1p"
+short = "standards/short.s1p"
+load = "standards/load.s1p"
+[fit]
+model = "bvd"
+span_hz = [1.6e6, 2.4e6]
+[limits]
+fs_hz = { min = 1.8e6, max = 1.9e6 }
+k_eff = { min = 0.3 }
+""")
+    return tmp_path, d, proc
+
+
+def test_bad_file_is_an_error_row_and_the_rest_completes(lot):
+    """A truncated capture is a row with status 'error'; every other capture is analysed (demo lot)."""
+    root, d, proc = lot
+    res = run(proc, d, workers=1, use_cache=False)
+    s = res.summary
+    assert set(REQUIRED) <= set(s.columns)
+    assert len(s) == 5
+    bad = s[s["capture"] == "pzd7-99"].iloc[0]
+    assert bad["status"] == "error" and "truncated" in bad["error"]
+    good = s[s["status"] == "ok"]
+    assert len(good) == 4 and good["fit_ok"].all()
+    # the cracked (04) and de-poled (07) parts fail their limits; 01 and 02 pass
+    verdict = dict(zip(good["capture"], good["verdict"]))
+    assert verdict == {"pzd7-01": "pass", "pzd7-02": "pass", "pzd7-04": "fail", "pzd7-07": "fail"}
+    assert good["c0_f_stderr"].gt(0).all() and good["serial"].tolist() == [1, 2, 4, 7]
+
+
+def test_missing_standard_gives_error_rows_not_a_crash(lot):
+    """A missing standard makes every capture an error row naming it; the run still returns."""
+    root, d, proc = lot
+    (root / "standards" / "short.s1p").unlink()
+    s = run(proc, d, workers=1, use_cache=False).summary
+    assert (s["status"] == "error").all()
+    assert s["error"].str.contains("short standard").sum() == 4
+
+
+def test_processes_and_dask_give_identical_summaries(lot):
+    """Local processes and a Dask LocalCluster with worker processes give the same summary as one process."""
+    distributed = pytest.importorskip("dask.distributed")
+    root, d, proc = lot
+    from kit import batch
+
+    one = run(proc, d, workers=1, use_cache=False).summary
+    old = batch.CHUNK
+    batch.CHUNK = 2
+    try:
+        procs = run(proc, d, workers=2, use_cache=False)
+        with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                      dashboard_address=None) as cluster, \
+                distributed.Client(cluster) as client:
+            dask_res = run(proc, d, client=client, use_cache=False)
+    finally:
+        batch.CHUNK = old
+    assert procs.stats["engine"].endswith("local processes")
+    assert dask_res.stats["engine"].startswith("dask")
+    pd.testing.assert_frame_equal(one[KEY], procs.summary[KEY])
+    pd.testing.assert_frame_equal(one[KEY], dask_res.summary[KEY])
+
+
+def test_cache_hits_changed_files_and_damaged_entries(lot, tmp_path):
+    """Second run reads from the cache; a changed file is re-parsed; a damaged entry is rebuilt and reported."""
+    root, d, proc = lot
+    cache = tmp_path / "cache"
+    first = run(proc, d, workers=1, cache_dir=cache)
+    assert first.stats["miss"] == 4 and first.stats["hit"] == 0
+    second = run(proc, d, workers=1, cache_dir=cache)
+    assert second.stats["hit"] == 4
+    pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
+    # change one file: a miss for that one only
+    p = d / "pzd7-01.s1p"
+    p.write_text(p.read_text().replace("! Operator: demo bench 3", "! Operator: demo bench 4"))
+    third = run(proc, d, workers=1, cache_dir=cache)
+    assert third.stats["hit"] == 3 and third.stats["miss"] == 1
+    # damage an entry: rebuilt, reported, results unchanged
+    cc = CaptureCache(cache)
+    cap, _ = cc.load(d / "pzd7-02.s1p")
+    entry = cc.entry(cap.sha256)
+    raw = bytearray(entry.read_bytes())
+    raw[len(raw) // 2] ^= 0xFF
+    entry.write_bytes(bytes(raw))
+    cap2, status = CaptureCache(cache).load(d / "pzd7-02.s1p")
+    assert status == "rebuilt"
+    assert any(f.code == "cache-rebuilt" for f in cap2.findings)
+    np.testing.assert_array_equal(cap2.s, cap.s)
+    assert CaptureCache(cache).load(d / "pzd7-02.s1p")[1] == "hit"
+
+
+def test_command_line_run_writes_every_output(lot, tmp_path, capsys):
+    """`sweepbook run` writes summary (Parquet, CSV), sweeps, provenance and report; exit 0 with error rows."""
+    root, d, proc = lot
+    out = tmp_path / "out"
+    code = main(["run", str(proc), str(d), "--out", str(out), "--workers", "1",
+                 "--cache", str(tmp_path / "c")])
+    assert code == 0
+    for name in ("summary.parquet", "summary.csv", "sweeps.parquet", "provenance.json", "report.html"):
+        assert (out / name).is_file(), name
+    s = pd.read_parquet(out / "summary.parquet")
+    assert (s["status"] == "error").sum() == 1 and len(s) == 5
+    assert "1 error row" in capsys.readouterr().out
+    # a run that cannot proceed (no such procedure) is a non-zero exit
+    assert main(["run", str(tmp_path / "none.toml"), str(d), "--out", str(out)]) == 2
+
+
+def test_procedure_saved_from_python_runs_the_same(lot, tmp_path):
+    """A procedure saved with to_file (as the notebook does) runs with an identical summary."""
+    root, d, proc = lot
+    p = Procedure.from_file(proc)
+    saved = p.to_file(tmp_path / "elsewhere" / "saved.toml")
+    a = run(p, d, workers=1, use_cache=False).summary
+    b = run(saved, d, workers=1, use_cache=False).summary
+    pd.testing.assert_frame_equal(a[KEY], b[KEY])
