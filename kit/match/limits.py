@@ -187,19 +187,24 @@ def _fit(f, z, model):
     n = f.size
     r_g = float(np.mean(g))
     g_std = float(np.std(g, ddof=1) / np.sqrt(n)) if n > 1 else float("nan")
+    wc = float(np.sqrt(w[0] * w[-1]))
+    x = w / wc  # scaled so that both columns are of order 1
     if model == "parallel-rc":
-        a = w[:, None]
+        a = x[:, None]
+        scale = np.array([1.0 / wc])
     else:
-        a = np.column_stack([w, -1.0 / w])
+        a = np.column_stack([x, -1.0 / x])
+        scale = np.array([1.0 / wc, wc])  # coef -> (C, 1/L)
     coef, *_ = np.linalg.lstsq(a, y.imag, rcond=None)
     b_fit = a @ coef
     dof = n - a.shape[1]
     if dof > 0:
         s2 = float(np.sum((y.imag - b_fit) ** 2) / dof)
         cov = s2 * np.linalg.inv(a.T @ a)
-        std = np.sqrt(np.diag(cov))
+        std = np.sqrt(np.diag(cov)) * scale
     else:
         std = np.full(a.shape[1], np.nan)
+    coef = coef * scale
     y_fit = r_g + 1j * b_fit
     resid = float(np.sqrt(np.mean(np.abs(y_fit - y) ** 2)) / np.sqrt(np.mean(np.abs(y) ** 2)))
     return r_g, g_std, coef, std, resid
