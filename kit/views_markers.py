@@ -24,6 +24,7 @@ MARKER_KINDS: dict[str, str] = {
     "max_z": "maximum |Z|",
     "zero_phase": "phase of Z crosses zero",
     "max_g": "maximum conductance G",
+    "max_s": "maximum |S| (S11 or S21)",
     "nearest": "nearest to a frequency",
 }
 
@@ -42,7 +43,7 @@ def find_marker(t: Trace, kind: str, f_hz: float | None = None, span_hz=None) ->
     ----------
     t : Trace
         The trace searched.
-    kind : {"min_z", "max_z", "zero_phase", "max_g", "nearest"}
+    kind : {"min_z", "max_z", "zero_phase", "max_g", "max_s", "nearest"}
         What to look for (see :data:`MARKER_KINDS`). "zero_phase" returns the first point,
         in the span, next to a sign change of the phase of Z, on the side with the smaller
         absolute phase.
@@ -77,6 +78,8 @@ def find_marker(t: Trace, kind: str, f_hz: float | None = None, span_hz=None) ->
         return int(idx[np.argmin(np.abs(t.z[idx]))])
     if kind == "max_z":
         return int(idx[np.argmax(np.abs(t.z[idx]))])
+    if kind == "max_s":
+        return int(idx[np.nanargmax(np.abs(t.s[idx]))])
     if kind == "max_g":
         g = t.y.real[idx]
         return int(idx[np.nanargmax(g)])

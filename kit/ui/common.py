@@ -203,6 +203,28 @@ def section(title: str, body, css: str, open_: bool = True):
     return box
 
 
+class StopNotebook(Exception):
+    """Raised by a notebook cell to stop a run with a plain message and no traceback.
+
+    IPython shows only the message (through ``_render_traceback_``); running all cells stops
+    there, which is the clean end of a notebook whose data are absent.
+    """
+
+    def _render_traceback_(self) -> list[str]:
+        return [f"Stopped: {self}"]
+
+
+def require_folder(path, what: str = "data") -> "Path":
+    """The folder as a Path, or :class:`StopNotebook` naming it and what is missing."""
+    from pathlib import Path
+
+    p = Path(path)
+    if not p.is_dir():
+        raise StopNotebook(f"the {what} folder {p.resolve()} is absent; this notebook needs it "
+                           "and stops here (nothing else is wrong)")
+    return p
+
+
 def show(widget) -> None:
     """Display a widget in the notebook."""
     from IPython.display import display as _display
