@@ -335,7 +335,8 @@ def _fit_columns(d: dict[str, Any]) -> dict[str, Any]:
     out["fit_ok"] = bool(d["ok"]) if "ok" in d and d["ok"] is not None else None
     out["fit_flags"] = _flags(d.get("flags"))
     if d.get("reason"):
-        out["fit_flags"] = "; ".join(x for x in (out["fit_flags"], str(d["reason"])) if x)
+        parts = [x for x in out["fit_flags"].split("; ") + [str(d["reason"])] if x]
+        out["fit_flags"] = "; ".join(dict.fromkeys(parts))
     if "residual_rel" in d:
         out["fit_residual_rel"] = _num(d["residual_rel"])
     if d.get("model"):

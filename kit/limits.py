@@ -237,7 +237,8 @@ def parse_limits(text: str, source: str = "<limits>") -> Limits:
     if unknown:
         k = sorted(unknown)[0]
         where = _where(source, _line_of(text, r"^[ \t]*\[?[ \t]*" + re.escape(k)))
-        raise LimitsError(f"{where}: unknown entry {k!r}; a limits file has [quantity.<column>] tables "
+        raise LimitsError(f"{where}: unknown entry {k!r}; a limits file has "
+                          "[quantity.<column>] tables "
                           "and [[mask]] entries")
     quantities = []
     qdoc = doc.get("quantity", {})
@@ -622,8 +623,9 @@ def draw_limits(ax, limits: Limits, curve: str = "z_mag_ohm", f_scale: float = 1
         for q in limits.quantities:
             if not q.name.endswith("_hz"):
                 continue
-            for b in (q.min, q.max):
-                if b is not None:
-                    artists.append(ax.axvline(b / f_scale, color=colour, ls=":", lw=1.0,
-                                              alpha=0.7, label=f"{q.label or q.name} limit"))
+            bounds = [b for b in (q.min, q.max) if b is not None]
+            for k, b in enumerate(bounds):
+                label = f"{q.label or q.name} limit" if k == 0 else "_nolegend_"
+                artists.append(ax.axvline(b / f_scale, color=colour, ls=":", lw=1.0,
+                                          alpha=0.7, label=label))
     return artists

@@ -140,7 +140,8 @@ def capture_identity(capture: Any) -> dict[str, Any]:
             raise ReviewLogError("a capture given as a dict needs a 'sha256' entry")
         path = capture.get("path")
         name = capture.get("capture") or (Path(path).stem if path else sha[:12])
-        return {"capture": str(name), "sha256": str(sha), "path": None if path is None else str(path)}
+        return {"capture": str(name), "sha256": str(sha),
+                "path": None if path is None else str(path)}
     if isinstance(capture, (str, os.PathLike)):
         p = Path(capture)
         try:

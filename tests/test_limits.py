@@ -200,8 +200,9 @@ def test_draw_limits_on_axes():
     assert len(lines) == 1
     np.testing.assert_allclose(lines[0].get_xdata(), [1.0, 2.0])
     np.testing.assert_allclose(lines[0].get_ydata(), [-9.0, -9.0])
-    vlines = [a for a in artists if "series resonance" in a.get_label()]
+    vlines = [a for a in artists if a not in lines and a.get_label() != "match lower"]
     assert sorted(v.get_xdata()[0] for v in vlines) == [1.95, 2.05]
+    assert [v.get_label() for v in vlines].count("series resonance limit") == 1
     assert lim.draw(ax, curve="z_mag_ohm", quantities=False) == []
 
 

@@ -12,7 +12,6 @@ import sqlite3
 import subprocess
 import sys
 import textwrap
-import time
 from pathlib import Path
 
 import numpy as np
@@ -247,4 +246,3 @@ def test_reopen_after_fork_like_pid_change(tmp_path, monkeypatch):
     assert log._connect() is not first
     log.add(_cap(), "note", text="x")
     assert len(log) == 1
-    _ = time  # noqa: F841  (time used by the writer scripts)
