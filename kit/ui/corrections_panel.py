@@ -233,8 +233,10 @@ class CorrectionsPanel:
             kv.plot_smith(ax_s, cap.s[:, 0, 0], label=label, i=i)
             z = kit_impedance(cap)
             kv.plot_z_mag_phase(ax_m, ax_p, cap.f_hz, z, label=label, i=i)
-        ax_s.legend(loc="lower left", fontsize=8)
+        ax_s.legend(loc="upper left", bbox_to_anchor=(-0.02, 1.04), fontsize=8, frameon=False)
         ax_m.legend(loc="best", fontsize=8)
+        ax_m.tick_params(labelbottom=False)
+        ax_m.set_xlabel("")
         ax_m.set_title(self.raw.name, fontsize=9)
         fig.subplots_adjust(left=0.04, right=0.98, bottom=0.12, top=0.92, wspace=0.25,
                             hspace=0.08)
