@@ -225,6 +225,17 @@ def parse_limits(text: str, source: str = "<limits>") -> Limits:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise LimitsError(f"{source}: not valid TOML: {exc}") from None
+    return limits_from_dict(doc, source, text)
+
+
+def limits_from_dict(doc: dict[str, Any], source: str = "<limits>", text: str = "") -> Limits:
+    """Limits from an already parsed TOML table (e.g. the [limits] table of another file).
+
+    Same checks and messages as :func:`parse_limits`; ``text`` (the TOML source, if known)
+    only serves to name lines in messages.
+    """
+    if not isinstance(doc, dict):
+        raise LimitsError(f"{source}: limits must be a table, got {type(doc).__name__}")
     fmt = doc.get("format", FORMAT)
     if fmt != FORMAT:
         where = _where(source, _line_of(text, r"^[ \t]*format"))

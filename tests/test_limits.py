@@ -216,3 +216,15 @@ def test_documented_example_parses():
     lim = parse_limits(block, "docs/limits.md")
     assert [q.name for q in lim.quantities] == ["fs_hz", "k_eff", "qm", "c0_f"]
     assert lim.masks[1].upper == (-3.0, -6.0)
+
+
+def test_limits_from_dict_same_checks():
+    """A parsed table (as embedded in another TOML file) gets the same validation."""
+    from kit.limits import limits_from_dict
+
+    lim = limits_from_dict({"quantity": {"qm": {"min": 10}},
+                            "mask": [{"curve": "s11_db", "f_min_hz": 1, "f_max_hz": 2,
+                                      "upper": [0, -1]}]}, "proc.toml")
+    assert lim.masks[0].name == "mask1" and lim.masks[0].upper == (0.0, -1.0)
+    with pytest.raises(LimitsError, match="proc.toml: .*neither min nor max"):
+        limits_from_dict({"quantity": {"qm": {"label": "x"}}}, "proc.toml")
