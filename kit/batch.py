@@ -115,6 +115,14 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None) 
         out["capture"] = {"path": str(item), "reason": f"{type(exc).__name__}: {exc}", "line": None}
         return out
     out["capture"] = cap
+    store = None
+    if cache_dir is not None and not isinstance(item, Capture) and cap.sha256:
+        from .cache import CaptureCache
+
+        store = CaptureCache(cache_dir)
+        done = store.get_result(cap.sha256, digest)
+    else:
+        done = None
     status, chain = _chain_for(proc, digest)
     if status == "error":
         msg = f"correction could not be set up: {chain}"
@@ -130,6 +138,10 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None) 
             msg = f"correction failed: {exc.reason if isinstance(exc, CaptureError) else exc}"
             out["capture"] = {"path": str(cap.path), "reason": msg, "line": None, "capture": cap}
             return out
+    if done is not None:  # same bytes, same procedure: the analysis is not repeated
+        out["resonance"], out["fit"] = done["resonance"], done["fit"]
+        out["result_cache"] = "hit"
+        return out
     method = proc.import_.get("method", "reflection")
     port = int(proc.import_.get("port", 1))
     span = proc.resonance.get("span_hz") or (proc.fit or {}).get("span_hz")
@@ -148,6 +160,8 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None) 
             out["fit"] = res.to_dict()
         except Exception as exc:  # noqa: BLE001
             out["fit"] = _error(exc)
+    if store is not None:
+        store.put_result(cap.sha256, digest, {"resonance": out["resonance"], "fit": out["fit"]})
     return out
 
 
@@ -268,7 +282,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         if own_client is not None:
             own_client.close()
     captures, corrected, fits, resonances = [], [], [], []
-    cache_counts = {"hit": 0, "miss": 0, "rebuilt": 0}
+    cache_counts = {"hit": 0, "miss": 0, "rebuilt": 0, "results_reused": 0}
     for r in results:
         c = r["capture"]
         if isinstance(c, dict):
@@ -281,6 +295,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         resonances.append(r["resonance"])
         if r["cache"]:
             cache_counts[r["cache"]] += 1
+        cache_counts["results_reused"] += r.get("result_cache") == "hit"
     summ = make_summary(captures, fits=fits, resonances=resonances, limits=proc.limits_object())
     # the working capture's name for corrected data keeps the raw identity
     stats = {"inputs": len(items), "errors": int((summ["status"] == "error").sum()),

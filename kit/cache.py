@@ -154,6 +154,42 @@ class CaptureCache:
                            s_def=arrays["s_def"].tobytes().decode(), name=path.stem)
         return Capture(network=net, path=path, sha256=sha, meta=meta, findings=tuple(findings))
 
+    # ------------------------------------------------------------------ analysis results
+    def result_entry(self, sha256: str, digest: str) -> Path:
+        """Path of the stored analysis result of one capture under one procedure digest."""
+        return self.root / "results" / digest[:16] / f"{sha256}.json"
+
+    def get_result(self, sha256: str, digest: str) -> dict[str, Any] | None:
+        """A stored result, or None when absent or damaged (a damaged one is removed)."""
+        p = self.result_entry(sha256, digest)
+        if not p.exists():
+            return None
+        try:
+            doc = json.loads(p.read_text(encoding="utf-8"))
+            body = json.dumps(doc["result"], sort_keys=True)
+            if doc.get("checksum") != hashlib.sha256(body.encode()).hexdigest():
+                raise ValueError("checksum mismatch")
+            return doc["result"]
+        except Exception:  # noqa: BLE001 - never trust a damaged entry
+            p.unlink(missing_ok=True)
+            return None
+
+    def put_result(self, sha256: str, digest: str, result: dict[str, Any]) -> None:
+        """Store a result (plain JSON data) atomically."""
+        body = json.dumps(result, sort_keys=True, default=str)
+        doc = {"result": json.loads(body),
+               "checksum": hashlib.sha256(json.dumps(json.loads(body), sort_keys=True).encode()).hexdigest()}
+        p = self.result_entry(sha256, digest)
+        p.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(dir=p.parent, prefix=f".{p.stem}.", suffix=".json")
+        try:
+            with os.fdopen(fd, "w", encoding="utf-8") as fh:
+                fh.write(json.dumps(doc))
+            os.replace(tmp, p)
+        except BaseException:
+            Path(tmp).unlink(missing_ok=True)
+            raise
+
     def clear(self) -> int:
         """Remove every entry of this cache format; returns how many were removed."""
         n = 0

@@ -104,13 +104,18 @@ def test_cache_hits_changed_files_and_damaged_entries(lot, tmp_path):
     first = run(proc, d, workers=1, cache_dir=cache)
     assert first.stats["miss"] == 4 and first.stats["hit"] == 0
     second = run(proc, d, workers=1, cache_dir=cache)
-    assert second.stats["hit"] == 4
+    assert second.stats["hit"] == 4 and second.stats["results_reused"] == 4
     pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
     # change one file: a miss for that one only
     p = d / "pzd7-01.s1p"
     p.write_text(p.read_text().replace("! Operator: demo bench 3", "! Operator: demo bench 4"))
     third = run(proc, d, workers=1, cache_dir=cache)
     assert third.stats["hit"] == 3 and third.stats["miss"] == 1
+    assert third.stats["results_reused"] == 3
+    # another procedure (other limits) reuses the parsed captures but not the analysis
+    proc.write_text(proc.read_text().replace("span_hz = [1.6e6, 2.4e6]", "span_hz = [1.7e6, 2.3e6]"))
+    fourth = run(proc, d, workers=1, cache_dir=cache)
+    assert fourth.stats["hit"] == 4 and fourth.stats["results_reused"] == 0
     # damage an entry: rebuilt, reported, results unchanged
     cc = CaptureCache(cache)
     cap, _ = cc.load(d / "pzd7-02.s1p")
