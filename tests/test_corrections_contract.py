@@ -190,3 +190,16 @@ def test_residual_of_known_part():
     assert r2.worst_rel == pytest.approx(r.worst_rel)
     with pytest.raises(kit.CaptureError, match="frequency points"):
         kit.residual(n, np.ones(3))
+
+
+def test_corrections_import_stays_light():
+    """Importing kit.corrections loads neither scikit-rf, matplotlib nor ipywidgets."""
+    # project rule (helper_rules.md): `import kit` must stay light; common practice, no source
+    import subprocess
+    import sys
+
+    code = ("import sys, kit, kit.corrections; "
+            "print(sorted(m for m in ('skrf', 'matplotlib', 'ipywidgets') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True)
+    assert out.stdout.strip() == "[]"
