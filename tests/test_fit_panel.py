@@ -1,0 +1,82 @@
+"""The fit panel widget cell (kit.ui.fit_panel), built without display (Agg backend)."""
+
+from __future__ import annotations
+
+import html
+
+import matplotlib
+import numpy as np
+import pytest
+
+matplotlib.use("Agg")
+
+from kit.models import get_model  # noqa: E402
+from kit.ui.fit_panel import fit_panel  # noqa: E402
+
+FIX_A = {"C0": 1e-9, "R1": 7.9577471546, "L1": 1.2665147955e-4, "C1": 2e-10}
+
+
+def _pair(seed, c0=1e-9):
+    f = np.linspace(0.9e6, 1.5e6, 601)
+    rng = np.random.default_rng(seed)
+    z = get_model("bvd").z(f, dict(FIX_A, C0=c0))
+    return f, z * (1 + 2e-3 * rng.standard_normal(f.shape))
+
+
+@pytest.fixture
+def panel():
+    p = fit_panel({"disc <1>": _pair(1), "disc 2": _pair(2, 1.2e-9)}, display=False)
+    yield p
+    import matplotlib.pyplot as plt
+
+    plt.close("all")
+
+
+def test_panel_fits_on_build_and_shows_table(panel):
+    """The panel fits the first capture at once and tables values, errors and flags escaped."""
+    # Fixture A of the methods sheet 1.2 (IEEE 176 BVD): the fit must find C0 = 1 nF.
+    r = panel.result
+    assert r.ok and r.params["C0"] == pytest.approx(1e-9, rel=1e-3)
+    assert "std. error" in panel.table.value and html.escape("disc <1>") in panel.table.value
+    assert "<1>" not in panel.table.value
+    assert panel.host.renders >= 1 and panel.host.widget.value[:4] == b"\x89PNG"
+    assert len(panel.ax_circle.lines) == 2  # measured circle and model
+
+
+def test_panel_controls_refit(panel):
+    """Choosing a capture, a span and a model refits with those settings."""
+    panel.selector.value = 1
+    assert panel.result.params["C0"] == pytest.approx(1.2e-9, rel=1e-3)
+    panel.set_span(0.95e6, 1.2e6)
+    assert panel.result.span_hz == pytest.approx((0.95e6, 1.2e6), rel=1e-6)
+    assert panel.result.n_points < 601
+    panel.model.value = "bvd-loss"
+    assert panel.result.model == "bvd-loss" and "R0" in panel.table.value
+    panel.model.value = "multi"
+    panel.modes.value = 1
+    assert panel.result.model == "multi"
+
+
+def test_panel_failed_fit_and_callback_error(panel):
+    """A fit that cannot start shows its reason; a callback error lands in the output widget."""
+    panel.set_span(1.3e6, 1.5e6)  # no resonance inside: the fit says so, nothing raises
+    assert not panel.result.ok and "NOT ok" in panel.table.value
+    bad = fit_panel({"missing": "/nonexistent/file.s1p"}, display=False)
+    assert bad.errors and "not found" in bad.errors[-1]
+    assert len(bad.output.outputs) == 1 and "not found" in str(bad.output.outputs[0])
+
+
+def test_panel_method_error_is_shown_not_raised():
+    """Asking series-through of a one-port capture shows the CaptureError in the output."""
+    import skrf
+
+    import kit
+
+    f, z = _pair(3)
+    ntwk = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="Hz"),
+                        s=((z - 50) / (z + 50)).reshape(-1, 1, 1), z0=50, name="one-port")
+    p = fit_panel([kit.from_network(ntwk, {})], display=False)
+    assert p.result.ok
+    p.method.value = "series-through"
+    assert p.errors and "two-port" in p.errors[-1]
+    assert "two-port" in str(p.output.outputs[0])
