@@ -52,6 +52,9 @@ class LotBrowser:
         ``sb-plane``, ``sb-chart``, ``sb-method``, ``sb-span``, ``sb-corrected``).
     table_html : ipywidgets.HTML
         The filtered table (class ``sb-lot-table``).
+    status : ipywidgets.HTML
+        One line under the figure: captures, chart, span, markers (class ``sb-status``);
+        written just before each redraw.
     host : FigureHost
         The figure; ``host.fig``, ``ax_plane`` and ``ax_rect`` are its axes.
     message : MessageBar
@@ -95,12 +98,13 @@ class LotBrowser:
                                                  description="data",
                                                  disabled=correction is None), "corrected")
         self.table_html = classed(w.HTML(), "lot-table")
+        self.status = classed(w.HTML(), "status")
         ok = table[table["status"] != "error"] if len(table) else table
         lo = float(ok["f_start_hz"].min()) if len(ok) else 0.0
         hi = float(ok["f_stop_hz"].max()) if len(ok) else 1.0
         self.span = span_slider(lo, hi if hi > lo else lo + 1.0)
 
-        self.host = FigureHost(figsize=(11.0, 4.6), interactive=interactive, css="lot-figure")
+        self.host = FigureHost(figsize=(10.4, 4.4), interactive=interactive, css="lot-figure")
         fig = self.host.fig
         self.ax_plane = fig.add_axes(_PLANE_BOX)
         self.ax_rect = fig.add_axes([0.48, 0.14, 0.49, 0.78])
@@ -129,9 +133,10 @@ class LotBrowser:
         controls = w.VBox([w.HBox([self.name_filter, self.status_filter]), self.select,
                            self.plane, self.chart, self.method, self.corrected])
         self.widget = classed(w.VBox([
-            w.HBox([controls, self.table_html]), self.span, self.host.widget,
+            w.HBox([controls, self.table_html]), self.span, self.host.widget, self.status,
             self.message.widget]), "lot-browser")
         self.refresh_table()
+        self._show_status()
         self.host.refresh()
 
     # -- table ---------------------------------------------------------------------------
@@ -281,6 +286,7 @@ class LotBrowser:
         if 0 < len(self.traces) <= 12:
             self.ax_rect.legend(fontsize=7, frameon=False, ncols=2 if len(self.traces) > 6 else 1)
         self._draw_markers()
+        self._show_status()
         self.host.refresh()
         for fn in self._listeners:
             fn()
@@ -294,7 +300,16 @@ class LotBrowser:
         """Show these marker readouts (from :func:`kit.views.marker_readout`) on both views."""
         self.markers = list(readouts)
         self._draw_markers()
+        self._show_status()
         self.host.refresh()
+
+    def _show_status(self) -> None:
+        lo, hi = self.span.value
+        n, k = len(self.traces), len(self.markers)
+        self.status.value = (
+            f'<span style="color:#4d5b5e;font-size:12px">{n} capture{"s" * (n != 1)} · '
+            f"{kv.CHARTS[self.chart.value].title} · span {lo:.4f}–{hi:.4f} MHz · "
+            f'{k} marker{"s" * (k != 1)}</span>')
 
     def _draw_markers(self) -> None:
         for a in self.marker_artists:

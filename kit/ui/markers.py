@@ -76,8 +76,7 @@ class MarkerPanel:
         if list(self.target.options) != labels:
             current = self.target.value
             self.target.options = labels
-            if current in labels:
-                self.target.value = current
+            self.target.value = current if current in labels else (labels[0] if labels else None)
 
     def add(self, kind: str | None = None, f_mhz: float | None = None) -> dict[str, Any]:
         """Place a marker on the chosen trace (controls' values unless given); returns it."""
