@@ -28,13 +28,27 @@ def _band_grid(load, f_lo: float, f_hi: float, n_points: int) -> np.ndarray:
     return f
 
 
+def _zin_fast(parts, f, zl, q_l, q_c) -> np.ndarray:
+    """Input impedance by folding the ladder from the load (no matrices)."""
+    z = zl
+    for p in reversed(parts):
+        if p.kind == "T":
+            z = p.value**2 * z
+        elif p.placement == "series":
+            z = z + p.impedance(f, q_l, q_c)
+        else:
+            z = 1.0 / (1.0 / z + 1.0 / p.impedance(f, q_l, q_c))
+    return z
+
+
 def _score(parts, f, zl, r0, objective, q_l, q_c) -> float:
-    design = MatchDesign("band", "", tuple(parts), r0)
-    z_in, nodes, _ = ladder_waves(design, zl, f, 1.0, r0, q_l, q_c)
     if objective == "return-loss":
-        g = np.abs((z_in - r0) / (z_in + r0))
-        val = float(np.max(g))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            z_in = _zin_fast(parts, f, zl, q_l, q_c)
+            val = float(np.max(np.abs((z_in - r0) / (z_in + r0))))
     else:
+        design = MatchDesign("band", "", tuple(parts), r0)
+        _, nodes, _ = ladder_waves(design, zl, f, 1.0, r0, q_l, q_c)
         v_l, i_l = nodes[-1]
         delivered = np.real(v_l * np.conj(i_l)) * 4.0 * r0
         val = -float(np.min(delivered))
@@ -109,11 +123,17 @@ def band(load, f_lo_hz: float, f_hi_hz: float, r_source_ohm: float = 50.0, *,
                          "has no resistance there); a band match cannot be designed")
     best = None
     best_point = np.inf
+    # keep the two best starts of each topology (placement and kind of each part)
+    scored: dict[tuple, list] = {}
     for d in starts:
-        parts = d.parts
-        s0 = _score(parts, f, zl, r0, objective, q_inductor, q_capacitor)
+        s0 = _score(d.parts, f, zl, r0, objective, q_inductor, q_capacitor)
         if objective == "return-loss":
             best_point = min(best_point, s0)
+        key = tuple((p.placement, p.kind) for p in d.parts)
+        scored.setdefault(key, []).append((s0, d))
+    chosen = [x for v in scored.values() for x in sorted(v, key=lambda t: t[0])[:2]]
+    for s0, d in chosen:
+        parts = d.parts
 
         def fun(logv, parts=parts):
             new = [Part(p.name, p.kind, p.placement, float(np.exp(x)))
@@ -122,7 +142,7 @@ def band(load, f_lo_hz: float, f_hi_hz: float, r_source_ohm: float = 50.0, *,
 
         x0 = np.log([p.value for p in parts])
         res = minimize(fun, x0, method="Nelder-Mead",
-                       options={"xatol": 1e-6, "fatol": 1e-9, "maxiter": 2000})
+                       options={"xatol": 1e-5, "fatol": 1e-8, "maxiter": 1000})
         val, x = (res.fun, res.x) if res.fun <= s0 else (s0, x0)
         if best is None or val < best[0]:
             best = (val, d, x, res)

@@ -1,0 +1,260 @@
+"""Match panel: design a match for a measured element, see the response and the part stress.
+
+Controls: the design (shunt or series tuning inductor, transformer with or without tuning,
+L-network solutions, band design), the design frequency, the band, the E-series, the
+inductor Q and the drive power. Shown: the element before and after on a Smith chart and
+on return loss, the Bode-Fano limit and the design's share of it, the part list with values
+(designed and rounded) and the RMS voltage and current on each at the drive power, and the
+safety cautions (:data:`kit.match.CAUTIONS`).
+"""
+
+from __future__ import annotations
+
+import html
+from typing import Any
+
+import numpy as np
+
+from .. import match as km
+from .. import views as kv
+from ..match.circuit import UNITS, eng
+from .common import FigureHost, MessageBar, classed, show
+
+#: (label, key) of the designs offered.
+DESIGNS: tuple[tuple[str, str], ...] = (
+    ("shunt tuning inductor", "tune-shunt"),
+    ("series tuning inductor", "tune-series"),
+    ("transformer", "transformer"),
+    ("shunt inductor + transformer", "tuned-shunt"),
+    ("series inductor + transformer", "tuned-series"),
+    ("L-network, solution 1", "l1"),
+    ("L-network, solution 2", "l2"),
+    ("two parts over the band", "band"),
+)
+
+
+def cautions_html() -> str:
+    """The safety cautions as an HTML block (class ``sb-cautions``)."""
+    items = "".join(f"<li>{html.escape(c)}</li>" for c in km.CAUTIONS)
+    return ('<div class="sb-cautions" style="border-left:4px solid #b5651d;padding:4px 8px;'
+            'background:#fbf3e9"><b>Safety</b><ul style="margin:2px 0">' + items + "</ul></div>")
+
+
+def make_design(key: str, capture, f_hz: float, f_lo_hz: float, f_hi_hz: float,
+                r_source_ohm: float = 50.0, q_inductor: float | None = None):
+    """The design chosen by ``key`` (see :data:`DESIGNS`) for ``capture``."""
+    if key == "tune-shunt":
+        return km.tuning_inductor(capture, f_hz, "shunt", r_source_ohm)
+    if key == "tune-series":
+        return km.tuning_inductor(capture, f_hz, "series", r_source_ohm)
+    if key == "transformer":
+        return km.transformer(capture, r_source_ohm, f_hz=f_hz)
+    if key == "tuned-shunt":
+        return km.tuned_transformer(capture, f_hz, "shunt", r_source_ohm)
+    if key == "tuned-series":
+        return km.tuned_transformer(capture, f_hz, "series", r_source_ohm)
+    if key in ("l1", "l2"):
+        sols = km.l_network(capture, f_hz, r_source_ohm)
+        return sols[min(int(key[1]) - 1, len(sols) - 1)]
+    if key == "band":
+        return km.band(capture, f_lo_hz, f_hi_hz, r_source_ohm, q_inductor=q_inductor)
+    raise ValueError(f"unknown design {key!r}")
+
+
+def parts_table_html(design, rounded, stress) -> str:
+    """Part list: designed and rounded values, RMS voltage and current (escaped HTML)."""
+    rows = ['<tr><th>part</th><th>designed</th><th>buy</th><th>V rms</th><th>V peak</th>'
+            '<th>I rms</th></tr>']
+    by_name = {r.name: r for r in stress.rows}
+
+    def cells(name, a, b):
+        s = by_name.get(name)
+        v = "" if s is None else f"{s.v_rms:.4g} V</td><td>{s.v_peak:.4g} V</td><td>{s.i_rms:.4g} A"
+        return f"<tr><td>{html.escape(name)}</td><td>{a}</td><td>{b}</td><td>{v}</td></tr>"
+
+    rows.append(cells("element", "", ""))
+    for p, q in zip(design.parts, rounded.parts):
+        if p.kind == "T":
+            t = f"{q.turns[0]}:{q.turns[1]} turns" if q.turns else f"{q.value:.4g}"
+            rows.append(cells(f"{p.name} primary", f"Np/Ns {p.value:.4g}", html.escape(t)))
+            rows.append(cells(f"{p.name} secondary", "", ""))
+        else:
+            rows.append(cells(p.name, html.escape(f"{p.placement} {eng(p.value, UNITS[p.kind])}"),
+                              html.escape(eng(q.value, UNITS[q.kind]))))
+    return ('<table class="sb-match-parts" style="border-collapse:collapse">'
+            + "".join(rows) + "</table>")
+
+
+class MatchPanel:
+    """Handles of the match panel.
+
+    Attributes
+    ----------
+    widget : ipywidgets.VBox
+        The panel (class ``sb-match-panel``).
+    design_kind, f_mhz, band_mhz, series, q_inductor, drive_w, rl_db, apply : widgets
+        Classes ``sb-match-design``, ``sb-match-freq``, ``sb-span``, ``sb-match-series``,
+        ``sb-match-q``, ``sb-match-drive``, ``sb-match-rl``, ``sb-match-apply``.
+    summary_html, parts_html, cautions : ipywidgets.HTML
+        Classes ``sb-match-summary``, ``sb-match-parts-box``, ``sb-match-cautions``.
+    host : FigureHost
+        Smith chart (left) and return loss (right).
+    message : MessageBar
+    design, rounded, response_before, response_after, limit, stress : results of the last
+        update (None before the first or after an error).
+    """
+
+    def __init__(self, capture, f_hz: float | None = None, r_source_ohm: float = 50.0) -> None:
+        import ipywidgets as w
+
+        self.capture = capture
+        self.r_source_ohm = float(r_source_ohm)
+        f = np.asarray(capture.f_hz, dtype=float)
+        z = km.load_z(capture, f)
+        if f_hz is None:  # conductance peak: the series resonance of the element
+            with np.errstate(divide="ignore", invalid="ignore"):
+                g = np.nan_to_num((1.0 / z).real, nan=-np.inf)
+            f_hz = float(f[int(np.argmax(g))])
+        span = 0.02 * f_hz
+        lo, hi = max(f[0], f_hz - span), min(f[-1], f_hz + span)
+        self.message = MessageBar()
+        self.design_kind = classed(w.Dropdown(options=list(DESIGNS), value="tuned-shunt",
+                                              description="design",
+                                              layout=w.Layout(width="330px")), "match-design")
+        self.f_mhz = classed(w.BoundedFloatText(value=f_hz / 1e6, min=f[0] / 1e6, max=f[-1] / 1e6,
+                                                step=0.0001, description="at [MHz]",
+                                                layout=w.Layout(width="200px")), "match-freq")
+        self.band_mhz = classed(w.FloatRangeSlider(
+            value=(lo / 1e6, hi / 1e6), min=f[0] / 1e6, max=f[-1] / 1e6,
+            step=max((f[-1] - f[0]) / 1e6 / 1000, 1e-9), description="band [MHz]",
+            continuous_update=False, readout_format=".4f", style={"description_width": "initial"},
+            layout=w.Layout(width="520px")), "span")
+        self.series = classed(w.Dropdown(options=["E12", "E24"], value="E24",
+                                         description="values", layout=w.Layout(width="170px")),
+                              "match-series")
+        self.q_inductor = classed(w.BoundedFloatText(value=80.0, min=0.0, max=1e6,
+                                                     description="inductor Q",
+                                                     layout=w.Layout(width="180px")), "match-q")
+        self.drive_w = classed(w.BoundedFloatText(value=10.0, min=0.0, max=1e5,
+                                                  description="drive [W]",
+                                                  layout=w.Layout(width="180px")), "match-drive")
+        self.rl_db = classed(w.BoundedFloatText(value=10.0, min=0.1, max=60.0,
+                                                description="RL level [dB]",
+                                                style={"description_width": "initial"},
+                                                layout=w.Layout(width="180px")), "match-rl")
+        self.apply = classed(w.Button(description="design", icon="sliders"), "match-apply")
+        self.summary_html = classed(w.HTML(""), "match-summary")
+        self.parts_html = classed(w.HTML(""), "match-parts-box")
+        self.cautions = classed(w.HTML(cautions_html()), "match-cautions")
+        self.host = FigureHost(figsize=(10.0, 4.4), css="match-figure")
+        fig = self.host.fig
+        self.ax_smith = fig.add_subplot(1, 2, 1)
+        self.ax_rl = fig.add_subplot(1, 2, 2)
+        fig.subplots_adjust(left=0.03, right=0.97, wspace=0.25, bottom=0.14)
+        self.design = self.rounded = self.response_before = self.response_after = None
+        self.limit = self.stress = None
+        g = self.message.guard
+        self.apply.on_click(g(lambda _b: self.update()))
+        for c in (self.design_kind, self.series, self.band_mhz):
+            c.observe(g(lambda _c: self.update()), names="value")
+        self.widget = classed(w.VBox([
+            self.cautions,
+            w.HBox([self.design_kind, self.f_mhz, self.series, self.apply]),
+            w.HBox([self.band_mhz, self.rl_db]),
+            w.HBox([self.q_inductor, self.drive_w]),
+            self.message.widget, self.host.widget,
+            w.HBox([self.parts_html, self.summary_html]),
+        ]), "match-panel")
+        g(self.update)()
+
+    def q(self) -> float | None:
+        """Inductor Q from the control (0 means lossless)."""
+        return float(self.q_inductor.value) or None
+
+    def update(self) -> None:
+        """Design, evaluate and draw with the current controls."""
+        self.design = self.rounded = self.response_after = self.limit = self.stress = None
+        f_hz = float(self.f_mhz.value) * 1e6
+        f_lo, f_hi = (float(x) * 1e6 for x in self.band_mhz.value)
+        q = self.q()
+        d = make_design(self.design_kind.value, self.capture, f_hz, f_lo, f_hi,
+                        self.r_source_ohm, q)
+        self.design = d
+        self.rounded = km.round_design(d, self.series.value)
+        self.response_before = km.response(None, self.capture, r_source_ohm=self.r_source_ohm)
+        self.response_after = km.response(self.rounded, self.capture, q_inductor=q)
+        ideal = km.response(d, self.capture)
+        f = self.response_after.f_hz
+        band = (f >= f_lo) & (f <= f_hi)
+        f_stress = f[band] if np.any(band) else np.array([f_hz])
+        self.stress = km.stress(self.rounded, self.capture, f_stress, float(self.drive_w.value),
+                                q_inductor=q)
+        lim_text = ""
+        for model in ("series-rlc", "parallel-rc"):
+            try:
+                self.limit = km.bode_fano(self.capture, f_lo, f_hi, model=model)
+                break
+            except ValueError as exc:
+                lim_text = f"Bode-Fano limit not computed: {exc}"
+        self._draw(ideal)
+        bw = self.response_after.bandwidth(float(self.rl_db.value))
+        lines = [f"<b>{html.escape(self.rounded.title)}</b>",
+                 html.escape(f"bandwidth ({self.series.value} values, inductor Q "
+                             f"{q if q else 'lossless'}): {bw.message}")]
+        if self.limit is not None:
+            lines.append(html.escape(self.limit.summary()).replace("\n", "<br>"))
+            lines.append(html.escape(
+                f"share of the limit used in the band: designed {self.limit.ratio(ideal):.3g}, "
+                f"{self.series.value} values {self.limit.ratio(self.response_after):.3g}"))
+        else:
+            lines.append(html.escape(lim_text))
+        lines.append(html.escape(self.stress.assumptions))
+        lines += [html.escape("note: " + n) for n in self.rounded.notes]
+        self.summary_html.value = "<br>".join(lines)
+        self.parts_html.value = parts_table_html(d, self.rounded, self.stress)
+
+    def _draw(self, ideal) -> None:
+        ax, ar = self.ax_smith, self.ax_rl
+        ax.clear()
+        ar.clear()
+        kv.smith_grid(ax, self.r_source_ohm)
+        before, after = self.response_before, self.response_after
+        kv.plot_smith(ax, before.gamma, before.f_hz, label="element alone", i=0)
+        kv.plot_smith(ax, after.gamma, after.f_hz, label="matched (bought values)", i=1)
+        kv.plot_smith(ax, ideal.gamma, ideal.f_hz, label="matched (designed)", i=2, ls="--")
+        ax.legend(loc="lower left", fontsize=7)
+        kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
+        kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)
+        kv.plot_return_loss(ar, ideal.f_hz, ideal.gamma, label="matched (designed)", i=2, ls="--")
+        lo, hi = (float(x) * 1e6 for x in self.band_mhz.value)
+        ar.axvspan(lo, hi, color="#dfe8e6", alpha=0.6, zorder=0)
+        ar.axhline(float(self.rl_db.value), color="#8c8c8c", lw=0.8, ls=":")
+        ar.legend(loc="upper right", fontsize=7)
+        self.host.refresh()
+
+    def state(self) -> dict[str, Any]:
+        """Plain-data summary of the last result (for tests and the notebook)."""
+        return {"design": None if self.design is None else self.design.describe(),
+                "rounded": None if self.rounded is None else self.rounded.describe(),
+                "message": self.message.last}
+
+
+def match_panel(capture, display: bool = True, f_hz: float | None = None,
+                r_source_ohm: float = 50.0) -> MatchPanel:
+    """Build (and show) the match panel for a measured, corrected one-port capture.
+
+    Parameters
+    ----------
+    capture : Capture
+        The element (its impedance is taken with :func:`kit.impedance`).
+    display : bool
+        Show it in the notebook; False to build only (tests).
+    f_hz : float, optional
+        Design frequency [Hz]; default the conductance peak (series resonance).
+    r_source_ohm : float
+        Source (amplifier) resistance [ohm].
+    """
+    panel = MatchPanel(capture, f_hz=f_hz, r_source_ohm=r_source_ohm)
+    if display:
+        show(panel.widget)
+    return panel

@@ -1,0 +1,62 @@
+"""Match panel widget cell (kit.ui.match_panel), built without display under Agg."""
+
+from __future__ import annotations
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import numpy as np  # noqa: E402
+import pytest  # noqa: E402
+
+import kit  # noqa: E402
+from kit.capture import from_network  # noqa: E402
+
+FS, C0, C1, QM = 1e6, 1e-9, 0.2e-9, 100.0
+WS = 2 * np.pi * FS
+L1, R1 = 1 / (WS**2 * C1), 1 / (WS * QM * C1)
+
+
+def bvd_capture():
+    """A BVD element (methods sheet 2.1 fixture A) as a Capture, via scikit-rf Network.from_z."""
+    import skrf
+
+    f = np.linspace(0.9e6, 1.1e6, 801)
+    w = 2 * np.pi * f
+    z = 1 / (1j * w * C0 + 1 / (R1 + 1j * w * L1 + 1 / (1j * w * C1)))
+    return from_network(skrf.Network.from_z(z.reshape(-1, 1, 1),
+                                            frequency=skrf.Frequency.from_f(f, unit="Hz"),
+                                            name="disc <b>7</b>"))
+
+
+def test_panel_designs_every_kind_without_error():
+    """Every design choice builds, draws and lists parts with their stress and the cautions."""
+    from kit.ui.match_panel import DESIGNS, match_panel
+
+    p = match_panel(bvd_capture(), display=False)
+    assert p.f_mhz.value == pytest.approx(1.0, abs=1e-4)  # conductance peak = fs
+    assert "hundreds of volts" in p.cautions.value and "qualified" in p.cautions.value
+    for _label, key in DESIGNS:
+        p.design_kind.value = key
+        assert p.message.kind != "error", (key, p.message.last)
+        assert p.design is not None and p.stress is not None
+        assert "element" in p.parts_html.value
+        assert p.host.renders > 0
+    # at fs the shunt inductor + transformer with bought values still matches well
+    p.design_kind.value = "tuned-shunt"
+    k = int(np.argmin(np.abs(p.response_after.f_hz - FS)))
+    assert p.response_after.return_loss_db[k] > 15.0
+    assert p.limit is not None and "series-rlc" in p.summary_html.value
+    assert "<b>7</b>" not in p.summary_html.value  # user text is escaped
+
+
+def test_panel_reports_an_impossible_design():
+    """A design that cannot exist at the chosen frequency shows a message instead of failing."""
+    from kit.ui.match_panel import match_panel
+
+    p = match_panel(bvd_capture(), display=False)
+    # between fs and fp the element is inductive: a tuning inductor cannot cancel it
+    p.f_mhz.value = 1.05
+    p.design_kind.value = "tune-series"
+    assert p.message.kind == "error" and "inductive" in p.message.last
+    assert p.design is None
