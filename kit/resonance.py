@@ -277,6 +277,23 @@ def _arrays(capture_or_f, z, method: str, port: int) -> tuple[np.ndarray, np.nda
     return f, zz, "arrays", "arrays", None
 
 
+def _dedupe(f: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """Sort by frequency and average complex values at repeated frequencies.
+
+    Returns the new arrays and how many samples were merged away (0 if none).
+    """
+    if len(f) == 0 or np.all(np.diff(f) > 0):
+        return f, z, 0
+    order = np.argsort(f, kind="stable")
+    f, z = f[order], z[order]
+    uf, inv, counts = np.unique(f, return_inverse=True, return_counts=True)
+    if len(uf) == len(f):
+        return f, z, 0
+    zr = np.bincount(inv, weights=z.real) / counts
+    zi = np.bincount(inv, weights=z.imag) / counts
+    return uf, zr + 1j * zi, len(f) - len(uf)
+
+
 def _clean(f, z, span_hz, path) -> tuple[np.ndarray, np.ndarray, list[str], tuple[float, float]]:
     flags: list[str] = []
     if span_hz is not None:
@@ -294,15 +311,9 @@ def _clean(f, z, span_hz, path) -> tuple[np.ndarray, np.ndarray, list[str], tupl
     if np.any(~good):
         flags.append(f"nan-points:{int(np.count_nonzero(~good))}")
         f, z = f[good], z[good]
-    if len(f) and np.any(np.diff(f) <= 0):
-        order = np.argsort(f, kind="stable")
-        f, z = f[order], z[order]
-        uf, inv, counts = np.unique(f, return_inverse=True, return_counts=True)
-        if len(uf) < len(f):
-            flags.append(f"repeated-frequencies:{len(f) - len(uf)}")
-            zr = np.bincount(inv, weights=z.real) / counts
-            zi = np.bincount(inv, weights=z.imag) / counts
-            f, z = uf, zr + 1j * zi
+    f, z, n_rep = _dedupe(f, z)
+    if n_rep:
+        flags.append(f"repeated-frequencies:{n_rep}")
     if len(f) < _MIN_POINTS:
         where = "" if span_hz is None else f" inside span_hz={tuple(span_hz)!r}"
         raise CaptureError(f"only {len(f)} usable point(s){where}; at least {_MIN_POINTS} are "
