@@ -208,8 +208,29 @@ def test_workbench_stacks_sections(lot, tmp_path):
     assert not any(isinstance(c, w.Tab) for c in wb.widget.children)
     wb.add_section("Notes", w.Label("free text"))
     assert wb.widget.children[-1] is wb.sections["Notes"]
-    wb.add_available_panels([("Nothing", "no_such_panel", "workbench_section")])
+    def missing(_wb):
+        import kit.ui.no_such_panel  # noqa: F401
+
+    wb.add_available_panels([("Nothing", missing)])
     assert "not available" in wb.skipped["Nothing"]
+
+
+@pytest.mark.slow
+def test_workbench_hosts_the_other_panels(lot, demo_dir):
+    """With extras the workbench adds the corrections, fit and matching panels it can build."""
+    from kit.ui.workbench import workbench
+
+    wb = workbench(lot, select=[1], display=False, interactive=False,
+                   corrections_source=demo_dir)
+    built = set(wb.sections) - {"Lot", "Markers"}
+    assert built | set(wb.skipped) == {"Corrections", "Resonator fits", "Review and report",
+                                        "Matching"}
+    assert "review_log" in wb.skipped.get("Review and report", "review_log")
+    if "Corrections" in wb.sections:
+        panel = wb.panels["Corrections"]
+        if panel.chain is not None:
+            panel.use_button.click()
+            assert wb.browser.corrected.value == "corrected" and wb.browser.message.kind != "error"
 
 
 def test_interactive_canvas_when_ipympl_present(lot):

@@ -3,26 +3,74 @@
 Sections are titled blocks, one under the other, each folding on its header (no tabs):
 "Lot" (the browser), "Markers", then whatever other panels are available (corrections,
 fits, review, matching). Another panel joins with :meth:`Workbench.add_section`, or
-automatically through :data:`PANEL_BUILDERS` when its module exists.
+automatically through :data:`PANEL_BUILDERS` when it can be built (a panel whose module is
+missing, or which lacks its input, is listed in ``Workbench.skipped`` with the reason).
 """
 
 from __future__ import annotations
 
-import importlib
 from typing import Any, Callable
 
 from .common import classed, section, show
 from .lot_browser import LotBrowser, lot_browser
 from .markers import MarkerPanel, marker_panel
 
-#: Optional panels: (section title, module under kit.ui, builder name). The builder is
-#: called as ``builder(workbench, display=False)`` and returns an object with a
-#: ``widget`` attribute (or a widget).
-PANEL_BUILDERS: list[tuple[str, str, str]] = [
-    ("Corrections", "corrections_panel", "workbench_section"),
-    ("Resonator fits", "fit_panel", "workbench_section"),
-    ("Review and report", "review_panel", "workbench_section"),
-    ("Matching", "match_panel", "workbench_section"),
+def _corrections(wb: "Workbench"):
+    import ipywidgets as w
+
+    from .corrections_panel import corrections_panel
+
+    panel = corrections_panel(wb.options.get("corrections_source") or wb.folder.parent,
+                              display=False, interactive=wb.browser.host.interactive)
+    use = classed(w.Button(description="use in lot browser", icon="check",
+                           tooltip="corrected view of the lot browser uses this chain"),
+                  "use-correction")
+
+    def _use(_b):
+        if panel.chain is None:
+            raise ValueError("no correction is built yet: choose standards or a cable first")
+        wb.browser.set_correction(panel.chain)
+        wb.browser.corrected.value = "corrected"
+
+    use.on_click(wb.browser.message.guard(_use))
+    panel.use_button = use
+    panel.widget = w.VBox([panel.widget, use])
+    return panel
+
+
+def _fits(wb: "Workbench"):
+    from .. import folder
+    from .fit_panel import fit_panel
+
+    return fit_panel(folder.captures_of(wb.browser.table), display=False)
+
+
+def _review(wb: "Workbench"):
+    from .review_panel import review_panel
+
+    log = wb.options.get("review_log")
+    if log is None:
+        raise LookupError("give review_log= (a kit.ReviewLog or a path) to add the review panel")
+    return review_panel(wb.browser.table, log, display=False)
+
+
+def _matching(wb: "Workbench"):
+    from .. import folder
+    from .match_panel import match_panel
+
+    caps = [c for c in folder.captures_of(wb.browser.table) if c.ports == 1]
+    if not caps:
+        raise LookupError("no one-port capture in the lot to match")
+    return match_panel(caps[0], display=False)
+
+
+#: Optional panels: (section title, builder). A builder takes the workbench and returns
+#: an object with a ``widget`` attribute; one that raises is skipped with its reason.
+PANEL_BUILDERS: list[tuple[str, Callable[["Workbench"], Any]]] = [
+    ("Corrections", _corrections),
+    ("Resonator fits", _fits),
+    ("Review and report", _review),
+    ("Matching", _matching),
 ]
 
 
@@ -43,9 +91,12 @@ class Workbench:
         Optional panels that could not be added, with the reason.
     """
 
-    def __init__(self, browser: LotBrowser, markers: MarkerPanel) -> None:
+    def __init__(self, browser: LotBrowser, markers: MarkerPanel, **options: Any) -> None:
         import ipywidgets as w
+        from pathlib import Path
 
+        self.options = options
+        self.folder = Path(browser.table.attrs.get("folder") or ".")
         self.browser = browser
         self.markers = markers
         self.sections: dict[str, Any] = {}
@@ -71,19 +122,13 @@ class Workbench:
         return box
 
     def add_available_panels(self, builders=None) -> None:
-        """Add each optional panel whose module and builder exist; record the others."""
-        for title, mod, fn in builders or PANEL_BUILDERS:
+        """Add each optional panel that can be built; record the others in ``skipped``."""
+        for title, build in builders or PANEL_BUILDERS:
             try:
-                module = importlib.import_module(f"kit.ui.{mod}")
+                panel = build(self)
             except ModuleNotFoundError as exc:
-                self.skipped[title] = f"kit.ui.{mod} is not available ({exc.name})"
+                self.skipped[title] = f"module {exc.name} is not available"
                 continue
-            build: Callable | None = getattr(module, fn, None)
-            if build is None:
-                self.skipped[title] = f"kit.ui.{mod} has no {fn}()"
-                continue
-            try:
-                panel = build(self, display=False)
             except Exception as exc:  # noqa: BLE001 - one panel must not stop the others
                 self.skipped[title] = f"{type(exc).__name__}: {exc}"
                 continue
@@ -92,8 +137,8 @@ class Workbench:
 
 def workbench(source, pattern: str | None = None, select=None, chart: str = "z_mag",
               plane: str = "smith:z", correction=None, markers_csv: str = "markers.csv",
-              extras: bool = True, display: bool = True,
-              interactive: bool | None = None) -> Workbench:
+              extras: bool = True, corrections_source=None, review_log=None,
+              display: bool = True, interactive: bool | None = None) -> Workbench:
     """Build the workbench over a folder of captures (or its :func:`kit.load_folder` table).
 
     Parameters
@@ -111,6 +156,11 @@ def workbench(source, pattern: str | None = None, select=None, chart: str = "z_m
         Where the marker panel writes its CSV.
     extras : bool
         Add the optional panels that exist (see :data:`PANEL_BUILDERS`).
+    corrections_source : str or Path, optional
+        Folder searched for standards by the corrections panel (default: the lot folder's
+        parent).
+    review_log : kit.ReviewLog or path, optional
+        The review log; without it the review panel is left out.
     display : bool
         Show it now (False in tests).
 
@@ -121,7 +171,7 @@ def workbench(source, pattern: str | None = None, select=None, chart: str = "z_m
     b = lot_browser(source, pattern=pattern, correction=correction, select=select, chart=chart,
                     plane=plane, display=False, interactive=interactive)
     m = marker_panel(b, csv_path=markers_csv, display=False)
-    wb = Workbench(b, m)
+    wb = Workbench(b, m, corrections_source=corrections_source, review_log=review_log)
     if extras:
         wb.add_available_panels()
     if display:
