@@ -331,7 +331,7 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
     y = 1.0 / z
     w = 1.0 / sigma_y
     theta0 = np.log([p0[p] for p in names])
-    lo = theta0 - 18.0
+    lo = theta0 - 18.0  # a factor 6.6e7 either way: beyond it a parameter is "at-bound"
     hi = theta0 + 18.0
     for i, p in enumerate(names):
         if p in mdl.bounds:
@@ -362,7 +362,7 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
 
     try:
         sol = least_squares(lambda t: evaluate(t)[0], theta0, jac=lambda t: evaluate(t)[1],
-                            bounds=(lo, hi), method="trf", max_nfev=max_nfev,
+                            **_solver_args(mdl, lo, hi), max_nfev=max_nfev,
                             x_scale=1.0, xtol=1e-10, ftol=1e-12, gtol=1e-12)
     except (ValueError, np.linalg.LinAlgError, FloatingPointError) as exc:
         return _failed(mdl.name, f"solver failed: {exc}", "not-converged", start=p0, **common)
@@ -371,32 +371,39 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
     params = {n: float(v) for n, v in zip(names, np.exp(th))}
     m, n = jac.shape
     flags: list[str] = []
-    dof = max(m - n, 1)
+    # parameters at a bound are held fixed for the covariance (their error is NaN)
+    at_bound = np.array([sol.active_mask[i] != 0 or th[i] - lo[i] < 1e-6 or hi[i] - th[i] < 1e-6
+                         for i in range(n)])
+    free = np.nonzero(~at_bound)[0]
+    dof = max(m - len(free), 1)
     s2 = float(res @ res) / dof
-    u, sv, vt = np.linalg.svd(jac, full_matrices=False)
-    if sv[0] > 0 and sv[-1] > sv[0] * 1e-13:
-        cov = (vt.T / sv**2) @ vt * s2
-    else:
-        cov = np.full((n, n), np.nan)
-        flags.append("no-uncertainty")
+    cov = np.full((n, n), np.nan)
+    if len(free):
+        _, sv, vt = np.linalg.svd(jac[:, free], full_matrices=False)
+        if sv[0] > 0 and sv[-1] > sv[0] * 1e-13:
+            cov[np.ix_(free, free)] = (vt.T / sv**2) @ vt * s2
+        else:
+            flags.append("no-uncertainty")
     sd_th = np.sqrt(np.diag(cov))
     stderr = {p: float(params[p] * e) for p, e in zip(names, sd_th)}
     with np.errstate(all="ignore"):
         corr = cov / np.outer(sd_th, sd_th)
     correlation = {a: {b: float(corr[i, j]) for j, b in enumerate(names)}
                    for i, a in enumerate(names)}
-    derived, derived_sd = _derived(mdl, th, cov)
+    cov_fixed = cov.copy()  # parameters at a bound enter the propagation as fixed
+    cov_fixed[at_bound, :] = 0.0
+    cov_fixed[:, at_bound] = 0.0
+    derived, derived_sd = _derived(mdl, th, cov_fixed)
     zm = mdl.z(f, params)
     with np.errstate(all="ignore"):
         resid_rel = float(np.sqrt(np.mean(np.abs((1.0 / zm - y) / y) ** 2)))
     if not sol.success or sol.status == 0:
         flags.append("not-converged")
-    for i, p in enumerate(names):
-        if sol.active_mask[i] != 0 or th[i] - lo[i] < 1e-6 or hi[i] - th[i] < 1e-6:
-            flags.append(f"at-bound:{p}")
+    # lm has no bounds: a parameter that ran beyond the box is flagged the same way
+    flags.extend(f"at-bound:{p}" for i, p in enumerate(names) if at_bound[i])
     if not np.isfinite(resid_rel) or resid_rel > poor_fit:
         flags.append("poor-fit")
-    if "no-uncertainty" not in flags and not np.all(np.isfinite(sd_th)):
+    if "no-uncertainty" not in flags and not np.all(np.isfinite(sd_th[free])):
         flags.append("no-uncertainty")
     fs, fp = derived.get("fs_hz", np.nan), derived.get("fp_hz", np.nan)
     for fr in (fs, fp):
@@ -420,6 +427,14 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
                      derived=derived, derived_stderr=derived_sd, residual_rel=resid_rel,
                      ok=not severe, flags=tuple(dict.fromkeys(flags)), reason=reason,
                      nfev=int(sol.nfev), njev=int(sol.njev or 0), start=dict(p0), **common)
+
+
+def _solver_args(mdl, lo, hi) -> dict:
+    """MINPACK Levenberg-Marquardt when the model has no physical bounds (faster), else the
+    bounded trust-region reflective method."""
+    if not mdl.bounds:
+        return {"method": "lm"}
+    return {"method": "trf", "bounds": (lo, hi)}
 
 
 def _lag1(r):

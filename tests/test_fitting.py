@@ -225,7 +225,11 @@ def test_flags_span_and_unidentified():
     assert "span-too-narrow" in r.flags
     r = kit.fit(f, z=z, model="bvd-loss")
     assert any(fl.startswith(("large-uncertainty:R0", "at-bound:R0")) for fl in r.flags)
-    assert all(np.isfinite(v) for v in r.stderr.values())
+    # a parameter at its bound has no error (and ok is False); the others keep theirs
+    for p, e in r.stderr.items():
+        assert np.isfinite(e) or f"at-bound:{p}" in r.flags
+    assert all(np.isfinite(r.stderr[p]) for p in ("C0", "R1", "L1", "C1"))
+    assert r.ok == (not any(fl.startswith("at-bound") for fl in r.flags))
 
 
 def test_invalid_arguments_raise():
