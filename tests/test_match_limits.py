@@ -230,3 +230,16 @@ def test_cautions_are_stated():
     text = (m.__doc__ or "") + " ".join(m.CAUTIONS) + m.NOTEBOOK_SECTION
     for word in ("hundreds of volts", "unloaded", "dry", "ratings", "local codes", "qualified"):
         assert word in text
+
+
+def test_fano_integral_counts_a_perfect_match_on_a_grid_node_correctly():
+    """A perfect match exactly on a grid node does not inflate the integral (tight case = 1)."""
+    # Shunt-tuned parallel RC behind a matching transformer is a parallel RLC with R = R0,
+    # whose integral equals pi/(RC) exactly (Fano 1950; Pozar 4th ed. 5.9, from memory;
+    # the w <-> w0^2/w symmetry of the lowpass-to-bandpass map, checked numerically here).
+    d = m.tuned_transformer(rc_z(F0), F0, "shunt")
+    f = np.geomspace(F0 * 1e-5, F0 * 1e5, 100001)  # F0 is a node; |Gamma(F0)| ~ 1e-16
+    g = m.response(d, rc_z, f).gamma
+    assert np.min(np.abs(g)) < 1e-12
+    assert m.fano_integral(f, g) / (np.pi / (R * C)) == pytest.approx(1.0, abs=2e-3)
+    assert m.fano_integral(f, g) / (np.pi / (R * C)) <= 1.0 + 1e-4

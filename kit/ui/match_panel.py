@@ -222,13 +222,17 @@ class MatchPanel:
         kv.plot_smith(ax, before.gamma, before.f_hz, label="element alone", i=0)
         kv.plot_smith(ax, after.gamma, after.f_hz, label="matched (bought values)", i=1)
         kv.plot_smith(ax, ideal.gamma, ideal.f_hz, label="matched (designed)", i=2, ls="--")
-        ax.legend(loc="lower left", fontsize=7)
+        ax.set_title("reflection, same colours as the right", fontsize=8)
         kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
         kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)
         kv.plot_return_loss(ar, ideal.f_hz, ideal.gamma, label="matched (designed)", i=2, ls="--")
         lo, hi = (float(x) * 1e6 for x in self.band_mhz.value)
         ar.axvspan(lo, hi, color="#dfe8e6", alpha=0.6, zorder=0)
         ar.axhline(float(self.rl_db.value), color="#8c8c8c", lw=0.8, ls=":")
+        finite = np.concatenate([x[np.isfinite(x)] for x in
+                                 (before.return_loss_db, after.return_loss_db)])
+        top = float(np.max(finite)) if finite.size else 30.0
+        ar.set_ylim(0.0, min(max(top + 3.0, float(self.rl_db.value) + 5.0), 60.0))
         ar.legend(loc="upper right", fontsize=7)
         self.host.refresh()
 
