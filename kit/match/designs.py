@@ -261,7 +261,7 @@ def tuned_transformer(load, f_hz: float, kind: str = "shunt", r_source_ohm: floa
         params={"f_hz": f, "kind": kind, "load": load_name(load),
                 "r_after_tuning_ohm": r_after},
         references=(REF_TUNE, REF_XFMR), f_grid_hz=load_grid(load),
-        notes=tune.notes + xf.notes,
+        notes=("tuned at one frequency only",) + xf.notes,
     )
 
 
