@@ -105,19 +105,22 @@ class CaptureCache:
 
     # ------------------------------------------------------------------ entries
     def _write(self, entry: Path, cap: Capture) -> None:
-        meta = {k: v for k, v in cap.meta.items() if k not in ("fields", "name_pattern")}
-        arrays = {
-            "f_hz": np.asarray(cap.f_hz, float),
-            "s": np.asarray(cap.s, complex),
-            "z0": np.asarray(cap.z0, complex),
-            "meta": np.frombuffer(json.dumps(meta, default=str).encode(), dtype=np.uint8),
-            "findings": np.frombuffer(json.dumps([f.to_dict() for f in cap.findings
-                                                  if f.code != "name-pattern"]).encode(),
-                                      dtype=np.uint8),
-            "s_def": np.frombuffer(str(cap.network.s_def or "power").encode(), dtype=np.uint8),
-            "sha256": np.frombuffer(cap.sha256.encode(), dtype=np.uint8),
+        # Three arrays only: reading an .npz costs a header parse per array.
+        z0 = np.asarray(cap.z0, complex)
+        uniform = bool(np.all(z0 == z0.ravel()[0]))
+        doc = {
+            "meta": {k: v for k, v in cap.meta.items() if k not in ("fields", "name_pattern")},
+            "findings": [f.to_dict() for f in cap.findings if f.code != "name-pattern"],
+            "s_def": str(cap.network.s_def or "power"),
+            "sha256": cap.sha256,
+            "z0": [z0.ravel()[0].real, z0.ravel()[0].imag] if uniform else None,
         }
-        arrays["checksum"] = np.frombuffer(_checksum(arrays).encode(), dtype=np.uint8)
+        arrays = {"f_hz": np.asarray(cap.f_hz, float), "s": np.asarray(cap.s, complex)}
+        if not uniform:
+            arrays["z0"] = z0
+        doc["checksum"] = _checksum(arrays) + hashlib.sha256(
+            json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()
+        arrays["doc"] = np.frombuffer(json.dumps(doc, default=str).encode(), dtype=np.uint8)
         entry.parent.mkdir(parents=True, exist_ok=True)
         fd, tmp = tempfile.mkstemp(dir=entry.parent, prefix=f".{entry.stem}.", suffix=".npz")
         try:
@@ -133,15 +136,16 @@ class CaptureCache:
 
         with np.load(entry, allow_pickle=False) as z:
             arrays = {k: z[k] for k in z.files}
-        stored = arrays.pop("checksum").tobytes().decode()
-        if stored != _checksum(arrays):
+        doc = json.loads(arrays.pop("doc").tobytes().decode())
+        stored = doc.pop("checksum")
+        want = _checksum(arrays) + hashlib.sha256(
+            json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()
+        if stored != want:
             raise ValueError("checksum mismatch")
-        if arrays["sha256"].tobytes().decode() != sha:
+        if doc["sha256"] != sha:
             raise ValueError("entry belongs to other content")
-        meta = json.loads(arrays["meta"].tobytes().decode())
-        findings = [Finding(**d) for d in json.loads(arrays["findings"].tobytes().decode())]
-        for f in findings:
-            object.__setattr__(f, "path", str(path))
+        meta = doc["meta"]
+        findings = [Finding(**{**d, "path": str(path)}) for d in doc["findings"]]
         meta["name_pattern"] = name_pattern
         meta["fields"] = {}
         if name_pattern:
@@ -149,9 +153,9 @@ class CaptureCache:
             meta["fields"] = fields
             if finding is not None:
                 findings.append(finding)
+        z0 = arrays["z0"] if doc["z0"] is None else complex(*doc["z0"])
         net = skrf.Network(frequency=skrf.Frequency.from_f(arrays["f_hz"], unit="hz"),
-                           s=arrays["s"], z0=arrays["z0"],
-                           s_def=arrays["s_def"].tobytes().decode(), name=path.stem)
+                           s=arrays["s"], z0=z0, s_def=doc["s_def"], name=path.stem)
         return Capture(network=net, path=path, sha256=sha, meta=meta, findings=tuple(findings))
 
     # ------------------------------------------------------------------ analysis results
