@@ -44,7 +44,8 @@ def _pair(fs_hz, fp_hz, what: str, upper: float | None = None):
     fs = np.asarray(fs_hz, dtype=float)
     fp = np.asarray(fp_hz, dtype=float)
     if np.any(~np.isfinite(fs)) or np.any(~np.isfinite(fp)):
-        raise ValueError(f"{what}: fs and fp must be finite numbers, got fs={fs_hz!r}, fp={fp_hz!r}")
+        raise ValueError(f"{what}: fs and fp must be finite numbers, "
+                         f"got fs={fs_hz!r}, fp={fp_hz!r}")
     if np.any(fs <= 0) or np.any(fp <= fs):
         raise ValueError(
             f"{what}: needs 0 < fs < fp, got fs={fs_hz!r} Hz, fp={fp_hz!r} Hz "
@@ -273,7 +274,7 @@ def fp_from_kt(kt_value: float, fs_hz: float) -> float:
 
 
 def fp_from_k31(k31_value: float, fs_hz: float) -> float:
-    """Parallel resonance of a length-extensional bar with coupling ``k31`` (inverse of :func:`k31`).
+    """Parallel resonance of a length-extensional bar with coupling ``k31``; inverse of k31().
 
     Parameters
     ----------

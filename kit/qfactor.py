@@ -75,7 +75,8 @@ class QFactor:
         The fit met its convergence test.
     flags : tuple of str
         e.g. ``"not-converged"``, ``"q-loaded-below-100"``, ``"scale-assumed:1"``,
-        ``"resonance-near-edge"`` (a half-power point lies outside the sweep), ``"poor-fit"``, ``"no-uncertainty:NLQFIT8"``.
+        ``"resonance-near-edge"`` (a half-power point lies outside the sweep),
+        ``"poor-fit"``, ``"no-uncertainty:NLQFIT8"``.
     name, trace : str
         The capture's name and the S-parameter used (e.g. "S21").
     points : int

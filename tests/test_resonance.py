@@ -250,3 +250,17 @@ def test_real_crystals_resonance_and_flags(realdata):
     # temperature drift of B100 from 20 to 65 degC: published -4688 Hz
     drift = fm_b100[-1] - fm_b100[0]
     assert drift == pytest.approx((3.723906 - 3.728594) * 1e6, rel=0.15)
+
+
+def test_kit_resonance_is_callable_after_submodule_import():
+    """kit.resonance(f, z) works even once kit.resonance (the module) has been imported."""
+    import importlib
+
+    import kit
+
+    importlib.import_module("kit.resonance")
+    importlib.import_module("kit.filters")
+    f = np.linspace(0.9e6, 1.2e6, 3001)
+    r = kit.resonance(f, bvd_z(f))
+    assert r.fs_hz == pytest.approx(FS, abs=0.05)
+    assert kit.q_factor.__name__ == "q_factor"
