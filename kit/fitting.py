@@ -477,7 +477,8 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
     Parameters
     ----------
     capture : Capture, skrf.Network, (f, z) pair, or array of f [Hz]
-        The measurement. With an array of frequencies pass the impedance as ``z``.
+        The measurement. With an array of frequencies pass the impedance as ``z`` (or as
+        the second positional argument, ``fit(f, z)``, BVD model).
     model : str
         "bvd", "bvd-loss", "multi", "plate", "bar", "inductor" or "capacitor"
         (see :mod:`kit.models`).
@@ -524,6 +525,10 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
        common practice, no source. Covariance scaled by the residual variance: the standard
        nonlinear least-squares estimate (common practice, no source).
     """
+    if not isinstance(model, str):  # fit(f, z, ...): the second positional is the impedance
+        if z is not None:
+            raise ValueError("give the impedance either as the second argument or as z=")
+        z, model = model, "bvd"
     if weighting not in WEIGHTINGS:
         raise ValueError(f"unknown weighting {weighting!r}; choose one of {', '.join(WEIGHTINGS)}")
     if model not in MODEL_NAMES:

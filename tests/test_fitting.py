@@ -6,6 +6,8 @@ import json
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import stats
 
 import kit
@@ -230,6 +232,30 @@ def test_flags_span_and_unidentified():
         assert np.isfinite(e) or f"at-bound:{p}" in r.flags
     assert all(np.isfinite(r.stderr[p]) for p in ("C0", "R1", "L1", "C1"))
     assert r.ok == (not any(fl.startswith("at-bound") for fl in r.flags))
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.complex_numbers(allow_nan=True, allow_infinity=True),
+                min_size=0, max_size=60), st.sampled_from(["bvd", "multi", "plate", "bar",
+                                                          "inductor", "capacitor"]))
+def test_garbage_data_never_raises(values, model):
+    """Any impedance data (NaN, inf, zeros, noise) gives a FitResult, never an exception."""
+    # Requirement of the issue: failures give ok=False with a reason (no outside source).
+    z = np.asarray(values, dtype=complex)
+    f = np.linspace(1e3, 1e6, len(z))
+    with np.errstate(all="ignore"):
+        r = kit.fit((f, z), model=model)
+    assert isinstance(r, FitResult)
+    assert r.ok or r.reason
+    if r.ok:
+        assert all(np.isfinite(v) for v in r.stderr.values())
+
+
+def test_positional_arrays():
+    """fit(f, z) with the impedance as second positional argument fits a BVD."""
+    f = np.linspace(0.9e6, 1.2e6, 201)
+    r = kit.fit(f, BVD.z(f, FIX_A))
+    assert r.model == "bvd" and r.params["C1"] == pytest.approx(2e-10, rel=1e-6)
 
 
 def test_invalid_arguments_raise():
