@@ -54,11 +54,11 @@ _EXPORTS: dict[str, str] = {
     "Limits": "limits",
     "load_limits": "limits",
     "verdict": "limits",
-    "tidy": "export",
-    "summary": "export",
-    "export": "export",
-    "write_touchstone": "export",
-    "report": "report",
+    "tidy": "dataset",
+    "summary": "dataset",
+    "export": "dataset",
+    "write_touchstone": "dataset",
+    "report": "lot_report",
     # -- procedures and batch runs (issue 7)
     "Procedure": "procedure",
     # -- matching (issue 8): kit.match is a module

@@ -56,8 +56,8 @@ class BatchResult:
 
     def write(self, out_dir: str | Path, report: bool = True) -> Path:
         """Write summary/sweeps (Parquet and CSV), provenance.json and report.html to ``out_dir``."""
-        from .export import export
-        from .report import report as write_report
+        from .dataset import export
+        from .lot_report import report as write_report
 
         ok = [c for c in self.captures if isinstance(c, Capture)]
         settings = {"procedure": self.procedure.to_dict() if self.procedure else None,
@@ -221,7 +221,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
     """
     import pandas as pd
 
-    from .export import summary as make_summary
+    from .dataset import summary as make_summary
 
     proc = procedure if isinstance(procedure, Procedure) else Procedure.from_file(procedure)
     items = expand_inputs(inputs)

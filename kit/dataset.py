@@ -29,7 +29,6 @@ import os
 import shutil
 import sys
 import tempfile
-import types
 import warnings
 from collections.abc import Iterable, Mapping
 from datetime import datetime, timezone
@@ -721,26 +720,3 @@ def write_touchstone(capture: Capture, path: str | os.PathLike, overwrite: bool 
     path.parent.mkdir(parents=True, exist_ok=True)
     atomic_write_bytes(path, ("\n".join(lines) + "\n").encode("ascii", "replace"))
     return path
-
-
-# --------------------------------------------------------------------------- kit.export(...)
-class _CallableModule(types.ModuleType):
-    """A module that is also its main function.
-
-    ``kit.export`` names this module (Python binds a package's submodule to the package
-    attribute of the same name on import), and the lot export is called as
-    ``kit.export(out_dir, captures, ...)``; calling the module calls its ``__main_function__``.
-    """
-
-    def __call__(self, *args: Any, **kwargs: Any) -> Any:
-        return self.__main_function__(*args, **kwargs)
-
-
-def make_callable(module_name: str, func: Any) -> None:
-    """Let calling the module ``module_name`` call ``func`` (see :class:`_CallableModule`)."""
-    mod = sys.modules[module_name]
-    mod.__main_function__ = func
-    mod.__class__ = _CallableModule
-
-
-make_callable(__name__, export)

@@ -3,7 +3,7 @@
 ``kit.report(out_path, captures, summary=None, review_log=None)`` writes a single file:
 the lot's verdict counts, the summary table, and per capture a figure (PNG embedded as
 base64), the verdict with its reasons, the review state and history, and the import
-warnings. It is built from the same tables as the export (:func:`kit.export.summary`).
+warnings. It is built from the same tables as the export (:func:`kit.summary`).
 
 Every piece of text that comes from a user or a file (notes, names, paths, comments,
 reasons) goes through :func:`html.escape`; the page carries a Content-Security-Policy that
@@ -30,7 +30,7 @@ from typing import Any
 import numpy as np
 
 from .capture import Capture
-from .export import _as_list, atomic_write_bytes, build_summary, make_callable, refuse_input_folder
+from .dataset import _as_list, atomic_write_bytes, build_summary, refuse_input_folder
 
 #: Summary columns shown in the lot table (those present), in this order.
 TABLE_COLUMNS = ("capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "r1_ohm",
@@ -213,6 +213,3 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
     out.parent.mkdir(parents=True, exist_ok=True)
     atomic_write_bytes(out, doc.encode("utf-8"))
     return out
-
-
-make_callable(__name__, report)
