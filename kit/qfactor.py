@@ -254,7 +254,9 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
         With standard errors of Q_L, f_L, Q_0 and beta from the covariance of the fitted
         coefficients, sigma^2 (J^T W J)^-1, sigma^2 the weighted residual variance and W the
         MAT 58 angular weights of the last step (common practice, no source), propagated
-        linearly. They describe noise only, not calibration error.
+        linearly. They describe noise only, not calibration error nor model bias: the
+        narrow-band model puts f_L slightly off (18 Hz below 10 MHz for a parallel RLC with
+        Q_L = 265), which can exceed the stated f_L standard error on clean data.
 
     Raises
     ------
