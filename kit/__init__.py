@@ -42,7 +42,7 @@ _EXPORTS: dict[str, str] = {
     "chain": "corrections",
     "residual": "corrections",
     # -- resonator analysis (issue 4)
-    "resonance": "resonance",
+    "resonance": "frequencies",
     "q_factor": "qfactor",
     "fit": "fitting",
     "fit_lot": "fitting",

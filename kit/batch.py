@@ -146,7 +146,7 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None) 
     port = int(proc.import_.get("port", 1))
     span = proc.resonance.get("span_hz") or (proc.fit or {}).get("span_hz")
     try:
-        from .resonance import resonance
+        from .frequencies import resonance
 
         out["resonance"] = resonance(work, span_hz=span, method=method, port=port).to_dict()
     except Exception as exc:  # noqa: BLE001

@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 
 from .capture import Capture, CaptureError
-from .resonance import _cross, _dedupe, _vertex_min
+from .frequencies import _cross, _dedupe, _vertex_min
 
 __all__ = ["ComponentFigures", "component_figures"]
 

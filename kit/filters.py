@@ -36,7 +36,7 @@ import numpy as np
 
 from .capture import Capture, CaptureError
 from .components import ComponentFigures, component_figures  # noqa: F401  (re-export)
-from .resonance import _cross, _dedupe, _vertex_min
+from .frequencies import _cross, _dedupe, _vertex_min
 
 __all__ = ["FilterFigures", "ComponentFigures", "filter_figures", "component_figures",
            "FILTER_KINDS", "HALF_POWER_DB"]

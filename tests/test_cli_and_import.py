@@ -33,3 +33,16 @@ def test_import_kit_is_light():
             "'skrf', 'pandas') if m in sys.modules]; print(','.join(heavy))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""
+
+
+def test_public_names_stay_functions_after_every_module_is_imported():
+    """No public name is shadowed by a submodule of the same name (import binds submodules on kit)."""
+    code = ("import importlib, pkgutil, types, kit\n"
+            "for m in pkgutil.walk_packages(kit.__path__, 'kit.'):\n"
+            "    if not m.name.startswith(('kit.ui', 'kit.__main__', 'kit.demo')):\n"
+            "        importlib.import_module(m.name)\n"
+            "bad = [n for n in kit._EXPORTS if n not in kit._MODULES\n"
+            "       and isinstance(getattr(kit, n), types.ModuleType)]\n"
+            "print(','.join(bad))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == ""

@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 
 from kit import coupling
 from kit.capture import CaptureError, from_network
-from kit.resonance import resonance
+from kit.frequencies import resonance
 
 # Fixture A: fs = 1 MHz, C0 = 1 nF, C1 = 0.2 nF, Qm = 100 (methods sheet section 1.2)
 FS, C0, C1, QM = 1.0e6, 1.0e-9, 0.2e-9, 100.0
@@ -253,12 +253,12 @@ def test_real_crystals_resonance_and_flags(realdata):
 
 
 def test_kit_resonance_is_callable_after_submodule_import():
-    """kit.resonance(f, z) works even once kit.resonance (the module) has been imported."""
+    """kit.resonance(f, z) works after every analysis module has been imported."""
     import importlib
 
     import kit
 
-    importlib.import_module("kit.resonance")
+    importlib.import_module("kit.frequencies")
     importlib.import_module("kit.filters")
     f = np.linspace(0.9e6, 1.2e6, 3001)
     r = kit.resonance(f, bvd_z(f))

@@ -41,8 +41,6 @@ from __future__ import annotations
 import dataclasses
 import html
 import math
-import sys
-import types
 from dataclasses import dataclass
 from typing import Any
 
@@ -486,19 +484,3 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
                      zn_ohm=zn, g_max_s=g_max, r_max_ohm=r_max, f1_hz=f1, f2_hz=f2, k_eff=k,
                      qm=qm, flags=tuple(flags), span_hz=span, points=n, step_hz=step,
                      name=name, method=meth)
-
-
-class _CallableModule(types.ModuleType):
-    """Module type whose instances can be called like :func:`resonance`.
-
-    The public function and its module share the name ``resonance``: once any code runs
-    ``import kit.resonance`` (or ``from .resonance import ...``) Python binds the package
-    attribute ``kit.resonance`` to this module. Making the module callable keeps
-    ``kit.resonance(capture)`` working whichever of the two the attribute holds.
-    """
-
-    def __call__(self, *args, **kwargs) -> Resonance:
-        return resonance(*args, **kwargs)
-
-
-sys.modules[__name__].__class__ = _CallableModule
