@@ -71,7 +71,8 @@ PANEL_BUILDERS: list[tuple[str, Callable[["Workbench"], Any]]] = [
     ("Resonator fits", _fits),
     ("Review and report", _review),
     ("Matching", _matching),
-    ("Procedure", lambda wb: __import__("kit.ui.procedure_panel", fromlist=["x"]).for_workbench(wb)),
+    ("Procedure", lambda wb: __import__("kit.ui.procedure_panel",
+                                        fromlist=["for_workbench"]).for_workbench(wb)),
 ]
 
 
