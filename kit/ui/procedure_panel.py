@@ -348,7 +348,8 @@ class ProcedurePanel:
         dropdown.value = name
 
     def set_procedure(self, proc) -> None:
-        """Set the controls from a :class:`kit.Procedure` (refused when the panel cannot show it)."""
+        """Set the controls from a :class:`kit.Procedure` (refused when the panel cannot
+        show it)."""
         kinds = [c["kind"] for c in proc.corrections]
         shown = {"cable", "osl", "open_short"}
         if set(kinds) - shown or len(kinds) != len(set(kinds)) or (
