@@ -231,32 +231,24 @@ class Procedure:
         return made[0] if len(made) == 1 else kit.chain(*made)
 
     def limits_object(self):
-        """The [limits] table as a :class:`kit.limits.Limits` (None without limits)."""
+        """The [limits] table as a :class:`kit.limits.Limits` (None without limits).
+
+        Quantities are written inline (``fs_hz = { min = .., max = .. }``) and masks as
+        ``[[limits.mask]]``; both get the checks and messages of a limits file
+        (:func:`kit.limits.limits_from_dict`).
+        """
         if not self.limits:
             return None
-        from .limits import Limits, Mask, QuantityLimit
+        from .limits import LimitsError, limits_from_dict
 
-        quantities, masks = [], []
-        for key, val in self.limits.items():
-            if key == "mask":
-                for j, m in enumerate(val, start=1):
-                    try:
-                        m = dict(m)
-                        for b in ("lower", "upper"):
-                            if isinstance(m.get(b), list):
-                                m[b] = tuple(m[b])
-                        masks.append(Mask(**m))
-                    except TypeError as exc:
-                        raise ProcedureError(f"[limits] mask {j}: {exc}", self.source) from None
-                continue
-            if not isinstance(val, dict) or not ({"min", "max"} & set(val)):
-                raise ProcedureError(f"[limits] {key} must be {{ min = ..., max = ... }}",
-                                     self.source)
-            quantities.append(QuantityLimit(name=key, min=val.get("min"), max=val.get("max"),
-                                            label=val.get("label", ""),
-                                            required=val.get("required", True)))
-        return Limits(quantities=tuple(quantities), masks=tuple(masks), name=self.name,
-                      source=self.source)
+        doc = {"quantity": {k: v for k, v in self.limits.items() if k not in ("mask", "name")},
+               "mask": list(self.limits.get("mask", []))}
+        if self.name:
+            doc["name"] = self.name
+        try:
+            return limits_from_dict(doc, source="[limits]")
+        except LimitsError as exc:
+            raise ProcedureError(str(exc).replace("quantity.", ""), self.source) from None
 
     def run(self, inputs, **options):
         """Run the procedure over captures, files or folders; see :func:`kit.batch.run`."""
