@@ -136,23 +136,23 @@ def test_lot_review_notebook_in_a_real_browser(lab, tmp_path):
             page.wait_for_timeout(800)  # ipympl settles its first frame
             before = page.evaluate(CANVAS, fig)
 
-            status = page.locator(".sb-status")
+            status = page.locator(".sb-lot-browser .sb-status")
             expect(status).to_contain_text("3 captures", timeout=30_000)
 
             # select one capture in the list
-            page.locator(".sb-select select").select_option(label="pzd7-05 · 1601 pts")
+            page.locator(".sb-lot-browser .sb-select select").select_option(label="pzd7-05 · 1601 pts")
             expect(status).to_contain_text("1 capture ·", timeout=30_000)
             before = _until_changed(page, fig, before, "select capture", timings)
 
             # switch the right-hand chart to R
-            page.locator(".sb-chart select").select_option(label="R")
+            page.locator(".sb-lot-browser .sb-chart select").select_option(label="R")
             expect(status).to_contain_text("· R ·", timeout=30_000)
             before = _until_changed(page, fig, before, "switch chart", timings)
 
             # move the lower end of the span: one key press is one step of the slider
-            readout = page.locator(".sb-span .widget-readout")
+            readout = page.locator(".sb-lot-browser .sb-span .widget-readout")
             old_span = readout.inner_text()
-            page.locator(".sb-span .noUi-handle").first.focus()
+            page.locator(".sb-lot-browser .sb-span .noUi-handle").first.focus()
             page.keyboard.press("PageUp")  # a large step (noUiSlider keyboard support)
             expect(readout).not_to_have_text(old_span, timeout=10_000)
             expect(status).not_to_contain_text(f"span {old_span.split()[0]}", timeout=30_000)
