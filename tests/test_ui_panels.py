@@ -224,7 +224,7 @@ def test_workbench_hosts_the_other_panels(lot, demo_dir):
                    corrections_source=demo_dir)
     built = set(wb.sections) - {"Lot", "Markers"}
     assert built | set(wb.skipped) == {"Corrections", "Resonator fits", "Review and report",
-                                        "Matching"}
+                                        "Matching", "Procedure"}
     assert "review_log" in wb.skipped.get("Review and report", "review_log")
     if "Corrections" in wb.sections:
         panel = wb.panels["Corrections"]

@@ -74,7 +74,7 @@ class ReviewPanel:
     def __init__(self, captures: Any, log: ReviewLog | str) -> None:
         import ipywidgets as w
 
-        from ..export import _as_list
+        from ..dataset import _as_list
         from ..capture import Capture
 
         self.captures = [c for c in _as_list(captures) if isinstance(c, Capture)]
