@@ -219,7 +219,6 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
     -------
     BatchResult
     """
-    import pandas as pd
 
     from .dataset import summary as make_summary
 

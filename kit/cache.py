@@ -10,15 +10,16 @@ name, not its content, and are computed afresh on every read.
 from __future__ import annotations
 
 import hashlib
+import io
 import json
 import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from . import __version__
+from .atomic import write_bytes, write_text
 from .capture import Capture, CaptureError, Finding
 from .names import parse_name
 
@@ -121,15 +122,9 @@ class CaptureCache:
         doc["checksum"] = _checksum(arrays) + hashlib.sha256(
             json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()
         arrays["doc"] = np.frombuffer(json.dumps(doc, default=str).encode(), dtype=np.uint8)
-        entry.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=entry.parent, prefix=f".{entry.stem}.", suffix=".npz")
-        try:
-            with os.fdopen(fd, "wb") as fh:
-                np.savez(fh, **arrays)
-            os.replace(tmp, entry)
-        except BaseException:
-            Path(tmp).unlink(missing_ok=True)
-            raise
+        buf = io.BytesIO()
+        np.savez(buf, **arrays)
+        write_bytes(entry, buf.getvalue())
 
     def _read(self, entry: Path, sha: str, path: Path, name_pattern: str | None) -> Capture:
         import skrf
@@ -183,16 +178,7 @@ class CaptureCache:
         body = json.dumps(result, sort_keys=True, default=str)
         doc = {"result": json.loads(body),
                "checksum": hashlib.sha256(json.dumps(json.loads(body), sort_keys=True).encode()).hexdigest()}
-        p = self.result_entry(sha256, digest)
-        p.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=p.parent, prefix=f".{p.stem}.", suffix=".json")
-        try:
-            with os.fdopen(fd, "w", encoding="utf-8") as fh:
-                fh.write(json.dumps(doc))
-            os.replace(tmp, p)
-        except BaseException:
-            Path(tmp).unlink(missing_ok=True)
-            raise
+        write_text(self.result_entry(sha256, digest), json.dumps(doc))
 
     def clear(self) -> int:
         """Remove every entry of this cache format; returns how many were removed."""

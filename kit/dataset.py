@@ -167,21 +167,7 @@ def refuse_input_folder(target: Path, captures: Iterable[Any], what: str) -> Non
                           "to (except the review log): choose another folder")
 
 
-def atomic_write_bytes(path: Path, data: bytes) -> None:
-    """Write bytes to ``path`` through a temporary file in the same folder and os.replace."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
+from .atomic import write_bytes as atomic_write_bytes  # noqa: E402  (kept for callers)
 
 # --------------------------------------------------------------------------- sweeps
 def _z_method(cap: Capture, z_method: Any) -> str | None:

@@ -21,9 +21,7 @@ conductor loss scaling as sqrt(f); the fixture as series R-L then a shunt stray 
 from __future__ import annotations
 
 import json
-import os
 import sys
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -174,17 +172,7 @@ def _touchstone_text(f_hz: np.ndarray, s: np.ndarray, comments: list[str]) -> st
     return "\n".join(lines) + "\n"
 
 
-def _write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
+from .atomic import write_text as _write  # noqa: E402
 
 def _header(what: str, extra: list[str] | None = None) -> list[str]:
     return [f"Demo capture (invented scenario): {what}",

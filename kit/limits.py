@@ -18,7 +18,6 @@ from __future__ import annotations
 import math
 import os
 import re
-import tempfile
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -187,21 +186,7 @@ def _toml_num(x: float) -> str:
     return r if ("." in r or "e" in r or "E" in r) else r + ".0"
 
 
-def atomic_write_text(path: Path, text: str) -> None:
-    """Write text to ``path`` through a temporary file in the same folder and os.replace."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
+from .atomic import write_text as atomic_write_text  # noqa: E402  (kept for callers)
 
 # --------------------------------------------------------------------------- reading
 def _line_of(text: str, pattern: str) -> int | None:

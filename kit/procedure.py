@@ -39,7 +39,6 @@ import hashlib
 import json
 import math
 import os
-import tempfile
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -274,17 +273,7 @@ def _relative(p: Path, folder: Path) -> str:
         return str(p.resolve())
 
 
-def _atomic_write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
+from .atomic import write_text as _atomic_write  # noqa: E402
 
 # ---------------------------------------------------------------------- a small TOML writer
 # The standard library reads TOML (tomllib) but does not write it; procedures hold only

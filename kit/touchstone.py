@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import hashlib
 import io
-import math
 import re
 import warnings
 from dataclasses import dataclass, field
@@ -174,8 +173,6 @@ def scan_text(text: str, path: str, scan: Scan | None = None) -> Scan:
     in_data = True  # v1 files have data right after the option line
     in_noise = False
     in_info = False
-    pending: list[tuple[int, float | None, list[float]]] = []  # records being built (v2/multi-line)
-    expect = None
     option_seen_at = None
     ref_pending = 0
     data_lines: list[tuple[int, list[str]]] = []  # (line, tokens)
