@@ -44,7 +44,7 @@ class _StandardsCorrection(Correction):
         ref = float(z0.ravel()[0]) if z0.size else 50.0
         for key, std in self.inputs.items():
             zs = real_reference(std, _role(key))
-            if not (np.allclose(z0, ref, rtol=1e-9) and np.allclose(zs, ref, rtol=1e-9)):
+            if not (_all_near(z0, ref) and _all_near(zs, ref)):
                 raise CaptureError(
                     f"reference impedances differ: the capture {cap.name!r} is on "
                     f"{_refs(z0)} ohm, the {_role(key)} {std.name!r} on {_refs(zs)} ohm; "
@@ -79,6 +79,12 @@ class _StandardsCorrection(Correction):
     @staticmethod
     def _extra(notes: list[dict]) -> dict[str, Any]:
         return {"resampled": notes} if notes else {}
+
+
+def _all_near(z: np.ndarray, ref: float) -> bool:
+    """Every reference impedance equals ``ref`` (to 1e-9); exact equality is checked first,
+    which is the usual case and several times faster than allclose (measured in a batch run)."""
+    return bool(np.all(z == ref)) or bool(np.allclose(z, ref, rtol=1e-9))
 
 
 def _refs(z0: np.ndarray) -> str:
