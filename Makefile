@@ -3,6 +3,8 @@ PYTHON ?= python3
 VENV   := .venv
 BIN    := $(VENV)/bin
 PORT   ?= 8888
+# JupyterLab refuses to run as root unless told; containers and CI machines often are root.
+ROOT_FLAG := $(if $(filter 0,$(shell id -u)),--allow-root,)
 
 .PHONY: lab test venv clean demo bench
 
@@ -23,7 +25,7 @@ venv: $(VENV)/.installed
 
 lab: $(VENV)/.installed
 	@echo "JupyterLab will open on notebooks/ at http://127.0.0.1:$(PORT)/lab (the token is printed below)."
-	$(BIN)/jupyter lab --notebook-dir=notebooks --ServerApp.ip=127.0.0.1 --ServerApp.port=$(PORT) --no-browser
+	$(BIN)/jupyter lab --ServerApp.root_dir=notebooks --ServerApp.ip=127.0.0.1 --ServerApp.port=$(PORT) --no-browser $(ROOT_FLAG)
 
 test: $(VENV)/.installed-test
 	$(BIN)/python -m pytest
