@@ -26,6 +26,7 @@ CHUNK = 16
 # Per-process memo of built correction chains, keyed by the procedure's digest: standards
 # are read once per worker, not once per capture.
 _CHAINS: dict[str, Any] = {}
+_LIMITS: dict[str, Any] = {}
 
 
 @dataclass
@@ -87,13 +88,32 @@ def _error(exc: BaseException) -> dict[str, Any]:
             else str(exc.reason)}
 
 
-def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> dict[str, Any]:
+def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
+                keep_captures: bool = True) -> dict[str, Any]:
     """Run the procedure on one input (a path or a Capture); never raises for bad data.
 
     Returns a dict with ``capture`` (Capture, or an error dict with path, reason, line),
-    ``corrected``, ``resonance`` and ``fit`` (plain dicts) and ``cache`` ("hit", "miss",
-    "rebuilt" or None).
+    ``corrected``, ``resonance`` and ``fit`` (plain dicts), ``cache`` ("hit", "miss",
+    "rebuilt" or None) and ``row``, the input's summary row (:func:`kit.dataset.summary_rows`,
+    with the procedure's limits), built here so that workers share that work too. With
+    ``keep_captures=False`` the captures are dropped once the row is made (large runs).
     """
+    from .dataset import summary_rows
+
+    out = _analyse(item, proc, digest, cache_dir)
+    c = out["capture"]
+    cap = CaptureError(c["reason"], c["path"], c.get("line")) if isinstance(c, dict) else c
+    if digest not in _LIMITS:
+        _LIMITS[digest] = proc.limits_object()
+    out["row"] = summary_rows([cap], fits=[out["fit"]], resonances=[out["resonance"]],
+                              limits=_LIMITS[digest])[0]
+    if not keep_captures:
+        out["capture"] = c if isinstance(c, dict) else None
+        out["corrected"] = None
+    return out
+
+
+def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> dict[str, Any]:
     from .touchstone import load
 
     out: dict[str, Any] = {"capture": None, "corrected": None, "resonance": None, "fit": None,
@@ -173,16 +193,17 @@ def _one_blas_thread() -> None:
 
 
 def _process_chunk(items: list, proc_doc: dict, base_dir: str, source: str | None,
-                   digest: str, cache_dir: str | None, one_thread: bool = False) -> list[dict[str, Any]]:
+                   digest: str, cache_dir: str | None, keep_captures: bool = True,
+                   one_thread: bool = False) -> list[dict[str, Any]]:
     proc = Procedure.from_dict(proc_doc, base_dir=base_dir, source=source or "<procedure>")
     if not one_thread:
-        return [process_one(it, proc, digest, cache_dir) for it in items]
+        return [process_one(it, proc, digest, cache_dir, keep_captures) for it in items]
     # In a worker process the BLAS library must not start threads of its own: with one
     # worker per core they only compete (measured here: 2 workers went from 1.5x to 1.8x).
     from threadpoolctl import threadpool_limits
 
     with threadpool_limits(limits=1):
-        return [process_one(it, proc, digest, cache_dir) for it in items]
+        return [process_one(it, proc, digest, cache_dir, keep_captures) for it in items]
 
 
 # ---------------------------------------------------------------------- inputs
@@ -208,7 +229,8 @@ def expand_inputs(inputs: Iterable[Any]) -> list[Any]:
 # ---------------------------------------------------------------------- the run
 def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None = None,
         client: Any = None, scheduler: str | None = None, cache_dir: str | Path | None = None,
-        use_cache: bool = True, progress: bool | None = None) -> BatchResult:
+        use_cache: bool = True, progress: bool | None = None,
+        keep_captures: bool = True) -> BatchResult:
     """Run a procedure over many captures.
 
     Parameters
@@ -228,13 +250,16 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         ``False`` parses every file.
     progress : bool, optional
         Progress bar; default: only when standard error is a terminal.
+    keep_captures : bool
+        Keep every capture (raw and corrected) in the result, as exports of sweeps and
+        reports need. ``False`` keeps only the summary rows: memory then stays flat for
+        lots of any size (the summary and the provenance can still be written).
 
     Returns
     -------
     BatchResult
     """
-
-    from .dataset import summary as make_summary
+    from .dataset import summary_frame
 
     proc = procedure if isinstance(procedure, Procedure) else Procedure.from_file(procedure)
     items = expand_inputs(inputs)
@@ -254,7 +279,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
 
         bar = tqdm(total=len(items), desc="captures", unit="capture")
     chunks = [items[i: i + CHUNK] for i in range(0, len(items), CHUNK)]
-    args = (proc.to_dict(), str(proc.base_dir), proc.source, digest, cdir)
+    args = (proc.to_dict(), str(proc.base_dir), proc.source, digest, cdir, keep_captures)
     results: list[dict[str, Any]] = []
     engine = "this process"
     own_client = None
@@ -294,23 +319,23 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
             bar.close()
         if own_client is not None:
             own_client.close()
-    captures, corrected, fits, resonances = [], [], [], []
+    captures, corrected, fits, resonances, rows = [], [], [], [], []
     cache_counts = {"hit": 0, "miss": 0, "rebuilt": 0, "results_reused": 0}
     for r in results:
         c = r["capture"]
         if isinstance(c, dict):
-            err = CaptureError(c["reason"], c["path"], c.get("line"))
-            captures.append(err)
-        else:
+            captures.append(CaptureError(c["reason"], c["path"], c.get("line")))
+        elif c is not None:
             captures.append(c)
-        corrected.append(r["corrected"])
+        if keep_captures:
+            corrected.append(r["corrected"])
         fits.append(r["fit"])
         resonances.append(r["resonance"])
+        rows.append(r["row"])
         if r["cache"]:
             cache_counts[r["cache"]] += 1
         cache_counts["results_reused"] += r.get("result_cache") == "hit"
-    summ = make_summary(captures, fits=fits, resonances=resonances, limits=proc.limits_object())
-    # the working capture's name for corrected data keeps the raw identity
+    summ = summary_frame(rows)
     stats = {"inputs": len(items), "errors": int((summ["status"] == "error").sum()),
              "engine": engine, "procedure_sha256": digest, "cache_dir": cdir, **cache_counts}
     return BatchResult(summary=summ, captures=captures, corrected=corrected, fits=fits,
@@ -327,13 +352,17 @@ def _run_args(p: argparse.ArgumentParser) -> None:
     p.add_argument("--cache", default=None, help="cache folder for parsed captures (default: user cache)")
     p.add_argument("--no-cache", action="store_true", help="parse every file, use no cache")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
+    p.add_argument("--summary-only", action="store_true",
+                   help="keep no captures in memory (very large lots): writes the summary and "
+                        "provenance, an empty sweeps table and no report")
 
 
 def _run_cmd(args: argparse.Namespace) -> int:
     try:
         result = run(args.procedure, args.inputs, workers=args.workers, scheduler=args.scheduler,
-                     cache_dir=args.cache, use_cache=not args.no_cache)
-        out = result.write(args.out, report=not args.no_report)
+                     cache_dir=args.cache, use_cache=not args.no_cache,
+                     keep_captures=not args.summary_only)
+        out = result.write(args.out, report=not (args.no_report or args.summary_only))
     except (CaptureError, ValueError, OSError) as exc:
         print(f"sweepbook run: {exc}", file=sys.stderr)
         return 2

@@ -388,8 +388,18 @@ def summary(captures: Any, fits: Any = None, resonances: Any = None, limits: Any
         Columns of :data:`SUMMARY_BASE` always present (NaN or empty where not computed),
         then metadata, extra figures and margins.
     """
-    import pandas as pd
+    rows = summary_rows(captures, fits=fits, resonances=resonances, limits=limits,
+                        review_log=review_log)
+    return summary_frame(rows)
 
+
+def summary_rows(captures: Any, fits: Any = None, resonances: Any = None, limits: Any = None,
+                 review_log: Any = None) -> list[dict[str, Any]]:
+    """The rows of :func:`summary` as plain dicts (same arguments).
+
+    Batch runs build rows in their worker processes and join them with
+    :func:`summary_frame`, so every engine gives the table :func:`summary` gives.
+    """
     from .limits import Limits, load_limits, verdict
 
     if limits is not None and not isinstance(limits, Limits):
@@ -433,6 +443,13 @@ def summary(captures: Any, fits: Any = None, resonances: Any = None, limits: Any
             row["review_tags"] = "" if st is None else st["tags"]
             row["retest_requested"] = False if st is None else bool(st["retest_requested"])
         rows.append(row)
+    return rows
+
+
+def summary_frame(rows: list[dict[str, Any]]):
+    """The summary DataFrame from rows of :func:`summary_rows` (column order and types)."""
+    import pandas as pd
+
     df = pd.DataFrame(rows)
     for col in SUMMARY_BASE:
         if col not in df:
@@ -443,6 +460,8 @@ def summary(captures: Any, fits: Any = None, resonances: Any = None, limits: Any
         df[c] = pd.to_numeric(df[c], errors="coerce").astype(float)
     rest = [c for c in df.columns if c not in SUMMARY_BASE]
     return df[SUMMARY_BASE + rest]
+
+
 
 
 #: :func:`summary` under a name that :func:`export`'s ``summary`` argument does not hide.

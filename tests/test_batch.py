@@ -65,6 +65,16 @@ def test_bad_file_is_an_error_row_and_the_rest_completes(lot):
     assert good["c0_f_stderr"].gt(0).all() and good["serial"].tolist() == [1, 2, 4, 7]
 
 
+def test_summary_only_runs_keep_no_captures(lot):
+    """keep_captures=False gives the same summary and holds no capture in memory."""
+    root, d, proc = lot
+    full = run(proc, d, workers=1, use_cache=False)
+    lean = run(proc, d, workers=1, use_cache=False, keep_captures=False)
+    pd.testing.assert_frame_equal(full.summary, lean.summary)
+    assert all(isinstance(c, Exception) for c in lean.captures) and len(lean.captures) == 1
+    assert lean.corrected == []
+
+
 def test_missing_standard_gives_error_rows_not_a_crash(lot):
     """A missing standard makes every capture an error row naming it; the run still returns."""
     root, d, proc = lot
