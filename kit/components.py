@@ -25,18 +25,7 @@ from .frequencies import _cross, _dedupe, _vertex_min
 __all__ = ["ComponentFigures", "component_figures"]
 
 
-def _esc_rows(rows: list[tuple[str, str]]) -> str:
-    e = html.escape
-    return "".join(f"<tr><td>{e(k)}</td><td style='text-align:right'>{e(v)}</td></tr>"
-                   for k, v in rows)
-
-
-def _fmt(v, unit: str = "", fmt: str = ".6g") -> str:
-    if v is None:
-        return "not found"
-    if unit == "Hz":
-        return f"{v:,.2f} Hz"
-    return (format(v, fmt) + (" " + unit if unit else "")).strip()
+from ._text import fmt_value as _fmt, html_rows as _esc_rows  # noqa: E402
 
 
 @dataclass(frozen=True, eq=False)

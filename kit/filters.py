@@ -49,18 +49,7 @@ FILTER_KINDS: tuple[str, ...] = ("low-pass", "high-pass", "band-pass", "notch")
 HALF_POWER_DB: float = -10.0 * math.log10(2.0)
 
 
-def _esc_rows(rows: list[tuple[str, str]]) -> str:
-    e = html.escape
-    return "".join(f"<tr><td>{e(k)}</td><td style='text-align:right'>{e(v)}</td></tr>"
-                   for k, v in rows)
-
-
-def _fmt(v, unit: str = "", fmt: str = ".6g") -> str:
-    if v is None:
-        return "not found"
-    if unit == "Hz":
-        return f"{v:,.2f} Hz"
-    return (format(v, fmt) + (" " + unit if unit else "")).strip()
+from ._text import fmt_value as _fmt, html_rows as _esc_rows  # noqa: E402
 
 
 # =========================================================================== filters

@@ -9,8 +9,6 @@ interpolated); :func:`marker_readout` computes the readout dict; :func:`draw_mar
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 from typing import Any, Iterable
 
@@ -194,17 +192,9 @@ def markers_table(readouts: Iterable[dict[str, Any]]):
 
 def write_markers_csv(table, path: str | Path) -> Path:
     """Write a markers table to CSV atomically (temporary file, then rename)."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=path.parent or ".")
-    try:
-        with os.fdopen(fd, "w", newline="") as fh:
-            table.to_csv(fh, index=False, float_format="%.10g")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
+    from .atomic import write_text
+
+    return write_text(Path(path), table.to_csv(index=False, float_format="%.10g"))
 
 
 def plot_limits(ax, segments, label: str | None = "limit", **kw) -> list[Any]:
