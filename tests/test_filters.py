@@ -175,7 +175,7 @@ def test_real_crystals_peak_matches_published_max(realdata):
     # table value 10.004000 MHz is rounded: the file's own maximum is at 10.003990 MHz).
     import warnings
 
-    from test_resonance import CRYSTAL_TABLE
+    from test_frequencies import CRYSTAL_TABLE
 
     folder = realdata("crystal-series-through")
     cases = [(m, t, v) for t, (c, b) in CRYSTAL_TABLE.items() for m, v in (("C100", c),
