@@ -282,3 +282,33 @@ def test_lot_browser_on_100001_point_sweeps(lab, tmp_path, latencies):
         _shot(page, tmp_path, "lot_browser_100001", page.locator(panel))
         assert page.locator(f"{panel} .sb-message").inner_text() == ""
     latencies += [(LONG_POINTS, k, v) for k, v in timings.items()]
+
+
+NOTEBOOKS = sorted(p.name for p in (ROOT / "notebooks").glob("[0-9][0-9]_*.ipynb"))
+
+
+@pytest.mark.parametrize("name", [n for n in NOTEBOOKS if not n.startswith("01_")])
+def test_every_notebook_runs_in_a_real_browser(lab, tmp_path, name):
+    """Each notebook runs top to bottom in JupyterLab: every code cell executed, no error output."""
+    if not (ROOT / "demo_data" / "truth.json").exists():
+        pytest.skip("demo_data/ has not been generated")
+    root = lab[2]
+    (root / "notebooks").mkdir()
+    for nb in (ROOT / "notebooks").glob("*.ipynb"):
+        shutil.copy(nb, root / "notebooks" / nb.name)          # never the originals
+    (root / "demo_data").symlink_to(ROOT / "demo_data")
+    shared = ROOT.parent / "shared"
+    if shared.is_dir() and not (root.parent / "shared").exists():
+        (root.parent / "shared").symlink_to(shared)             # the real-data notebook's ../../shared
+    with _notebook_page(lab, tmp_path, f"notebooks/{name}") as page:
+        code_cells = page.locator(".jp-CodeCell")
+        n = code_cells.count()
+        assert n > 0
+        page.wait_for_function(
+            "n => [...document.querySelectorAll('.jp-CodeCell .jp-InputPrompt')]"
+            ".filter(e => /\\[\\d+\\]/.test(e.textContent)).length === n", arg=n, timeout=120_000)
+        errors = page.locator(".jp-OutputArea-output[data-mime-type="
+                              "'application/vnd.jupyter.stderr']")
+        text = " ".join(errors.all_inner_texts())
+        assert "Traceback" not in text and "Error" not in text, text[:2000]
+        _shot(page, tmp_path, name.removesuffix(".ipynb"))
