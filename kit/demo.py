@@ -113,11 +113,11 @@ def element_z(f_hz: np.ndarray, p: dict) -> np.ndarray:
 
 
 def lossless_pair(kt: float, fp_hz: float) -> tuple[float, float]:
-    """fs, fp of the lossless free plate: kt^2 tan(x)/x = 1, x = pi fs / (2 fp) (IEEE 176)."""
-    from scipy.optimize import brentq
+    """fs, fp of the lossless free plate: kt^2 tan(x)/x = 1, x = pi fs / (2 fp) (IEEE 176),
+    solved by :func:`kit.coupling.fs_from_kt`."""
+    from .coupling import fs_from_kt
 
-    x = brentq(lambda x: kt**2 * np.tan(x) / x - 1.0, 1e-9, np.pi / 2 - 1e-12, xtol=1e-15)
-    return 2 * fp_hz * x / np.pi, fp_hz
+    return fs_from_kt(kt, fp_hz), fp_hz
 
 
 def _elements(rng: np.random.Generator) -> dict[str, dict]:
