@@ -13,6 +13,8 @@ from typing import Any, Callable
 
 import numpy as np
 
+from .reflection import db20, gamma_from_z, return_loss_db, vswr  # noqa: F401  (re-exported)
+
 #: Our trace colours, in order of use (deep teal, brick, violet, moss, ochre, slate, berry,
 #: umber). Chosen for contrast on white and between neighbours.
 PALETTE: tuple[str, ...] = (
@@ -30,70 +32,12 @@ def color(i: int) -> str:
     return PALETTE[i % len(PALETTE)]
 
 
-def gamma_from_z(z: np.ndarray, z0_ohm: float = 50.0) -> np.ndarray:
-    r"""Reflection coefficient of an impedance in a real reference impedance.
-
-    .. math:: \Gamma = \frac{Z - Z_0}{Z + Z_0}
-
-    Parameters
-    ----------
-    z : array_like of complex
-        Impedance [ohm].
-    z0_ohm : float
-        Reference impedance [ohm].
-
-    Returns
-    -------
-    numpy.ndarray of complex
-        Gamma [1]; NaN where Z is NaN.
-
-    References
-    ----------
-    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley, 2012, ch. 2 (from memory
-       for the chapter); methods sheet section 0 (conventions) and 8.3.
-    """
-    z = np.asarray(z, dtype=complex)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return (z - z0_ohm) / (z + z0_ohm)
 
 
-def vswr(gamma: np.ndarray) -> np.ndarray:
-    r"""Voltage standing wave ratio from a reflection coefficient.
-
-    .. math:: \mathrm{VSWR} = \frac{1 + |\Gamma|}{1 - |\Gamma|}
-
-    Returns inf where :math:`|\Gamma| \ge 1` (total reflection; an active or noisy point).
-
-    References
-    ----------
-    .. [1] Methods sheet section 8.3 (VSWR, return loss, mismatch loss); the same formula as
-       scikit-rf ``Network.s_vswr``.
-    """
-    m = np.abs(np.asarray(gamma, dtype=complex))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        out = (1.0 + m) / (1.0 - m)
-    return np.where(m >= 1.0, np.inf, out)
 
 
-def return_loss_db(gamma: np.ndarray) -> np.ndarray:
-    r"""Return loss [dB], positive for a passive load.
-
-    .. math:: RL = -20 \log_{10} |\Gamma|
-
-    References
-    ----------
-    .. [1] ECSS glossary, "return loss" (positive when the reflected wave is smaller than
-       the incident one); methods sheet section 8.3.
-    """
-    m = np.abs(np.asarray(gamma, dtype=complex))
-    with np.errstate(divide="ignore"):
-        return -20.0 * np.log10(m)
 
 
-def db20(s: np.ndarray) -> np.ndarray:
-    """Magnitude in decibels, 20 log10 |s| [dB] (-inf where s = 0)."""
-    with np.errstate(divide="ignore"):
-        return 20.0 * np.log10(np.abs(np.asarray(s, dtype=complex)))
 
 
 def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:

@@ -18,34 +18,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..reflection import gamma_from_z  # noqa: F401  (used by the fixtures)
 
-def gamma_from_z(z: np.ndarray, z0_ohm) -> np.ndarray:
-    r"""Reflection coefficient of an impedance on a real reference.
 
-    .. math:: \Gamma = \frac{Z - Z_0}{Z + Z_0}
-
-    Parameters
-    ----------
-    z : array_like of complex
-        Impedance [ohm]; ``inf`` gives 1.
-    z0_ohm : float or array_like
-        Real reference impedance [ohm].
-
-    Returns
-    -------
-    numpy.ndarray of complex
-        Gamma [1].
-
-    References
-    ----------
-    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley 2012, ch. 2 (from memory
-       for the chapter).
-    """
-    z = np.asarray(z, dtype=complex)
-    z0 = np.asarray(z0_ohm, dtype=float)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        g = (z - z0) / (z + z0)
-    return np.where(np.isinf(z), 1.0 + 0j, g)
 
 
 def z_from_gamma(g: np.ndarray, z0_ohm) -> np.ndarray:

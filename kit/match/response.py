@@ -17,65 +17,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..reflection import (gamma_from_vswr, gamma_from_z, mismatch_loss_db,  # noqa: F401
+                          return_loss_db, vswr)
 from .circuit import MatchDesign, input_impedance, load_grid, load_z
 
 
-def gamma_from_z(z_ohm, z0_ohm: float = 50.0) -> np.ndarray:
-    r"""Reflection coefficient of an impedance in a real reference, Γ = (Z − Z0)/(Z + Z0) [1].
-
-    References
-    ----------
-    .. [1] Methods sheet section 0 and 8.3; Pozar, *Microwave Engineering*, 4th ed., ch. 2
-       (from memory for the chapter).
-    """
-    z = np.asarray(z_ohm, dtype=complex)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return (z - z0_ohm) / (z + z0_ohm)
 
 
-def return_loss_db(gamma) -> np.ndarray:
-    """Return loss RL = −20 log10|Γ| [dB], positive for a passive load.
-
-    References
-    ----------
-    .. [1] Methods sheet section 8.3; ECSS glossary "return loss".
-    """
-    with np.errstate(divide="ignore"):
-        return -20.0 * np.log10(np.abs(gamma))
 
 
-def vswr(gamma) -> np.ndarray:
-    """Voltage standing wave ratio (1 + |Γ|)/(1 − |Γ|) [1].
-
-    References
-    ----------
-    .. [1] Methods sheet section 8.3.
-    """
-    g = np.abs(gamma)
-    with np.errstate(divide="ignore"):
-        return (1.0 + g) / (1.0 - g)
 
 
-def gamma_from_vswr(s) -> np.ndarray:
-    """|Γ| = (VSWR − 1)/(VSWR + 1) [1].
-
-    References
-    ----------
-    .. [1] Methods sheet section 8.3.
-    """
-    s = np.asarray(s, dtype=float)
-    return (s - 1.0) / (s + 1.0)
 
 
-def mismatch_loss_db(gamma) -> np.ndarray:
-    """Mismatch loss ML = −10 log10(1 − |Γ|²) [dB].
-
-    References
-    ----------
-    .. [1] Methods sheet section 8.3.
-    """
-    with np.errstate(divide="ignore"):
-        return -10.0 * np.log10(1.0 - np.abs(gamma) ** 2)
 
 
 def ladder_waves(design: MatchDesign | None, z_load, f_hz, v_source=1.0, r_source_ohm=50.0,
