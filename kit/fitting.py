@@ -81,6 +81,22 @@ def _unjson(v, nan=True):
     return v
 
 
+_DIMENSIONLESS = {"kt", "k31", "k33", "k_eff", "qm", "tan_delta"}
+
+
+def param_unit(name: str) -> str:
+    """SI unit of a fit parameter or derived figure by its name ("" for dimensionless)."""
+    if name.endswith("_hz"):
+        return "Hz"
+    if name in _DIMENSIONLESS:
+        return ""
+    if name.startswith("ESR"):
+        return "ohm"
+    if name.startswith("ESL"):
+        return "H"
+    return {"R": "ohm", "L": "H", "C": "F"}.get(name[:1], "")
+
+
 @dataclass(frozen=True)
 class FitResult:
     """Outcome of one fit: parameters with uncertainties, derived figures and flags.
@@ -185,7 +201,9 @@ class FitResult:
                  f"residual (normalised RMS): {self.residual_rel:.3g}; points: {self.n_points}; "
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]
         for p, v, e, rel in self._rows():
-            lines.append(f"  {p:>10s} = {v:.6g} +/- {e:.2g}  ({rel:.2g} %)")
+            u = param_unit(p)
+            u = f" {u}" if u else ""
+            lines.append(f"  {p:>10s} = {v:.6g}{u} +/- {e:.2g}{u}  ({rel:.2g} %)")
         return "\n".join(lines)
 
     def __str__(self) -> str:
@@ -194,7 +212,8 @@ class FitResult:
     def _repr_html_(self) -> str:
         esc = html.escape
         rows = "".join(
-            f"<tr><td>{esc(p)}</td><td>{v:.6g}</td><td>{e:.2g}</td><td>{rel:.2g} %</td></tr>"
+            f"<tr><td>{esc(p)} [{esc(param_unit(p) or '1')}]</td><td>{v:.6g}</td><td>{e:.2g}</td>"
+            f"<td>{rel:.2g} %</td></tr>"
             for p, v, e, rel in self._rows())
         flags = esc(", ".join(self.flags) or "none")
         status = "ok" if self.ok else "NOT ok: " + esc(self.reason)
