@@ -196,15 +196,22 @@ def _select_chart_span(page, panel, fig, capture_label, before, timings):
     return _until_changed(page, fig, before, t0, "move span", timings)
 
 
-def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
-    """Run-all works; selecting, chart choice, span and marker each redraw the figure."""
+def _stage_notebooks(root: Path) -> None:
+    """Copies of the notebooks in the server's root, beside links to the demo and real data."""
     if not (ROOT / "demo_data" / "truth.json").exists():
         pytest.skip("demo_data/ has not been generated")
-    root = lab[2]
     (root / "notebooks").mkdir()
     for nb in (ROOT / "notebooks").glob("*.ipynb"):
         shutil.copy(nb, root / "notebooks" / nb.name)          # never the originals
     (root / "demo_data").symlink_to(ROOT / "demo_data")          # read only by the notebooks
+    shared = ROOT.parent / "shared"
+    if shared.is_dir() and not (root.parent / "shared").exists():
+        (root.parent / "shared").symlink_to(shared)             # the real-data notebook's ../../shared
+
+
+def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
+    """Run-all works; selecting, chart choice, span and marker each redraw the figure."""
+    _stage_notebooks(lab[2])
     expect, fig, panel = pw.expect, ".sb-lot-figure", ".sb-lot-browser"
     timings: dict[str, float] = {}
     with _notebook_page(lab, tmp_path, "notebooks/01_lot_review.ipynb") as page:
@@ -290,16 +297,7 @@ NOTEBOOKS = sorted(p.name for p in (ROOT / "notebooks").glob("[0-9][0-9]_*.ipynb
 @pytest.mark.parametrize("name", [n for n in NOTEBOOKS if not n.startswith("01_")])
 def test_every_notebook_runs_in_a_real_browser(lab, tmp_path, name):
     """Each notebook runs top to bottom in JupyterLab: every code cell executed, no error output."""
-    if not (ROOT / "demo_data" / "truth.json").exists():
-        pytest.skip("demo_data/ has not been generated")
-    root = lab[2]
-    (root / "notebooks").mkdir()
-    for nb in (ROOT / "notebooks").glob("*.ipynb"):
-        shutil.copy(nb, root / "notebooks" / nb.name)          # never the originals
-    (root / "demo_data").symlink_to(ROOT / "demo_data")
-    shared = ROOT.parent / "shared"
-    if shared.is_dir() and not (root.parent / "shared").exists():
-        (root.parent / "shared").symlink_to(shared)             # the real-data notebook's ../../shared
+    _stage_notebooks(lab[2])
     with _notebook_page(lab, tmp_path, f"notebooks/{name}") as page:
         code_cells = page.locator(".jp-CodeCell")
         n = code_cells.count()
