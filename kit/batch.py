@@ -27,6 +27,7 @@ CHUNK = 16
 # are read once per worker, not once per capture.
 _CHAINS: dict[str, Any] = {}
 _LIMITS: dict[str, Any] = {}
+_CACHES: dict[str, Any] = {}
 
 
 @dataclass
@@ -83,6 +84,15 @@ def _chain_for(proc: Procedure, digest: str):
     return _CHAINS[digest]
 
 
+def _cache_for(cache_dir: str):
+    """This process's cache object for a folder (one per worker, not one per capture)."""
+    if cache_dir not in _CACHES:
+        from .cache import CaptureCache
+
+        _CACHES[cache_dir] = CaptureCache(cache_dir)
+    return _CACHES[cache_dir]
+
+
 def _error(exc: BaseException) -> dict[str, Any]:
     return {"__error__": f"{type(exc).__name__}: {exc}" if not isinstance(exc, CaptureError)
             else str(exc.reason)}
@@ -123,9 +133,7 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
         if isinstance(item, Capture):
             cap = item
         elif cache_dir is not None:
-            from .cache import CaptureCache
-
-            cap, out["cache"] = CaptureCache(cache_dir).load(item, pattern)
+            cap, out["cache"] = _cache_for(cache_dir).load(item, pattern)
         else:
             cap = load(item, pattern)
     except CaptureError as exc:
@@ -137,9 +145,7 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
     out["capture"] = cap
     store = None
     if cache_dir is not None and not isinstance(item, Capture) and cap.sha256:
-        from .cache import CaptureCache
-
-        store = CaptureCache(cache_dir)
+        store = _cache_for(cache_dir)
         done = store.get_result(cap.sha256, digest)
     else:
         done = None

@@ -188,10 +188,3 @@ class CaptureCache:
                 p.unlink()
                 n += 1
         return n
-
-
-def describe(cache: CaptureCache | None) -> dict[str, Any]:
-    """Plain-data description for provenance."""
-    if cache is None:
-        return {"cache": None}
-    return {"cache": str(cache.folder), "cache_format": CACHE_FORMAT, **cache.stats}
