@@ -26,8 +26,8 @@ ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
 import kit  # noqa: E402
-from kit.batch import run  # noqa: E402
-from kit.procedure import Procedure  # noqa: E402
+from kit.batch.engine import run  # noqa: E402
+from kit.batch.procedure import Procedure  # noqa: E402
 
 
 def make_lot(folder: Path, n: int) -> list[Path]:

@@ -24,7 +24,7 @@ import numpy as np
 
 def make_lot(n: int, points: int, seed: int):
     """Noisy BVD captures (f, z, truth) with random parameters (0.3 % relative noise)."""
-    from kit.models import get_model
+    from kit.resonators.registry import get_model
 
     model = get_model("bvd")
     rng = np.random.default_rng(seed)
@@ -53,7 +53,7 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
 
     import kit
-    from kit import models
+    from kit.resonators import models
 
     lot = make_lot(args.lot, args.points, args.seed)
     calls = [0]
@@ -77,7 +77,9 @@ def main(argv=None) -> int:
     finally:
         models.Model.z_and_jac = original
 
-    m = models.get_model("bvd")
+    from kit.resonators import registry
+
+    m = registry.get_model("bvd")
     f, _, p = lot[0]
     reps = 200
     t0 = time.perf_counter()

@@ -78,7 +78,7 @@ def main() -> None:
 
 
 def kv_window(f, span):
-    from kit.decimate import window
+    from kit.views.decimate import window
 
     return window(f, *span)
 

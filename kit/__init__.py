@@ -15,22 +15,22 @@ from typing import Any
 
 __version__ = "0.1.0"
 
-from .capture import Capture, CaptureError, Finding  # noqa: E402  (light: numpy only)
+from kit.capture import Capture, CaptureError, Finding  # noqa: E402  (light: numpy only)
 
 # name -> "module" or "module:attribute" (relative to kit). One line per public name;
 # each concept keeps its block. Modules are imported on first use.
 _EXPORTS: dict[str, str] = {
     # -- import and pre-flight (foundation)
-    "load": "touchstone",
-    "check": "touchstone",
-    "load_table": "tables",
-    "load_folder": "folder",
+    "load": "io.touchstone",
+    "check": "io.touchstone",
+    "load_table": "io.tables",
+    "load_folder": "io.folder",
     "from_network": "capture",
-    "parse_name": "names",
+    "parse_name": "io.names",
     # -- impedance methods (foundation)
-    "impedance": "immittance",
-    "admittance": "immittance",
-    "SingularPointsWarning": "immittance",
+    "impedance": "network.immittance",
+    "admittance": "network.immittance",
+    "SingularPointsWarning": "network.immittance",
     # -- corrections (issue 3)
     "port_extension": "corrections",
     "cable": "corrections",
@@ -42,25 +42,25 @@ _EXPORTS: dict[str, str] = {
     "chain": "corrections",
     "residual": "corrections",
     # -- resonator analysis (issue 4)
-    "resonance": "frequencies",
-    "q_factor": "qfactor",
-    "fit": "fitting",
-    "fit_lot": "fitting",
-    "FitResult": "fitting",
-    "filter_figures": "filters",
-    "component_figures": "filters",
+    "resonance": "resonators.frequencies",
+    "q_factor": "resonators.qfactor",
+    "fit": "resonators.fitting",
+    "fit_lot": "resonators.fit_lot",
+    "FitResult": "resonators.fitting",
+    "filter_figures": "parts.filters",
+    "component_figures": "parts.filters",
     # -- review, limits, export, report (issue 6)
-    "ReviewLog": "review",
-    "Limits": "limits",
-    "load_limits": "limits",
-    "verdict": "limits",
-    "tidy": "dataset",
-    "summary": "dataset",
-    "export": "dataset",
-    "write_touchstone": "dataset",
-    "report": "lot_report",
+    "ReviewLog": "review.log",
+    "Limits": "review.limits",
+    "load_limits": "review.limits",
+    "verdict": "review.limits",
+    "tidy": "outputs.dataset",
+    "summary": "outputs.dataset",
+    "export": "outputs.dataset",
+    "write_touchstone": "outputs.dataset",
+    "report": "outputs.lot_report",
     # -- procedures and batch runs (issue 7)
-    "Procedure": "procedure",
+    "Procedure": "batch.procedure",
     # -- matching (issue 8): kit.match is a module
     "match": "match",
 }

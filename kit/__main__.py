@@ -1,5 +1,5 @@
 """``python -m kit``: the same entry point as the ``sweepbook`` command."""
 
-from .cli import main
+from kit.batch.cli import main
 
 raise SystemExit(main())

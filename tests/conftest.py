@@ -29,7 +29,7 @@ def realdata():
 
 @pytest.fixture(scope="session")
 def demo_dir() -> Path:
-    """The committed demo data folder (written by ``python -m kit.demo``)."""
+    """The committed demo data folder (written by ``python -m kit.batch.demo``)."""
     if not (DEMO / "truth.json").exists():
         pytest.skip("demo_data/ has not been generated")
     return DEMO

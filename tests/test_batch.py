@@ -1,4 +1,4 @@
-"""Batch runs (kit.batch, kit.cache, `sweepbook run`) on the demo lot."""
+"""Batch runs (kit.batch.engine, kit.io.cache, `sweepbook run`) on the demo lot."""
 
 from __future__ import annotations
 
@@ -8,10 +8,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from kit.batch import run
-from kit.cache import CaptureCache
-from kit.cli import main
-from kit.procedure import Procedure
+from kit.batch.cli import main
+from kit.batch.engine import run
+from kit.batch.procedure import Procedure
+from kit.io.cache import CaptureCache
 
 KEY = ["capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f",
        "c0_f_stderr", "fit_ok", "verdict"]
@@ -88,7 +88,7 @@ def test_processes_and_dask_give_identical_summaries(lot):
     """Local processes and a Dask LocalCluster with worker processes give the same summary as one process."""
     distributed = pytest.importorskip("dask.distributed")
     root, d, proc = lot
-    from kit import batch
+    from kit.batch import engine as batch
 
     one = run(proc, d, workers=1, use_cache=False).summary
     old = batch.CHUNK

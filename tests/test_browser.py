@@ -244,8 +244,8 @@ def _write_long_lot(folder: Path, n: int = LONG_POINTS) -> None:
     import skrf
 
     from kit.capture import from_network
-    from kit.dataset import write_touchstone
-    from kit.models import get_model
+    from kit.outputs.dataset import write_touchstone
+    from kit.resonators.registry import get_model
 
     folder.mkdir()
     f = np.linspace(1.5e6, 2.5e6, n)

@@ -1,4 +1,4 @@
-"""Composable circuits (kit.circuits) against published values and scikit-rf."""
+"""Composable circuits (kit.network.circuits) against published values and scikit-rf."""
 
 from __future__ import annotations
 
@@ -7,7 +7,7 @@ import pytest
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
-from kit.circuits import C, Block, L, R, parallel, series
+from kit.network.circuits import Block, C, L, R, parallel, series
 
 # Fixture A of the methods sheet section 1.2: fs = 1 MHz, C0 = 1 nF, C1 = 0.2 nF, Qm = 100.
 FIX_A = {"C0": 1e-9, "R1": 7.9577471546, "L1": 1.2665147955e-4, "C1": 2e-10}

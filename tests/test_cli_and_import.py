@@ -5,7 +5,7 @@ from __future__ import annotations
 import subprocess
 import sys
 
-from kit.cli import main
+from kit.batch.cli import main
 
 GOOD = "# Hz S RI R 50\n1e6 0.1 0\n2e6 0.2 0\n"
 
@@ -39,7 +39,7 @@ def test_public_names_stay_functions_after_every_module_is_imported():
     """No public name is shadowed by a submodule of the same name (import binds submodules on kit)."""
     code = ("import importlib, pkgutil, types, kit\n"
             "for m in pkgutil.walk_packages(kit.__path__, 'kit.'):\n"
-            "    if not m.name.startswith(('kit.ui', 'kit.__main__', 'kit.demo')):\n"
+            "    if not m.name.startswith(('kit.ui', 'kit.__main__', 'kit.batch.demo')):\n"
             "        importlib.import_module(m.name)\n"
             "bad = [n for n in kit._EXPORTS if n not in kit._MODULES\n"
             "       and isinstance(getattr(kit, n), types.ModuleType)]\n"

@@ -6,12 +6,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import skrf as rf
+from conftest import realdata_path
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 import kit
 from kit.corrections import passivity
-from conftest import realdata_path
 
 F = rf.Frequency(1e6, 10e6, 11, "Hz")
 N = F.npoints

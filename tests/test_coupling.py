@@ -1,4 +1,4 @@
-"""Coupling factors from resonance pairs (kit.coupling).
+"""Coupling factors from resonance pairs (kit.resonators.coupling).
 
 Check values are the tables of the methods sheet (shared/reference/methods.md, sections 1.3 to
 1.6), computed there from the formulas of ANSI/IEEE Std 176-1987 (clause numbers from memory).
@@ -13,8 +13,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kit import coupling
-from kit.plate import free_plate_z
+from kit.resonators import coupling
+from kit.resonators.plate import free_plate_z
 
 # methods sheet section 1.4 table: kt -> fs/fp of the lossless free plate
 KT_TABLE = [

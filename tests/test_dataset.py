@@ -20,11 +20,11 @@ import skrf
 
 import kit
 from kit.capture import from_network
-from kit.dataset import (ExportError, export, summary, tidy, to_network, write_touchstone)
-from kit.limits import parse_limits
-from kit.review import ReviewLog
+from kit.outputs.dataset import ExportError, export, summary, tidy, to_network, write_touchstone
+from kit.review.limits import parse_limits
+from kit.review.log import ReviewLog
 
-ex = importlib.import_module("kit.dataset")
+ex = importlib.import_module("kit.outputs.dataset")
 
 
 def _net(ports=1, n=7, z0=50.0, seed=0, name="dut"):
@@ -154,7 +154,7 @@ def test_touchstone_refuses_input_folder_and_bad_extension(tmp_path):
 
 
 class _Fit:
-    """Stand-in with the public face of kit.fitting.FitResult (params/stderr/to_dict)."""
+    """Stand-in with the public face of kit.resonators.fitting.FitResult (params/stderr/to_dict)."""
 
     def to_dict(self):
         return {"model": "bvd", "params": {"C0": 1e-9, "R1": 10.0, "L1": 1e-3, "C1": 2e-12},
@@ -275,4 +275,4 @@ def test_export_from_load_folder_table(demo_dir, tmp_path):
     table = kit.load_folder(lot, pattern="{lot}-{serial}")
     df = summary(table)
     assert len(df) == len(table) and (df["status"] == "ok").all()
-    assert len(tidy(table)) == sum(c.points for c in kit.folder.captures_of(table))
+    assert len(tidy(table)) == sum(c.points for c in kit.io.folder.captures_of(table))

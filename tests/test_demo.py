@@ -1,4 +1,4 @@
-"""The demo scenario (kit.demo): deterministic, small, physically consistent."""
+"""The demo scenario (kit.batch.demo): deterministic, small, physically consistent."""
 
 from __future__ import annotations
 
@@ -7,11 +7,11 @@ import json
 import numpy as np
 
 import kit
-from kit import demo
+from kit.batch import demo
 
 
 def test_regenerating_reproduces_the_committed_files(tmp_path, demo_dir):
-    """python -m kit.demo with fixed seeds writes the same numbers as the committed demo_data/."""
+    """python -m kit.batch.demo with fixed seeds writes the same numbers as the committed demo_data/."""
     demo.generate(tmp_path)
     committed = sorted(p.relative_to(demo_dir) for p in demo_dir.rglob("*.s?p"))
     fresh = sorted(p.relative_to(tmp_path) for p in tmp_path.rglob("*.s?p"))

@@ -15,7 +15,7 @@ import pytest
 
 import kit
 from kit.capture import CaptureError, from_network
-from kit.filters import HALF_POWER_DB, component_figures, filter_figures
+from kit.parts.filters import HALF_POWER_DB, component_figures, filter_figures
 
 Z0 = 50.0
 

@@ -10,7 +10,7 @@ import pytest
 
 matplotlib.use("Agg")
 
-from kit.models import get_model  # noqa: E402
+from kit.resonators.registry import get_model  # noqa: E402
 from kit.ui.fit_panel import fit_panel  # noqa: E402
 
 FIX_A = {"C0": 1e-9, "R1": 7.9577471546, "L1": 1.2665147955e-4, "C1": 2e-10}

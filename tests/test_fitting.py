@@ -11,9 +11,9 @@ from hypothesis import strategies as st
 from scipy import stats
 
 import kit
-from kit.fitting import FitResult
-from kit.models import get_model
-from kit.models_physical import bar_fp_hz
+from kit.resonators.fitting import FitResult
+from kit.resonators.physical import bar_fp_hz
+from kit.resonators.registry import get_model
 
 FIX_A = {"C0": 1e-9, "R1": 7.9577471546, "L1": 1.2665147955e-4, "C1": 2e-10}
 BVD = get_model("bvd")
@@ -348,7 +348,7 @@ def test_demo_lot_recovers_truth(demo_dir):
 
 def test_report_gives_every_number_its_unit():
     """The text report prints each value and standard error with its SI unit (F, H, ohm, Hz)."""
-    from kit.fitting import param_unit
+    from kit.resonators.fitting import param_unit
 
     assert [param_unit(p) for p in ("C0", "R1", "L1", "fs_hz", "k_eff", "ESR", "ESL", "Cp")] == \
         ["F", "ohm", "H", "Hz", "", "ohm", "H", "F"]

@@ -5,8 +5,8 @@ from __future__ import annotations
 import pytest
 
 import kit
-from kit import folder as kfolder
-from kit.folder import capture_of, captures_of
+from kit.io import folder as kfolder
+from kit.io.folder import capture_of, captures_of
 
 GOOD = "# Hz S RI R 50\n1e6 0.1 0\n2e6 0.2 0\n"
 

@@ -17,9 +17,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kit import coupling
+from kit.resonators import coupling
 from kit.capture import CaptureError, from_network
-from kit.frequencies import resonance
+from kit.resonators.frequencies import resonance
 
 # Fixture A: fs = 1 MHz, C0 = 1 nF, C1 = 0.2 nF, Qm = 100 (methods sheet section 1.2)
 FS, C0, C1, QM = 1.0e6, 1.0e-9, 0.2e-9, 100.0
@@ -258,8 +258,8 @@ def test_kit_resonance_is_callable_after_submodule_import():
 
     import kit
 
-    importlib.import_module("kit.frequencies")
-    importlib.import_module("kit.filters")
+    importlib.import_module("kit.resonators.frequencies")
+    importlib.import_module("kit.parts.filters")
     f = np.linspace(0.9e6, 1.2e6, 3001)
     r = kit.resonance(f, bvd_z(f))
     assert r.fs_hz == pytest.approx(FS, abs=0.05)

@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 import kit
 from kit.capture import CaptureError, from_network
-from kit.immittance import SingularPointsWarning
+from kit.network.immittance import SingularPointsWarning
 
 F = skrf.Frequency(1, 100, 41, unit="MHz")
 Z0 = 50.0

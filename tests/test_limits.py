@@ -12,8 +12,17 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from kit.capture import from_network
-from kit.limits import (Limits, LimitsError, Mask, QuantityLimit, check_mask, draw_limits,
-                        load_limits, parse_limits, verdict)
+from kit.review.limits import (
+    Limits,
+    LimitsError,
+    Mask,
+    QuantityLimit,
+    check_mask,
+    draw_limits,
+    load_limits,
+    parse_limits,
+    verdict,
+)
 
 EXAMPLE = """\
 # acceptance limits for a lot of 2 MHz discs (invented example)
@@ -220,7 +229,7 @@ def test_documented_example_parses():
 
 def test_limits_from_dict_same_checks():
     """A parsed table (as embedded in another TOML file) gets the same validation."""
-    from kit.limits import limits_from_dict
+    from kit.review.limits import limits_from_dict
 
     lim = limits_from_dict({"quantity": {"qm": {"min": 10}},
                             "mask": [{"curve": "s11_db", "f_min_hz": 1, "f_max_hz": 2,

@@ -16,10 +16,10 @@ import pytest
 import skrf
 
 import kit
-from kit.dataset import ExportError, summary
-from kit.limits import parse_limits
-from kit.lot_report import report
-from kit.review import ReviewLog
+from kit.outputs.dataset import ExportError, summary
+from kit.outputs.lot_report import report
+from kit.review.limits import parse_limits
+from kit.review.log import ReviewLog
 
 EVIL = '<script>alert("x")</script><img src=x onerror=alert(1)> & "quotes"'
 

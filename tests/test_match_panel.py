@@ -9,7 +9,6 @@ matplotlib.use("Agg")
 import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 
-import kit  # noqa: E402
 from kit.capture import from_network  # noqa: E402
 
 FS, C0, C1, QM = 1e6, 1e-9, 0.2e-9, 100.0

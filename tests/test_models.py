@@ -1,4 +1,4 @@
-"""Resonator models (kit.models, kit.models_physical) against the methods sheet."""
+"""Resonator models (kit.resonators.models, kit.resonators.physical) against the methods sheet."""
 
 from __future__ import annotations
 
@@ -7,11 +7,17 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kit.models import MODEL_NAMES, bvd_figures, estimate_bvd, get_model
-from kit.models_physical import (
-    bar_fp_hz, bar_y, klm_plate_z, mason_plate_z, plate_fs_hz, plate_z,
+from kit.resonators.models import bvd_figures, estimate_bvd
+from kit.resonators.physical import (
+    bar_fp_hz,
+    bar_y,
+    klm_plate_z,
+    mason_plate_z,
+    plate_fs_hz,
+    plate_z,
 )
-from kit.plate import free_plate_z
+from kit.resonators.plate import free_plate_z
+from kit.resonators.registry import MODEL_NAMES, get_model
 
 FIX_A = {"C0": 1e-9, "R1": 7.9577471546, "L1": 1.2665147955e-4, "C1": 2e-10}
 

@@ -1,11 +1,11 @@
-"""Procedure files (kit.procedure): reading, writing, validation."""
+"""Procedure files (kit.batch.procedure): reading, writing, validation."""
 
 from __future__ import annotations
 
 import pytest
 
 import kit
-from kit.procedure import Procedure, ProcedureError, dumps_toml
+from kit.batch.procedure import Procedure, ProcedureError, dumps_toml
 
 EXAMPLE = """
 name = "incoming discs"

@@ -17,7 +17,7 @@ pytest.importorskip("ipywidgets")
 
 import kit  # noqa: E402
 from kit import batch  # noqa: E402
-from kit.procedure import Procedure  # noqa: E402
+from kit.batch.procedure import Procedure  # noqa: E402
 from kit.ui.procedure_panel import ProcedurePanel, procedure_panel, summary_html  # noqa: E402
 
 LIMITS = {"fs_hz": {"min": 1.8e6, "max": 1.9e6}, "k_eff": {"min": 0.4}}

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 
 from kit.capture import CaptureError, from_network
-from kit.qfactor import q_factor
+from kit.resonators.qfactor import q_factor
 
 
 def read_npl(path: Path):

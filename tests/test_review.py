@@ -20,7 +20,7 @@ import pytest
 import skrf
 
 from kit.capture import from_network
-from kit.review import (SCHEMA_VERSION, ReviewLog, ReviewLogError, capture_identity, migrate)
+from kit.review.log import SCHEMA_VERSION, ReviewLog, ReviewLogError, capture_identity, migrate
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -145,7 +145,7 @@ def test_identity_of_file_path(tmp_path):
 _WRITER = textwrap.dedent("""
     import sys
     sys.path.insert(0, {root!r})
-    from kit.review import ReviewLog
+    from kit.review.log import ReviewLog
     log = ReviewLog({db!r})
     who = sys.argv[1]
     print("ready", flush=True)
@@ -184,7 +184,7 @@ def test_two_processes_500_events_each(tmp_path):
 _KILLED = textwrap.dedent("""
     import sys, time
     sys.path.insert(0, {root!r})
-    from kit.review import ReviewLog
+    from kit.review.log import ReviewLog
     log = ReviewLog({db!r})
     for i in range(20):
         eid = log.add({{"sha256": "abc", "capture": "c"}}, "note", text="committed-" + str(i))

@@ -13,7 +13,7 @@ import pytest
 import skrf
 
 from kit.capture import from_network
-from kit.review import ReviewLog
+from kit.review.log import ReviewLog
 from kit.ui.review_panel import review_panel
 
 

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import realdata_path
 
 import kit
-from conftest import realdata_path
 from kit import CaptureError
 
 PZT_COLUMNS = {"f": "f (Hz)", "re": "G (S)", "im": "B (S)"}

@@ -1,14 +1,14 @@
-"""Pre-flight check and safe import of Touchstone files (kit.touchstone)."""
+"""Pre-flight check and safe import of Touchstone files (kit.io.touchstone)."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import realdata_path
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import kit
-from conftest import realdata_path
 from kit import CaptureError
 
 GOOD_S2P = """! a small valid two-port
@@ -243,7 +243,7 @@ def test_crystal_max_s21_reproduces_the_published_table():
     folder = realdata_path("crystal-series-through")
     table = kit.load_folder(folder, pattern="{mode}_{temperature_c}C")
     assert set(table["status"]) <= {"ok", "warning"}
-    from kit.folder import capture_of
+    from kit.io.folder import capture_of
 
     for i, row in table.iterrows():
         if row["mode"] == "C300":

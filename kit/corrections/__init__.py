@@ -11,12 +11,12 @@ Modules: :mod:`.algebra` (numpy kernels), :mod:`.base` (contract, grids, passivi
 
 from __future__ import annotations
 
-from .base import PASSIVITY_TOL, Chain, Correction, Passivity, chain, passivity
-from .fixtures import OSL, Fixture, OpenShort, fixture, open_short, osl
-from .gate import TimeGate, time_gate
-from .lines import Cable, PortExtension, cable, port_extension
-from .residual import Residual, residual
-from .thru import TwoXThru, two_x_thru
+from kit.corrections.base import PASSIVITY_TOL, Chain, Correction, Passivity, chain, passivity
+from kit.corrections.fixtures import OSL, Fixture, OpenShort, fixture, open_short, osl
+from kit.corrections.gate import TimeGate, time_gate
+from kit.corrections.lines import Cable, PortExtension, cable, port_extension
+from kit.corrections.residual import Residual, residual
+from kit.corrections.thru import TwoXThru, two_x_thru
 
 __all__ = [
     "PASSIVITY_TOL", "Cable", "Chain", "Correction", "Fixture", "OSL", "OpenShort",

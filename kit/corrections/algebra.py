@@ -18,9 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..reflection import gamma_from_z  # noqa: F401  (used by the fixtures)
-
-
+from kit.network.reflection import gamma_from_z  # noqa: F401  (used by the fixtures)
 
 
 def z_from_gamma(g: np.ndarray, z0_ohm) -> np.ndarray:

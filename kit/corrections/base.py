@@ -20,7 +20,7 @@ from typing import Any
 
 import numpy as np
 
-from ..capture import Capture, CaptureError, Finding, from_network
+from kit.capture import Capture, CaptureError, Finding, from_network
 
 #: Default tolerance on |S| (or the largest singular value of S) above 1 before a
 #: corrected capture is reported as active. Common practice, no source; real calibrated
@@ -51,7 +51,7 @@ def as_capture(obj: Any, role: str = "capture") -> Capture:
         if not path.exists():
             raise CaptureError(f"the {role} file was not found; check the path or pick the "
                                "file again", path)
-        from ..touchstone import load
+        from kit.io.touchstone import load
 
         return load(path)
     if hasattr(obj, "s") and hasattr(obj, "frequency") and hasattr(obj, "z0"):

@@ -11,11 +11,27 @@ from typing import Any, Literal
 
 import numpy as np
 
-from ..capture import Capture, CaptureError
-from .algebra import (error_terms_from_s, gamma_from_z, remove_one_port_box,
-                      remove_two_port_boxes, solve_one_port_terms, z_from_gamma)
-from .base import (PASSIVITY_TOL, Correction, as_capture, grid_key, grid_text, identity,
-                   real_reference, require_ports, same_grid, s_on_grid)
+from kit.capture import Capture, CaptureError
+from kit.corrections.algebra import (
+    error_terms_from_s,
+    gamma_from_z,
+    remove_one_port_box,
+    remove_two_port_boxes,
+    solve_one_port_terms,
+    z_from_gamma,
+)
+from kit.corrections.base import (
+    PASSIVITY_TOL,
+    Correction,
+    as_capture,
+    grid_key,
+    grid_text,
+    identity,
+    real_reference,
+    require_ports,
+    s_on_grid,
+    same_grid,
+)
 
 
 class _StandardsCorrection(Correction):

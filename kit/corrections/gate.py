@@ -9,8 +9,8 @@ from typing import Any, Literal
 
 import numpy as np
 
-from ..capture import Capture, CaptureError
-from .base import PASSIVITY_TOL, Correction, grid_text, is_uniform
+from kit.capture import Capture, CaptureError
+from kit.corrections.base import PASSIVITY_TOL, Correction, grid_text, is_uniform
 
 GateMode = Literal["bandpass", "bandstop"]
 _SIJ = re.compile(r"^s([1-9])([1-9])$")
@@ -144,6 +144,8 @@ def time_gate(start_s: float | None = None, stop_s: float | None = None, *,
         bad = [w for w in names if not _SIJ.match(w)]
         if bad:
             raise CaptureError(f"which must name S-parameters like 's11' or 's21', got {bad}")
-    conv = (lambda v: None if v is None else float(v))
+    def conv(v):
+        return None if v is None else float(v)
+
     return TimeGate(conv(start_s), conv(stop_s), conv(center_s), conv(span_s), mode, window,
                     method, names, passivity_tol)

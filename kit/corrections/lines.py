@@ -12,9 +12,14 @@ from typing import Any
 
 import numpy as np
 
-from ..capture import Capture, CaptureError
-from .algebra import error_terms_from_s, line_s, remove_one_port_box, remove_two_port_boxes
-from .base import PASSIVITY_TOL, Correction, grid_key, real_reference
+from kit.capture import Capture, CaptureError
+from kit.corrections.algebra import (
+    error_terms_from_s,
+    line_s,
+    remove_one_port_box,
+    remove_two_port_boxes,
+)
+from kit.corrections.base import PASSIVITY_TOL, Correction, grid_key, real_reference
 
 #: Speed of light in vacuum [m/s] (SI, exact by definition).
 C0_M_S = 299_792_458.0

@@ -7,8 +7,8 @@ from typing import Any
 
 import numpy as np
 
-from ..capture import CaptureError
-from .base import as_capture
+from kit.capture import CaptureError
+from kit.corrections.base import as_capture
 
 
 @dataclass(frozen=True)
@@ -97,7 +97,7 @@ def residual(corrected: Any, expected_ohms: Any, *, limit: float | None = None,
     .. [1] Verification on a known part after compensation: an instrument maker's impedance
        measurement handbook, §4.3 (common practice of checking with a known standard).
     """
-    from .. import impedance  # resolved through kit._EXPORTS (module may move)
+    from kit import impedance  # resolved through kit._EXPORTS (module may move)
 
     cap = as_capture(corrected)
     f = np.asarray(cap.f_hz, dtype=float)

@@ -12,9 +12,16 @@ from typing import Any
 
 import numpy as np
 
-from ..capture import Capture, CaptureError
-from .base import PASSIVITY_TOL, as_capture, grid_text, identity, is_uniform, require_ports
-from .fixtures import Fixture, _role
+from kit.capture import Capture, CaptureError
+from kit.corrections.base import (
+    PASSIVITY_TOL,
+    as_capture,
+    grid_text,
+    identity,
+    is_uniform,
+    require_ports,
+)
+from kit.corrections.fixtures import Fixture, _role
 
 
 def _db(x: float) -> float:
@@ -128,7 +135,7 @@ def two_x_thru(thru: Any, *, resample: bool = False,
     """
     from skrf.calibration.deembedding import IEEEP370_SE_NZC_2xThru
 
-    from ..capture import from_network
+    from kit.capture import from_network
 
     cap = as_capture(thru, _role("thru"))
     require_ports(cap, 2, _role("thru"), "a 2x-thru is a two-port capture")

@@ -35,14 +35,23 @@ Read :data:`CAUTIONS` before driving a matched element at power:
 
 from __future__ import annotations
 
-from .band import band
-from .circuit import MatchDesign, Part, chain, input_impedance, load_z
-from .designs import l_network, transformer, tuned_transformer, tuning_inductor
-from .eseries import E12, E24, round_design, round_to_series, series_values
-from .limits import FanoLimit, bode_fano, fano_integral
-from .response import (Bandwidth, MatchResponse, bandwidth, gamma_from_vswr, gamma_from_z,
-                       mismatch_loss_db, response, return_loss_db, vswr)
-from .stress import PartStress, StressReport, stress
+from kit.match.band import band
+from kit.match.bode_fano import FanoLimit, bode_fano, fano_integral
+from kit.match.circuit import MatchDesign, Part, chain, input_impedance, load_z
+from kit.match.designs import l_network, transformer, tuned_transformer, tuning_inductor
+from kit.match.eseries import E12, E24, round_design, round_to_series, series_values
+from kit.match.response import (
+                       Bandwidth,
+                       MatchResponse,
+                       bandwidth,
+                       gamma_from_vswr,
+                       gamma_from_z,
+                       mismatch_loss_db,
+                       response,
+                       return_loss_db,
+                       vswr,
+)
+from kit.match.stress import PartStress, StressReport, stress
 
 CAUTIONS: tuple[str, ...] = (
     "Driving a matched transducer at resonance can put hundreds of volts across the element "

@@ -12,9 +12,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .circuit import MatchDesign, Part, eng, load_grid, load_name, load_z
-from .designs import REF_L, l_network
-from .response import ladder_waves, return_loss_db
+from kit.match.circuit import MatchDesign, Part, eng, load_grid, load_name, load_z
+from kit.match.designs import REF_L, l_network
+from kit.match.response import ladder_waves, return_loss_db
 
 OBJECTIVES = ("return-loss", "gain")
 

@@ -21,7 +21,7 @@ from typing import Any
 
 import numpy as np
 
-from ..capture import Capture, CaptureError
+from kit.capture import Capture, CaptureError
 
 PART_KINDS = ("L", "C", "T")
 PLACEMENTS = ("series", "shunt", "transformer")
@@ -178,7 +178,7 @@ def load_name(load) -> str:
 
 def measured_z(load) -> tuple[np.ndarray, np.ndarray]:
     """Frequency grid [Hz] and one-port impedance [ohm] of a Capture or Network."""
-    from ..immittance import impedance
+    from kit.network.immittance import impedance
 
     ntwk = load.network if isinstance(load, Capture) else load
     return np.asarray(ntwk.frequency.f, dtype=float), impedance(load, method="reflection")

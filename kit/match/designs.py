@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .circuit import MatchDesign, Part, eng, load_grid, load_name, load_z
+from kit.match.circuit import MatchDesign, Part, eng, load_grid, load_name, load_z
 
 REF_L = ("D. M. Pozar, Microwave Engineering, 4th ed., Wiley 2012, section 5.1, L-section "
          "matching (equation numbers from memory)")

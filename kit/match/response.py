@@ -17,19 +17,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..reflection import (gamma_from_vswr, gamma_from_z, mismatch_loss_db,  # noqa: F401
-                          return_loss_db, vswr)
-from .circuit import MatchDesign, input_impedance, load_grid, load_z
-
-
-
-
-
-
-
-
-
-
+from kit.match.circuit import MatchDesign, input_impedance, load_grid, load_z
+from kit.network.reflection import (  # noqa: F401
+    gamma_from_vswr,
+    gamma_from_z,
+    mismatch_loss_db,
+    return_loss_db,
+    vswr,
+)
 
 
 def ladder_waves(design: MatchDesign | None, z_load, f_hz, v_source=1.0, r_source_ohm=50.0,

@@ -23,8 +23,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .circuit import MatchDesign, eng, load_z
-from .response import gamma_from_z, ladder_waves
+from kit.match.circuit import MatchDesign, eng, load_z
+from kit.match.response import gamma_from_z, ladder_waves
 
 
 def assumption_text(drive_w: float, r_source_ohm: float) -> str:

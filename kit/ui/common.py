@@ -214,7 +214,7 @@ class StopNotebook(Exception):
         return [f"Stopped: {self}"]
 
 
-def require_folder(path, what: str = "data") -> "Path":
+def require_folder(path, what: str = "data"):
     """The folder as a Path, or :class:`StopNotebook` naming it and what is missing."""
     from pathlib import Path
 

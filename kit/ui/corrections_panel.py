@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from .common import FigureHost, MessageBar, classed, section, show
+from kit.ui.common import FigureHost, MessageBar, classed, section, show
 
 NONE = "(none)"
 _TOUCHSTONE = (".s1p", ".s2p", ".ts")
@@ -23,7 +23,7 @@ _TOUCHSTONE = (".s1p", ".s2p", ".ts")
 
 def _scan(source: Any) -> dict[str, Any]:
     """name -> path or Capture, from a folder (recursive) or a list/dict of captures."""
-    from ..capture import Capture
+    from kit.capture import Capture
 
     if isinstance(source, (str, Path)):
         root = Path(source)
@@ -144,7 +144,7 @@ class CorrectionsPanel:
     # ------------------------------------------------------------------ computation wiring
     def capture(self, name: str):
         """The Capture of a listed file or capture (loaded once)."""
-        from .. import load
+        from kit import load
 
         if name not in self._loaded:
             item = self.items[name]
@@ -216,7 +216,7 @@ class CorrectionsPanel:
 
     # ------------------------------------------------------------------ drawing
     def _draw(self) -> None:
-        from .. import views as kv
+        from kit import views as kv
 
         fig = self.host.fig
         fig.clear()
@@ -245,7 +245,7 @@ class CorrectionsPanel:
 
 def kit_impedance(cap) -> np.ndarray:
     """Reflection impedance [ohm] with ideal-open points as NaN (no warning in the panel)."""
-    from ..corrections.algebra import z_from_gamma
+    from kit.corrections.algebra import z_from_gamma
 
     z = z_from_gamma(np.asarray(cap.s)[:, 0, 0], np.asarray(cap.z0)[:, 0].real)
     return np.where(np.isfinite(z), z, np.nan)

@@ -17,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from .common import FigureHost, classed, show, span_slider
+from kit.ui.common import FigureHost, classed, show, span_slider
 
 MODEL_CHOICES = ("bvd", "bvd-loss", "multi", "plate", "bar", "inductor", "capacitor")
 
@@ -209,7 +209,7 @@ class FitPanel:
         return res
 
     def _draw(self, f, z, res, span) -> None:
-        from .. import views as kv
+        from kit import views as kv
 
         for ax in (self.ax_mag, self.ax_phase, self.ax_circle):
             ax.clear()

@@ -7,7 +7,7 @@ the left (Smith chart, polar or admittance circle) and a rectangular chart on th
 the raw/corrected toggle only update line data (``set_data``) and redraw.
 
 Computation happens in kit functions only: :func:`kit.load_folder`,
-:func:`kit.folder.capture_of`, :func:`kit.views.trace` and the view functions.
+:func:`kit.io.folder.capture_of`, :func:`kit.views.trace` and the view functions.
 """
 
 from __future__ import annotations
@@ -17,8 +17,8 @@ from typing import Any, Callable
 
 import numpy as np
 
-from .. import views as kv
-from .common import FigureHost, MessageBar, classed, show, span_slider
+from kit import views as kv
+from kit.ui.common import FigureHost, MessageBar, classed, show, span_slider
 
 PLANE_OPTIONS = [("Smith chart, Z grid", "smith:z"), ("Smith chart, Y grid", "smith:y"),
                  ("Smith chart, Z and Y", "smith:both"), ("polar |Γ|", "polar"),
@@ -175,7 +175,7 @@ class LotBrowser:
 
     def trace_of(self, row) -> kv.Trace:
         """The trace of a table row, as drawn now (raw or corrected, chosen method)."""
-        from .. import folder
+        from kit.io import folder
 
         use_corr = self.corrected.value == "corrected" and self.correction is not None
         key = (row, self.method.value, use_corr, id(self.correction))
@@ -353,7 +353,7 @@ class LotBrowser:
 
 def kv_window(f_hz: np.ndarray, span) -> slice:
     """Slice of the frequency grid inside the span (one point margin)."""
-    from ..decimate import window
+    from kit.views.decimate import window
 
     return window(f_hz, *span)
 
@@ -386,7 +386,7 @@ def lot_browser(source, pattern: str | None = None, correction: Callable | None 
     LotBrowser
     """
     if isinstance(source, (str, Path)):
-        from ..folder import load_folder
+        from kit.io.folder import load_folder
 
         table = load_folder(source, pattern=pattern)
     else:

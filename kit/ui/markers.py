@@ -10,9 +10,9 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from .. import views as kv
-from .common import MessageBar, classed, show
-from .lot_browser import LotBrowser
+from kit import views as kv
+from kit.ui.common import MessageBar, classed, show
+from kit.ui.lot_browser import LotBrowser
 
 
 class MarkerPanel:

@@ -15,10 +15,10 @@ from typing import Any
 
 import numpy as np
 
-from .. import match as km
-from .. import views as kv
-from ..match.circuit import UNITS, eng
-from .common import FigureHost, MessageBar, classed, show
+from kit import match as km
+from kit import views as kv
+from kit.match.circuit import UNITS, eng
+from kit.ui.common import FigureHost, MessageBar, classed, show
 
 #: (label, key) of the designs offered.
 DESIGNS: tuple[tuple[str, str], ...] = (

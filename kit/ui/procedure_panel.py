@@ -6,7 +6,7 @@ standards folder, a cable by length and velocity factor), the fit (model, span, 
 the limits (min/max per summary quantity) into a :class:`kit.Procedure`, and shows its
 TOML text. *Save* writes the procedure file (atomically, through
 :meth:`kit.Procedure.to_file`) to the path typed in the panel; *Load* reads one and sets
-the controls; *Run on folder* calls :func:`kit.batch.run` on the folder and shows the
+the controls; *Run on folder* calls :func:`kit.batch.engine.run` on the folder and shows the
 summary table. The panel only wires controls to those kit functions; every error goes to
 the panel's message bar.
 
@@ -21,7 +21,7 @@ import html
 from pathlib import Path
 from typing import Any
 
-from .common import MessageBar, classed, section, show
+from kit.ui.common import MessageBar, classed, section, show
 
 NONE = "(none)"
 NO_FIT = "(no fit)"
@@ -139,7 +139,7 @@ class ProcedurePanel:
     table : ipywidgets.HTML
         Summary of the last run (escaped).
     message : kit.ui.common.MessageBar
-    result : kit.batch.BatchResult or None
+    result : kit.batch.engine.BatchResult or None
         The last run.
     kept : dict
         Settings of a loaded procedure that the panel has no control for (resonance span,
@@ -150,7 +150,7 @@ class ProcedurePanel:
                  cache_dir: Any = None, use_cache: bool = True) -> None:
         import ipywidgets as w
 
-        from ..procedure import IMPORT_METHODS
+        from kit.batch.procedure import IMPORT_METHODS
 
         src = Path(source) if source is not None else None
         std_root = Path(standards) if standards is not None else (src.parent if src else None)
@@ -214,7 +214,7 @@ class ProcedurePanel:
                                "proc-workers")
         self.out = classed(text("write to", "", "520px"), "proc-out")
         self.run_button = classed(w.Button(description="Run on folder", icon="play",
-                                           button_style="", tooltip="kit.batch.run"), "proc-run")
+                                           button_style="", tooltip="kit.batch.engine.run"), "proc-run")
         self.status = classed(w.HTML(""), "proc-status")
         self.table = classed(w.HTML(summary_html(None)), "proc-table")
 
@@ -254,7 +254,7 @@ class ProcedurePanel:
 
     def procedure(self):
         """The :class:`kit.Procedure` for the current controls (paths absolute)."""
-        from ..procedure import Procedure
+        from kit.batch.procedure import Procedure
 
         corrections: list[dict[str, Any]] = []
         if self.use_cable.value:
@@ -299,7 +299,7 @@ class ProcedurePanel:
 
     def toml_text(self) -> str:
         """The TOML text the current controls would save."""
-        from ..procedure import dumps_toml
+        from kit.batch.procedure import dumps_toml
 
         return dumps_toml(self.procedure().to_dict())
 
@@ -326,7 +326,7 @@ class ProcedurePanel:
 
     def load_file(self, path: str | Path | None = None):
         """Read a procedure file into the controls; returns the kit.Procedure read."""
-        from ..procedure import Procedure
+        from kit.batch.procedure import Procedure
 
         src = Path(path) if path is not None else Path(self.path.value.strip())
         proc = Procedure.from_file(src)
@@ -408,8 +408,8 @@ class ProcedurePanel:
 
     # ------------------------------------------------------------------ run
     def run(self):
-        """Run the procedure on the folder with :func:`kit.batch.run`; returns its result."""
-        from .. import batch
+        """Run the procedure on the folder with :func:`kit.batch.engine.run`; returns its result."""
+        from kit.batch import engine as batch
 
         target = self.folder.value.strip()
         if not target:

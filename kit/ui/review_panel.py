@@ -6,7 +6,7 @@ buttons (accept / reject / ask for a retest), a note box, a tag box, the current
 and the history of the selected capture (an escaped HTML table), and an ``Output``
 widget where errors appear instead of tracebacks.
 
-Every action is one append to :class:`kit.review.ReviewLog`; the panel holds no state of
+Every action is one append to :class:`kit.review.log.ReviewLog`; the panel holds no state of
 its own beyond the selection, so two engineers reviewing the same lot at once see each
 other's events on :meth:`ReviewPanel.refresh`.
 """
@@ -16,8 +16,8 @@ from __future__ import annotations
 import html
 from typing import Any
 
-from ..review import ReviewLog, current_user
-from .common import classed, show
+from kit.review.log import ReviewLog, current_user
+from kit.ui.common import classed, show
 
 VERDICT_BUTTONS = (("accept", "Accept", "success", "check"),
                    ("reject", "Reject", "danger", "times"),
@@ -74,8 +74,8 @@ class ReviewPanel:
     def __init__(self, captures: Any, log: ReviewLog | str) -> None:
         import ipywidgets as w
 
-        from ..dataset import _as_list
-        from ..capture import Capture
+        from kit.capture import Capture
+        from kit.outputs.dataset import _as_list
 
         self.captures = [c for c in _as_list(captures) if isinstance(c, Capture)]
         if not self.captures:

@@ -11,14 +11,15 @@ from __future__ import annotations
 
 from typing import Any, Callable
 
-from .common import classed, section, show
-from .lot_browser import LotBrowser, lot_browser
-from .markers import MarkerPanel, marker_panel
+from kit.ui.common import classed, section, show
+from kit.ui.lot_browser import LotBrowser, lot_browser
+from kit.ui.markers import MarkerPanel, marker_panel
+
 
 def _corrections(wb: "Workbench"):
     import ipywidgets as w
 
-    from .corrections_panel import corrections_panel
+    from kit.ui.corrections_panel import corrections_panel
 
     panel = corrections_panel(wb.options.get("corrections_source") or wb.folder.parent,
                               display=False, interactive=wb.browser.host.interactive)
@@ -39,14 +40,14 @@ def _corrections(wb: "Workbench"):
 
 
 def _fits(wb: "Workbench"):
-    from .. import folder
-    from .fit_panel import fit_panel
+    from kit.io import folder
+    from kit.ui.fit_panel import fit_panel
 
     return fit_panel(folder.captures_of(wb.browser.table), display=False)
 
 
 def _review(wb: "Workbench"):
-    from .review_panel import review_panel
+    from kit.ui.review_panel import review_panel
 
     log = wb.options.get("review_log")
     if log is None:
@@ -55,8 +56,8 @@ def _review(wb: "Workbench"):
 
 
 def _matching(wb: "Workbench"):
-    from .. import folder
-    from .match_panel import match_panel
+    from kit.io import folder
+    from kit.ui.match_panel import match_panel
 
     caps = [c for c in folder.captures_of(wb.browser.table) if c.ports == 1]
     if not caps:
@@ -94,8 +95,9 @@ class Workbench:
     """
 
     def __init__(self, browser: LotBrowser, markers: MarkerPanel, **options: Any) -> None:
-        import ipywidgets as w
         from pathlib import Path
+
+        import ipywidgets as w
 
         self.options = options
         self.folder = Path(browser.table.attrs.get("folder") or ".")

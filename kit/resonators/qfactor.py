@@ -1,0 +1,376 @@
+r"""Loaded and unloaded Q of a resonator coupled to a line, from S-parameters.
+
+A thin layer over scikit-rf's :class:`skrf.qfactor.Qfactor`, which implements the
+NLQFIT6/7/8 least-squares fits of NPL Report MAT 58 (the resonance is a circle in the
+complex S plane, :math:`S = S_D + d\,e^{-2j\delta}/(1 + j Q_L t)`,
+:math:`t = f/f_L - f_L/f`). This module adds what a lab needs around it: a Capture as
+input, standard errors from the fit's covariance, flags instead of silent doubtful
+numbers, and a small result object.
+
+Relations used (MAT 58; Pozar ch. 6, from memory for the chapter):
+:math:`1/Q_L = 1/Q_0 + 1/Q_e`, coupling :math:`\beta = Q_0/Q_e = Q_0/Q_L - 1`
+(for a transmission resonator this is the sum of the two port couplings).
+
+References
+----------
+.. [1] A. P. Gregory, *Q-factor measurement by using a Vector Network Analyser*, NPL Report
+   MAT 58 (2021), doi 10.47120/npl.mat58.
+.. [2] scikit-rf 2.2.0, ``skrf.qfactor.Qfactor`` (the implementation used).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import html
+import math
+import warnings
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from kit.capture import Capture, CaptureError
+
+__all__ = ["QFactor", "q_factor", "KINDS"]
+
+#: our kind -> scikit-rf resonance type
+KINDS: dict[str, str] = {
+    "reflection": "reflection",
+    "reflection-method2": "reflection_method2",
+    "transmission": "transmission",
+    "absorption": "absorption",
+}
+_FITS = ("NLQFIT6", "NLQFIT7", "NLQFIT8")
+
+
+@dataclass(frozen=True)
+class QFactor:
+    """Result of a Q-factor fit.
+
+    Attributes
+    ----------
+    q_loaded, q_loaded_stderr : float or None
+        Loaded Q and its standard error [1].
+    q_unloaded, q_unloaded_stderr : float or None
+        Unloaded Q and its standard error [1]; None when it cannot be computed (flagged).
+    f_hz, f_hz_stderr : float or None
+        Loaded resonant frequency and its standard error [Hz].
+    coupling, coupling_stderr : float or None
+        beta = Q0/QL - 1 [1] (sum of the port couplings for a transmission resonator).
+    diameter : float or None
+        Q-circle diameter after scaling [1].
+    bandwidth_hz : float or None
+        f_L / Q_L [Hz].
+    kind : str
+        "reflection", "reflection-method2", "transmission" or "absorption".
+    fit : str
+        "NLQFIT6", "NLQFIT7" or "NLQFIT8" (MAT 58 algorithm names).
+    scale : float or None
+        The scaling factor A used (None: taken from the fitted detuned S, |S_V| -> 1).
+    rms_error : float or None
+        Weighted RMS of the complex residual [1].
+    iterations : int
+        Gauss-Newton iterations.
+    converged : bool
+        The fit met its convergence test.
+    flags : tuple of str
+        e.g. ``"not-converged"``, ``"q-loaded-below-100"``, ``"scale-assumed:1"``,
+        ``"resonance-near-edge"`` (a half-power point lies outside the sweep),
+        ``"poor-fit"``, ``"no-uncertainty:NLQFIT8"``.
+    name, trace : str
+        The capture's name and the S-parameter used (e.g. "S21").
+    points : int
+        Number of frequency points fitted.
+    """
+
+    q_loaded: float | None
+    q_loaded_stderr: float | None
+    q_unloaded: float | None
+    q_unloaded_stderr: float | None
+    f_hz: float | None
+    f_hz_stderr: float | None
+    coupling: float | None
+    coupling_stderr: float | None
+    diameter: float | None
+    bandwidth_hz: float | None
+    kind: str
+    fit: str
+    scale: float | None
+    rms_error: float | None
+    iterations: int
+    converged: bool
+    flags: tuple[str, ...]
+    name: str
+    trace: str
+    points: int
+
+    @property
+    def ok(self) -> bool:
+        """Converged, with Q_L and Q_0 both computed."""
+        return self.converged and self.q_loaded is not None and self.q_unloaded is not None
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain dict (JSON-friendly)."""
+        d = dataclasses.asdict(self)
+        d["flags"] = list(self.flags)
+        return d
+
+    def _rows(self) -> list[tuple[str, str]]:
+        def pm(v, s, fmt):
+            if v is None:
+                return "not computed"
+            txt = format(v, fmt)
+            return txt + (f" ± {format(s, fmt)}" if s is not None else " (no uncertainty)")
+
+        return [("loaded Q", pm(self.q_loaded, self.q_loaded_stderr, ".6g")),
+                ("unloaded Q", pm(self.q_unloaded, self.q_unloaded_stderr, ".6g")),
+                ("f_L", pm(self.f_hz, self.f_hz_stderr, ",.1f") + " Hz"),
+                ("coupling beta", pm(self.coupling, self.coupling_stderr, ".4g")),
+                ("Q-circle diameter", "—" if self.diameter is None else f"{self.diameter:.4f}"),
+                ("fit", f"{self.fit}, {self.iterations} iterations, "
+                        f"{'converged' if self.converged else 'NOT converged'}")]
+
+    def __repr__(self) -> str:
+        lines = [f"Q factor of {self.name!r} ({self.kind}, {self.trace}, {self.points} points)"]
+        lines += [f"  {k:<18} {v}" for k, v in self._rows()]
+        lines.append(f"  flags: {', '.join(self.flags) if self.flags else 'none'}")
+        return "\n".join(lines)
+
+    def _repr_html_(self) -> str:
+        e = html.escape
+        rows = "".join(f"<tr><td>{e(k)}</td><td>{e(v)}</td></tr>" for k, v in self._rows())
+        flags = e(", ".join(self.flags)) if self.flags else "none"
+        return (f"<div><b>Q factor of {e(self.name)}</b> ({e(self.kind)}, {e(self.trace)})"
+                f"<table>{rows}</table><div>flags: {flags}</div></div>")
+
+
+# --------------------------------------------------------------------------- model
+
+def _params(res, f_low: float, fit: str) -> np.ndarray:
+    m5 = float(np.squeeze(res["Q_L"]))
+    m6 = f_low * m5 / float(np.squeeze(res["f_L"]))
+    p = [float(np.squeeze(res[k])) for k in ("m1", "m2", "m3", "m4")] + [m5, m6]
+    if fit == "NLQFIT7":
+        p.append(float(np.squeeze(res["m7a"])) * f_low)
+    return np.array(p)
+
+
+def _model(p: np.ndarray, f: np.ndarray, f_low: float) -> np.ndarray:
+    """MAT 58 eq. (21) in the m1..m6 form of NLQFIT6, times the line term of NLQFIT7."""
+    s = complex(p[0], p[1]) + complex(p[2], p[3]) / (1.0 + 2j * (p[5] * f / f_low - p[4]))
+    if len(p) == 7:
+        s = s * np.exp(1j * p[6] * (f / f_low - p[4] / p[5]))
+    return s
+
+
+def _jacobian(p: np.ndarray, f: np.ndarray, f_low: float) -> np.ndarray:
+    cols = []
+    for k in range(len(p)):
+        h = 1e-6 * max(abs(p[k]), 1e-3)
+        dp = np.zeros_like(p)
+        dp[k] = h
+        d = (_model(p + dp, f, f_low) - _model(p - dp, f, f_low)) / (2 * h)
+        cols.append(np.concatenate([d.real, d.imag]))
+    return np.array(cols).T
+
+
+def _covariance(p, f, s, f_low, weights) -> np.ndarray | None:
+    """Parameter covariance sigma^2 (J^T W J)^-1 with sigma^2 from the weighted residual."""
+    r = s - _model(p, f, f_low)
+    rr = np.concatenate([r.real, r.imag])
+    w = np.concatenate([weights, weights])
+    j = _jacobian(p, f, f_low)
+    dof = len(rr) - len(p)
+    if dof <= 0:
+        return None
+    sigma2 = float(np.sum(w * rr * rr) / dof)
+    try:
+        return sigma2 * np.linalg.inv(j.T @ (w[:, None] * j))
+    except np.linalg.LinAlgError:
+        return None
+
+
+# --------------------------------------------------------------------------- main
+
+def _trace(capture, kind: str, trace: str | None):
+    import skrf as rf
+
+    ntwk = capture.network if isinstance(capture, Capture) else capture
+    if not (hasattr(ntwk, "s") and hasattr(ntwk, "frequency")):
+        raise TypeError(f"q_factor() needs a Capture or a scikit-rf Network, got "
+                        f"{type(capture).__name__}")
+    path = getattr(capture, "path", None)
+    n = ntwk.nports
+    if n == 1 and trace is None:
+        return ntwk, "one-port trace"
+    if trace is None:
+        trace = "S11" if kind.startswith("reflection") else "S21"
+    t = str(trace).upper()
+    if not (len(t) == 3 and t[0] == "S" and t[1:].isdigit()):
+        raise CaptureError(f"trace must look like 'S21', got {trace!r}", path)
+    i, j = int(t[1]) - 1, int(t[2]) - 1
+    if not (0 <= i < n and 0 <= j < n):
+        raise CaptureError(f"trace {t} does not exist: the capture has {n} port(s)", path)
+    one = rf.Network(frequency=ntwk.frequency, s=ntwk.s[:, i, j].reshape(-1, 1, 1),
+                     z0=np.asarray(ntwk.z0)[:, j], name=ntwk.name)
+    return one, t
+
+
+def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
+             span_hz=None, fit: str = "NLQFIT6", scale: float | None = None,
+             q_guess: float | None = None, f_guess_hz: float | None = None,
+             loop_plan: str = "fwfwc") -> QFactor:
+    """Loaded and unloaded Q, resonant frequency and coupling of one resonance.
+
+    Parameters
+    ----------
+    capture : Capture or skrf.Network
+        The measurement. A one-port capture is taken as the trace itself (for example S21
+        stored alone); for a two-port, "reflection" kinds use S11 and "transmission" /
+        "absorption" use S21 unless ``trace`` says otherwise.
+    kind : {"reflection", "reflection-method2", "transmission", "absorption"}
+        The resonator type of MAT 58: one-port reflection (Q0 from the circle scaled to
+        the detuned reflection, lossless coupling), reflection with the "touching circle"
+        of method 2 (needs ``scale``), transmission (needs ``scale``), absorption/notch.
+    trace : str, optional
+        The S-parameter to fit, e.g. "S22" or "S12".
+    span_hz : (float, float), optional
+        Fit only this frequency range [Hz].
+    fit : {"NLQFIT6", "NLQFIT7", "NLQFIT8"}
+        The MAT 58 algorithm: 6 coefficients; 7 with an uncalibrated line length; 8 with
+        frequency-dependent leakage (no uncertainties are computed for NLQFIT8).
+    scale : float, optional
+        MAT 58 scaling factor A (1/|S| of a through or of the detuned reflection of a
+        lossless line). For "transmission" and "reflection-method2" it defaults to 1.0
+        (calibrated data / lossless line) and the result is flagged ``"scale-assumed:1"``.
+    q_guess, f_guess_hz : float, optional
+        Start values for Q_L and f_L (default: MAT 58's initial fit).
+    loop_plan : str
+        MAT 58 loop plan of fit (f), weight (w) and converge (c) steps.
+
+    Returns
+    -------
+    QFactor
+        With standard errors of Q_L, f_L, Q_0 and beta from the covariance of the fitted
+        coefficients, sigma^2 (J^T W J)^-1, sigma^2 the weighted residual variance and W the
+        MAT 58 angular weights of the last step (common practice, no source), propagated
+        linearly. They describe noise only, not calibration error nor model bias: the
+        narrow-band model puts f_L slightly off (18 Hz below 10 MHz for a parallel RLC with
+        Q_L = 265), which can exceed the stated f_L standard error on clean data.
+
+    Raises
+    ------
+    CaptureError
+        When the span leaves too few points, the trace does not exist, or kind/fit is unknown.
+
+    References
+    ----------
+    .. [1] A. P. Gregory, NPL Report MAT 58 (2021), doi 10.47120/npl.mat58: eq. (21) model,
+       NLQFIT6/7/8, eq. (28) angular weights, section 2.5 unloaded Q.
+    .. [2] scikit-rf 2.2.0 ``skrf.qfactor.Qfactor`` (the fit is delegated to it).
+    """
+    from skrf.qfactor import Qfactor
+
+    path = getattr(capture, "path", None)
+    if kind not in KINDS:
+        raise CaptureError(f"unknown kind {kind!r}; choose one of {', '.join(KINDS)}", path)
+    if fit not in _FITS:
+        raise CaptureError(f"unknown fit {fit!r}; choose one of {', '.join(_FITS)}", path)
+    ntwk, trace = _trace(capture, kind, trace)
+    name = capture.name if isinstance(capture, Capture) else str(ntwk.name or "network")
+    flags: list[str] = []
+    f_all = ntwk.frequency.f
+    if span_hz is not None:
+        lo, hi = (float(v) for v in span_hz)
+        sel = (f_all >= lo) & (f_all <= hi)
+        if np.count_nonzero(sel) < 10:
+            raise CaptureError(f"only {np.count_nonzero(sel)} point(s) inside span_hz="
+                               f"{tuple(span_hz)!r}; at least 10 are needed", path)
+        ntwk = ntwk[sel]
+    s = ntwk.s[:, 0, 0]
+    good = np.isfinite(s)
+    if not np.all(good):
+        flags.append(f"nan-points:{int(np.count_nonzero(~good))}")
+        ntwk = ntwk[good]
+        s = s[good]
+    f = ntwk.frequency.f
+    if len(f) < 10:
+        raise CaptureError(f"only {len(f)} usable point(s); at least 10 are needed", path)
+
+    a = scale
+    if a is None and kind in ("transmission", "reflection-method2"):
+        a = 1.0
+        flags.append("scale-assumed:1")
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            q = Qfactor(ntwk, KINDS[kind], Q_L0=q_guess, f_L0=f_guess_hz)
+            res = q.fit(method=fit, loop_plan=loop_plan)
+        except (ValueError, np.linalg.LinAlgError, ZeroDivisionError) as exc:
+            raise CaptureError(f"the Q-factor fit failed: {exc}", path) from exc
+    for w in caught:
+        flags.append(f"fit-warning:{w.message}")
+
+    converged = bool(np.all(res["success"]))
+    if not converged:
+        flags.append("not-converged")
+    f_low = float(f[0])
+    p = _params(res, f_low, fit)
+    ql, fl = float(p[4]), float(f_low * p[4] / p[5])
+    if ql <= 0:
+        flags.append("negative-q")
+    elif ql < 100:
+        flags.append("q-loaded-below-100")  # MAT 58's model assumes Q_L of about 100 or more
+
+    def derived(pp: np.ndarray) -> np.ndarray:
+        r = dict(res)
+        r.update(m1=pp[0], m2=pp[1], m3=pp[2], m4=pp[3], Q_L=pp[4], f_L=f_low * pp[4] / pp[5])
+        try:
+            q0 = float(q.Q_unloaded(opt_res=type(res)(r), A=a))
+        except (ZeroDivisionError, ValueError):
+            q0 = math.nan
+        return np.array([pp[4], f_low * pp[4] / pp[5], q0, q0 / pp[4] - 1.0])
+
+    vals = derived(p)
+    q0 = float(vals[2]) if np.isfinite(vals[2]) else None
+    if q0 is None:
+        flags.append("q-unloaded-undefined")
+    try:
+        diam = float(q.Q_circle(opt_res=res, A=a)[0])
+    except (ValueError, ZeroDivisionError):
+        diam = None
+    rms = float(np.squeeze(res["RMS_Error"])) if res.get("RMS_Error") is not None else None
+    if rms is not None and diam and rms > 0.05 * diam:
+        flags.append("poor-fit")
+    bw = fl / ql if ql > 0 else None
+    if bw is not None and (fl - f[0] < 0.5 * bw or f[-1] - fl < 0.5 * bw):
+        flags.append("resonance-near-edge")
+
+    se = [None] * 4
+    if fit == "NLQFIT8":
+        flags.append("no-uncertainty:NLQFIT8")
+    else:
+        weights = (q.angular_weights(f, fl, ql) if "w" in loop_plan else np.ones(len(f)))
+        cov = _covariance(p, f, s, f_low, np.asarray(weights, float))
+        if cov is None:
+            flags.append("no-uncertainty")
+        else:
+            jac = np.zeros((4, len(p)))
+            for k in range(len(p)):
+                h = 1e-6 * max(abs(p[k]), 1e-3)
+                dp = np.zeros_like(p)
+                dp[k] = h
+                jac[:, k] = (derived(p + dp) - derived(p - dp)) / (2 * h)
+            var = np.einsum("ik,kl,il->i", jac, cov, jac)
+            se = [float(math.sqrt(v)) if np.isfinite(v) and v >= 0 else None for v in var]
+    if q0 is None:
+        se[2] = se[3] = None
+
+    return QFactor(q_loaded=ql, q_loaded_stderr=se[0], q_unloaded=q0, q_unloaded_stderr=se[2],
+                   f_hz=fl, f_hz_stderr=se[1],
+                   coupling=None if q0 is None else float(vals[3]), coupling_stderr=se[3],
+                   diameter=diam, bandwidth_hz=bw, kind=kind, fit=fit, scale=a,
+                   rms_error=rms, iterations=int(np.squeeze(res["number_iterations"])),
+                   converged=converged, flags=tuple(flags), name=name, trace=trace,
+                   points=len(f))

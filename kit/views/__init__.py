@@ -1,0 +1,266 @@
+"""Views: stateless drawing functions on matplotlib axes.
+
+Every function takes the axes to draw on, draws, labels the axes with units and returns
+the artists it made, so that a widget can later update them (``line.set_data`` then
+``canvas.draw_idle``) instead of drawing again. Long sweeps are decimated for display
+(min/max per pixel column, :mod:`kit.views.decimate`); the data are never altered.
+
+This module gathers the whole drawing API:
+
+* rectangular charts: :func:`plot_chart` (any chart of :data:`CHARTS` by name),
+  :func:`plot_z_mag_phase`, :func:`plot_r_x`, :func:`plot_g_b`, :func:`plot_s_db`,
+  :func:`plot_return_loss`, :func:`plot_vswr`, :func:`plot_group_delay`, :func:`overlay`;
+* reflection plane (:mod:`kit.views.smith`): :func:`smith_grid`, :func:`plot_smith`,
+  :func:`plot_polar`, :func:`plot_admittance_circle`;
+* markers and limits (:mod:`kit.views.markers`): :func:`find_marker`,
+  :func:`marker_readout`, :func:`readout_text`, :func:`draw_marker`, :func:`draw_readout`,
+  :func:`markers_table`, :func:`plot_limits`;
+* data (:mod:`kit.views.data`): :func:`trace`, :class:`Trace`, :data:`PALETTE`.
+
+Example
+-------
+>>> import kit, kit.views as kv                                  # doctest: +SKIP
+>>> t = kv.trace(kit.load("demo_data/lot/pzd7-01.s1p"))           # doctest: +SKIP
+>>> fig, ax = plt.subplots(); kv.plot_chart(ax, t, "z_mag")       # doctest: +SKIP
+"""
+
+from __future__ import annotations
+
+from typing import Any, Iterable
+
+import numpy as np
+
+from kit.views.data import (  # noqa: F401  (re-exported)
+    CHARTS,
+    GRID_Y,
+    GRID_Z,
+    LIMIT_COLOR,
+    MARKER_COLOR,
+    PALETTE,
+    Chart,
+    Trace,
+    color,
+    db20,
+    gamma_from_z,
+    group_delay_s,
+    return_loss_db,
+    trace,
+    vswr,
+)
+from kit.views.decimate import columns_of, minmax_indices, window
+from kit.views.markers import (  # noqa: F401  (re-exported)
+    MARKER_KINDS,
+    draw_marker,
+    draw_readout,
+    find_marker,
+    marker_readout,
+    markers_table,
+    plot_limits,
+    readout_text,
+    si,
+    write_markers_csv,
+)
+from kit.views.smith import (  # noqa: F401  (re-exported)
+    plot_admittance_circle,
+    plot_polar,
+    plot_smith,
+    smith_grid,
+    smith_xy,
+)
+
+#: Charts drawn in the reflection plane rather than against frequency.
+PLANE_CHARTS: dict[str, str] = {"smith": "Smith chart", "polar": "polar", "circle":
+                                "admittance circle"}
+
+
+def frequency_axis(ax) -> None:
+    """Label the x axis as frequency with SI-prefixed tick labels in Hz."""
+    from matplotlib.ticker import EngFormatter, MaxNLocator
+
+    ax.xaxis.set_major_formatter(EngFormatter(unit="Hz", places=None, sep=" "))
+    if ax.get_xscale() == "linear":
+        ax.xaxis.set_major_locator(MaxNLocator(nbins=6))
+    ax.set_xlabel("frequency [Hz]")
+    ax.grid(True, which="major", color="#e4e0da", lw=0.6)
+
+
+def xy_for_display(f_hz: np.ndarray, values: np.ndarray, columns: int,
+                   span_hz=None) -> tuple[np.ndarray, np.ndarray]:
+    """Decimated (frequency, value) copies for drawing, restricted to a span if given.
+
+    Parameters
+    ----------
+    f_hz : array_like
+        Sorted frequencies [Hz].
+    values : array_like of float
+        The quantity drawn.
+    columns : int
+        Pixel columns of the axes.
+    span_hz : (float, float), optional
+        Visible frequency window [Hz]; points outside (but one on each side) are dropped
+        before decimation, so a zoomed view keeps its full detail.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        New arrays; the inputs are unchanged.
+    """
+    f = np.asarray(f_hz)
+    v = np.asarray(values)
+    sl = window(f, *(span_hz if span_hz is not None else (None, None)))
+    f, v = f[sl], v[sl]
+    idx = minmax_indices(columns, v)
+    return f[idx].copy(), v[idx].copy()
+
+
+def _line(ax, f, v, columns, span_hz, **kw) -> list[Any]:
+    x, y = xy_for_display(f, v, columns or columns_of(ax), span_hz)
+    return ax.plot(x, y, **kw)
+
+
+def plot_chart(ax, t: Any, chart: str = "z_mag", i: int = 0, label: str | None = None,
+               columns: int | None = None, span_hz=None, **kw) -> list[Any]:
+    """Draw one trace on a rectangular chart chosen by name.
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+    t : Trace or anything :func:`trace` accepts (Capture, skrf.Network, (f_hz, z))
+    chart : str
+        A key of :data:`CHARTS`: "z_mag", "z_phase", "r", "x", "g", "b", "s_db",
+        "return_loss", "vswr", "group_delay".
+    i : int
+        Palette index.
+    label : str, optional
+        Legend text (default the trace label).
+    columns : int, optional
+        Pixel columns for decimation (default the axes width).
+    span_hz : (float, float), optional
+        Frequency window [Hz] to draw; sets the x limits.
+
+    Returns
+    -------
+    list of matplotlib.lines.Line2D
+    """
+    if chart not in CHARTS:
+        raise ValueError(f"unknown chart {chart!r}; choose one of {', '.join(CHARTS)}")
+    c = CHARTS[chart]
+    t = trace(t)
+    kw.setdefault("color", color(i))
+    kw.setdefault("lw", 1.3)
+    arts = _line(ax, t.f_hz, c.quantity(t), columns, span_hz, label=label or t.label, **kw)
+    style_chart(ax, chart)
+    if span_hz is not None:
+        ax.set_xlim(*sorted(span_hz))
+    return arts
+
+
+def style_chart(ax, chart: str) -> None:
+    """Axis labels (with units), scale and grid of a named rectangular chart."""
+    c = CHARTS[chart]
+    frequency_axis(ax)
+    ax.set_ylabel(c.ylabel)
+    ax.set_yscale(c.yscale)
+
+
+def update_line(line, t: Trace, chart: str, columns: int | None = None, span_hz=None) -> None:
+    """Give an existing line the (decimated) data of another trace or span; no redraw."""
+    c = CHARTS[chart]
+    x, y = xy_for_display(t.f_hz, c.quantity(t), columns or columns_of(line.axes), span_hz)
+    line.set_data(x, y)
+
+
+def overlay(ax, traces: Iterable[Any], chart: str = "z_mag", columns: int | None = None,
+            span_hz=None, legend: bool = True, **kw) -> list[Any]:
+    """Draw many traces on one rectangular chart, one palette colour each.
+
+    Returns
+    -------
+    list of matplotlib.lines.Line2D
+        One line per trace, in order.
+    """
+    arts: list[Any] = []
+    for i, t in enumerate(traces):
+        arts += plot_chart(ax, t, chart, i=i, columns=columns, span_hz=span_hz, **kw)
+    if legend and 0 < len(arts) <= 12:
+        ax.legend(fontsize=7, frameon=False, ncols=2 if len(arts) > 6 else 1)
+    return arts
+
+
+def _arr_trace(f_hz, z=None, s=None, gamma=None, label="trace", z0_ohm=50.0) -> Trace:
+    f = np.asarray(f_hz, float)
+    nan = np.full(f.shape, np.nan + 0j)
+    zz = nan if z is None else np.asarray(z, complex)
+    gg = gamma_from_z(zz, z0_ohm) if gamma is None and z is not None else (
+        nan if gamma is None else np.asarray(gamma, complex))
+    ss = gg if s is None else np.asarray(s, complex)
+    return Trace(f, zz, gg, ss, z0_ohm, label)
+
+
+def plot_z_mag_phase(ax_mag, ax_phase, f_hz, z, label: str | None = None, i: int = 0,
+                     columns: int | None = None, span_hz=None, **kw) -> list[Any]:
+    """|Z| [ohm] on a log scale on ``ax_mag`` and the phase of Z [deg] on ``ax_phase``.
+
+    Returns
+    -------
+    list of matplotlib.lines.Line2D
+        [|Z| line, phase line].
+    """
+    t = _arr_trace(f_hz, z=z, label=label or "Z")
+    return (plot_chart(ax_mag, t, "z_mag", i, label, columns, span_hz, **kw)
+            + plot_chart(ax_phase, t, "z_phase", i, label, columns, span_hz, **kw))
+
+
+def plot_r_x(ax, f_hz, z, label: str | None = None, columns: int | None = None, span_hz=None,
+             **kw) -> list[Any]:
+    """Resistance R and reactance X [ohm] against frequency on one axes (solid, dashed)."""
+    t = _arr_trace(f_hz, z=z, label=label or "Z")
+    name = f"{label} " if label else ""
+    arts = plot_chart(ax, t, "r", 0, f"{name}R", columns, span_hz, **kw)
+    arts += plot_chart(ax, t, "x", 1, f"{name}X", columns, span_hz, ls="--", **kw)
+    ax.set_ylabel("R, X [Ω]")
+    ax.legend(fontsize=7, frameon=False)
+    return arts
+
+
+def plot_g_b(ax, f_hz, y, label: str | None = None, columns: int | None = None, span_hz=None,
+             **kw) -> list[Any]:
+    """Conductance G and susceptance B [mS] against frequency on one axes."""
+    y = np.asarray(y, complex)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = np.where(y == 0, np.nan + 0j, 1.0 / np.where(y == 0, 1.0, y))
+    t = _arr_trace(f_hz, z=z, label=label or "Y")
+    name = f"{label} " if label else ""
+    arts = plot_chart(ax, t, "g", 0, f"{name}G", columns, span_hz, **kw)
+    arts += plot_chart(ax, t, "b", 1, f"{name}B", columns, span_hz, ls="--", **kw)
+    ax.set_ylabel("G, B [mS]")
+    ax.legend(fontsize=7, frameon=False)
+    return arts
+
+
+def plot_s_db(ax, f_hz, s, label: str | None = None, i: int = 0, columns: int | None = None,
+              span_hz=None, **kw) -> list[Any]:
+    """|S| in dB against frequency (S11, S21... as given)."""
+    t = _arr_trace(f_hz, s=s, gamma=s, label=label or "S")
+    return plot_chart(ax, t, "s_db", i, label, columns, span_hz, **kw)
+
+
+def plot_return_loss(ax, f_hz, gamma, label: str | None = None, i: int = 0,
+                     columns: int | None = None, span_hz=None, **kw) -> list[Any]:
+    """Return loss [dB] (positive) against frequency."""
+    t = _arr_trace(f_hz, gamma=gamma, label=label or "Γ")
+    return plot_chart(ax, t, "return_loss", i, label, columns, span_hz, **kw)
+
+
+def plot_vswr(ax, f_hz, gamma, label: str | None = None, i: int = 0, columns: int | None = None,
+              span_hz=None, **kw) -> list[Any]:
+    """VSWR [1] on a log scale against frequency."""
+    t = _arr_trace(f_hz, gamma=gamma, label=label or "Γ")
+    return plot_chart(ax, t, "vswr", i, label, columns, span_hz, **kw)
+
+
+def plot_group_delay(ax, f_hz, s, label: str | None = None, i: int = 0,
+                     columns: int | None = None, span_hz=None, **kw) -> list[Any]:
+    """Group delay [ns] of an S-parameter against frequency."""
+    t = _arr_trace(f_hz, s=s, gamma=s, label=label or "S")
+    return plot_chart(ax, t, "group_delay", i, label, columns, span_hz, **kw)

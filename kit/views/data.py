@@ -1,0 +1,180 @@
+"""What the views draw: a trace (frequency, impedance, reflection) and the derived quantities.
+
+No matplotlib here. :func:`trace` turns a capture into a :class:`Trace`; the functions
+below derive the quantities a chart shows (VSWR, return loss, group delay...). The
+registry :data:`CHARTS` maps a chart name to its quantity, axis label (with unit) and
+scale, so that widgets can offer a choice of charts without knowing any formula.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import numpy as np
+
+from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr  # noqa: F401  (re-exported)
+
+#: Our trace colours, in order of use (deep teal, brick, violet, moss, ochre, slate, berry,
+#: umber). Chosen for contrast on white and between neighbours.
+PALETTE: tuple[str, ...] = (
+    "#1f6f78", "#c8553d", "#6a4c93", "#588b3a", "#d19a1f", "#2f4858", "#b0416b", "#7d6b5d",
+)
+#: Colours of the Smith chart grids, limit lines and markers.
+GRID_Z = "#c9bfb1"
+GRID_Y = "#9fc6cc"
+LIMIT_COLOR = "#b02e26"
+MARKER_COLOR = "#1d1d1d"
+
+
+def color(i: int) -> str:
+    """The i-th colour of :data:`PALETTE` (cycling)."""
+    return PALETTE[i % len(PALETTE)]
+
+
+
+
+
+
+
+
+
+
+def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:
+    r"""Group delay of a transfer or reflection coefficient [s].
+
+    .. math:: \tau_g = -\frac{d\varphi}{d\omega}, \quad \omega = 2\pi f
+
+    with the phase unwrapped and the derivative taken by central differences (one-sided
+    at the ends).
+
+    References
+    ----------
+    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley, 2012, sec. 3.x on group
+       velocity and dispersion (from memory for the section); scikit-rf 2.2.0
+       ``Network.group_delay`` computes the same central-difference form.
+    """
+    f = np.asarray(f_hz, dtype=float)
+    phi = np.unwrap(np.angle(np.asarray(s, dtype=complex)))
+    if f.size < 2:
+        return np.full(f.shape, np.nan)
+    return -np.gradient(phi, 2.0 * np.pi * f)
+
+
+@dataclass(frozen=True, eq=False)
+class Trace:
+    """One curve to draw: a device's impedance and reflection over frequency.
+
+    Attributes
+    ----------
+    f_hz : numpy.ndarray
+        Frequencies [Hz].
+    z : numpy.ndarray of complex
+        Device impedance [ohm].
+    gamma : numpy.ndarray of complex
+        Reflection coefficient of the device in ``z0_ohm`` [1] (S11 itself for a
+        reflection capture).
+    s : numpy.ndarray of complex
+        The measured S-parameter behind the trace (S11 for reflection, S21 for the
+        through methods) [1].
+    z0_ohm : float
+        Reference impedance [ohm].
+    label : str
+        Name shown in legends and tables.
+    """
+
+    f_hz: np.ndarray
+    z: np.ndarray
+    gamma: np.ndarray
+    s: np.ndarray
+    z0_ohm: float = 50.0
+    label: str = ""
+
+    @property
+    def y(self) -> np.ndarray:
+        """Admittance [S] (NaN where Z is 0)."""
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(self.z == 0, np.nan + 0j, 1.0 / np.where(self.z == 0, 1.0, self.z))
+
+    @property
+    def points(self) -> int:
+        """Number of frequency points."""
+        return int(self.f_hz.size)
+
+
+def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None = None,
+          z0_ohm: float | None = None) -> Trace:
+    """A :class:`Trace` from a Capture, a scikit-rf Network, a Trace, or ``(f_hz, z)``.
+
+    Parameters
+    ----------
+    obj : Capture, skrf.Network, Trace or tuple (f_hz, z)
+        The data. A tuple is read as frequencies [Hz] and impedances [ohm].
+    method : {"reflection", "series-through", "shunt-through"}
+        How the device impedance follows from the capture (see :func:`kit.impedance`).
+    port : int
+        1-based port for the reflection method.
+    label : str, optional
+        Legend name; default the capture's name.
+    z0_ohm : float, optional
+        Reference impedance [ohm]; default the capture's (port 1), else 50.
+
+    Returns
+    -------
+    Trace
+        New arrays; the capture is not modified.
+    """
+    if isinstance(obj, Trace):
+        return obj if label is None else Trace(obj.f_hz, obj.z, obj.gamma, obj.s, obj.z0_ohm, label)
+    if isinstance(obj, tuple) and len(obj) == 2:
+        f = np.asarray(obj[0], dtype=float)
+        z = np.asarray(obj[1], dtype=complex)
+        z0 = 50.0 if z0_ohm is None else float(z0_ohm)
+        g = gamma_from_z(z, z0)
+        return Trace(f, z, g, g, z0, label or "trace")
+    from kit.network.immittance import _network, impedance
+
+    ntwk = _network(obj)
+    f = np.array(ntwk.frequency.f, dtype=float)
+    zref = np.asarray(ntwk.z0)
+    z0 = float(np.real(zref[0, 0])) if z0_ohm is None else float(z0_ohm)
+    z = impedance(obj, method=method, port=port)
+    if method == "reflection":
+        s = np.array(ntwk.s[:, port - 1, port - 1])
+        gamma = s if z0_ohm is None else gamma_from_z(z, z0)
+    else:
+        s = np.array(ntwk.s[:, 1, 0])
+        gamma = gamma_from_z(z, z0)
+    name = label if label is not None else getattr(obj, "name", None) or str(ntwk.name or "trace")
+    return Trace(f, z, gamma, s, z0, name)
+
+
+@dataclass(frozen=True)
+class Chart:
+    """How a rectangular chart shows a trace: quantity, axis label with unit, y scale."""
+
+    name: str
+    title: str
+    ylabel: str
+    quantity: Callable[[Trace], np.ndarray]
+    yscale: str = "linear"
+
+
+def _phase_deg(t: Trace) -> np.ndarray:
+    return np.degrees(np.angle(t.z))
+
+
+#: Rectangular charts by name. ``quantity(trace)`` returns the real values drawn.
+CHARTS: dict[str, Chart] = {c.name: c for c in (
+    Chart("z_mag", "|Z|", "|Z| [Ω]", lambda t: np.abs(t.z), "log"),
+    Chart("z_phase", "phase of Z", "phase of Z [°]", _phase_deg),
+    Chart("r", "R", "R [Ω]", lambda t: t.z.real),
+    Chart("x", "X", "X [Ω]", lambda t: t.z.imag),
+    Chart("g", "G", "G [mS]", lambda t: 1e3 * t.y.real),
+    Chart("b", "B", "B [mS]", lambda t: 1e3 * t.y.imag),
+    Chart("s_db", "|S|", "|S| [dB]", lambda t: db20(t.s)),
+    Chart("return_loss", "return loss", "return loss [dB]", lambda t: return_loss_db(t.gamma)),
+    Chart("vswr", "VSWR", "VSWR [1]", lambda t: vswr(t.gamma), "log"),
+    Chart("group_delay", "group delay", "group delay [ns]",
+          lambda t: 1e9 * group_delay_s(t.f_hz, t.s)),
+)}
