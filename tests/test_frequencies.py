@@ -17,8 +17,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kit.resonators import coupling
 from kit.capture import CaptureError, from_network
+from kit.resonators import coupling
 from kit.resonators.frequencies import resonance
 
 # Fixture A: fs = 1 MHz, C0 = 1 nF, C1 = 0.2 nF, Qm = 100 (methods sheet section 1.2)
