@@ -22,7 +22,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
 TOUCHSTONE_RE = re.compile(r"\.(s\d+p|ts)$", re.IGNORECASE)
 #: Below this many files, parsing in this process is faster than starting workers
-#: (measured here: a worker pool costs about 0.3 s to start, a 1601-point file 5 ms).
+#: (measured here: a worker pool costs about 0.25 s to start once the session's fork
+#: server runs, the first one about 0.9 s; a 1601-point file takes 5 ms).
 PARALLEL_MIN_FILES = 48
 #: Smallest chunk of files sent to a worker.
 MIN_CHUNK_FILES = 4
