@@ -10,6 +10,10 @@ Accepted inputs
 * a :class:`kit.Capture` (its network, name and path are kept);
 * a scikit-rf ``Network`` (anything with ``s`` and ``frequency``);
 * a pair ``(f_hz, z_ohm)`` as a tuple, or ``f_hz`` with ``z=`` given separately.
+
+:func:`is_network`, :func:`network_of` and :func:`name_of` are defined in
+:mod:`kit.network.accept` (below the impedance methods, which use them too) and are part
+of this module's interface.
 """
 
 from __future__ import annotations
