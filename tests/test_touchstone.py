@@ -1,4 +1,4 @@
-"""Pre-flight check and safe import of Touchstone files (kit.io.touchstone)."""
+"""Pre-flight check and safe import of Touchstone files (kit.io.preflight, kit.io.touchstone)."""
 
 from __future__ import annotations
 

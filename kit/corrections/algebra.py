@@ -9,6 +9,7 @@ Conventions
 * Reflection coefficients are pseudo/power waves on a real reference impedance ``z0``
   (the two coincide for real references).
 * T-parameters follow scikit-rf's convention, ``[b1; a1] = T [a2; b2]``.
+* Z from Gamma and Gamma from Z are :mod:`kit.network.reflection`'s (one home).
 * A one-port error box is stored as three terms ``(e00, e11, d)`` such that the measured
   reflection is ``gm = (e00 + d*g) / (1 - e11*g)``, i.e. in linear form
   ``gm = e00 + g*gm*e11 + g*d``, with ``d = e01*e10 - e00*e11``.
@@ -17,23 +18,6 @@ Conventions
 from __future__ import annotations
 
 import numpy as np
-
-from kit.network.reflection import gamma_from_z  # noqa: F401  (used by the fixtures)
-
-
-def z_from_gamma(g: np.ndarray, z0_ohm) -> np.ndarray:
-    r"""Impedance from a reflection coefficient, :math:`Z = Z_0 (1 + \Gamma)/(1 - \Gamma)` [ohm].
-
-    Gamma = 1 gives ``inf`` (no warning: callers decide what an ideal open means).
-
-    References
-    ----------
-    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley 2012, ch. 2 (from memory
-       for the chapter).
-    """
-    g = np.asarray(g, dtype=complex)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.asarray(z0_ohm, dtype=float) * (1.0 + g) / (1.0 - g)
 
 
 def error_terms_from_s(s2: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

@@ -14,6 +14,7 @@ factory function and add it to ``kit/corrections/__init__.py``.
 from __future__ import annotations
 
 import hashlib
+import math
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -21,6 +22,8 @@ from typing import Any
 import numpy as np
 
 from kit.capture import Capture, CaptureError, Finding, from_network
+from kit.network.coerce import is_network
+from kit.results import Result, nan_if_none
 
 #: Default tolerance on |S| (or the largest singular value of S) above 1 before a
 #: corrected capture is reported as active. Common practice, no source; real calibrated
@@ -54,7 +57,7 @@ def as_capture(obj: Any, role: str = "capture") -> Capture:
         from kit.io.touchstone import load
 
         return load(path)
-    if hasattr(obj, "s") and hasattr(obj, "frequency") and hasattr(obj, "z0"):
+    if is_network(obj):
         return from_network(obj)
     raise CaptureError(f"the {role} must be a Capture, a scikit-rf Network or a Touchstone "
                        f"path, got {type(obj).__name__}")
@@ -181,7 +184,7 @@ def s_on_grid(cap: Capture, other: Capture, role: str, resample: bool) -> tuple[
 
 # ---------------------------------------------------------------------------- passivity
 @dataclass(frozen=True)
-class Passivity:
+class Passivity(Result):
     """How far a capture is from passive.
 
     Attributes
@@ -191,12 +194,27 @@ class Passivity:
     f_hz : float
         Frequency where it occurs [Hz].
     excess : float
-        ``worst - 1``: positive means active by that much, negative is the passive headroom.
+        ``worst - 1`` [1]: positive means active by that much, negative is the passive
+        headroom.
+    name : str
+        The capture.
+    ok, reason : bool, str
+        False with a plain reason when no frequency point has a finite S.
     """
 
     worst: float
     f_hz: float
     excess: float
+    name: str = ""
+    ok: bool = True
+    reason: str = ""
+
+    _ROWS = (("worst", "largest gain of S", ""), ("f_hz", "at", "Hz"),
+             ("excess", "above 1 by", ""))
+
+    def __post_init__(self) -> None:
+        for key in ("worst", "f_hz", "excess"):
+            object.__setattr__(self, key, nan_if_none(getattr(self, key)))
 
 
 def passivity(capture: Any) -> Passivity:
@@ -209,6 +227,7 @@ def passivity(capture: Any) -> Passivity:
     Returns
     -------
     Passivity
+        ``ok`` False with a reason when no point has finite S.
 
     References
     ----------
@@ -223,9 +242,10 @@ def passivity(capture: Any) -> Passivity:
     else:
         gain = np.linalg.svd(s, compute_uv=False)[:, 0]
     if gain.size == 0 or not np.any(np.isfinite(gain)):
-        return Passivity(float("nan"), float("nan"), float("nan"))
+        return Passivity(math.nan, math.nan, math.nan, cap.name, False,
+                         "no frequency point has finite S-parameters")
     k = int(np.nanargmax(gain))
-    return Passivity(float(gain[k]), float(cap.f_hz[k]), float(gain[k] - 1.0))
+    return Passivity(float(gain[k]), float(cap.f_hz[k]), float(gain[k] - 1.0), cap.name)
 
 
 def passivity_finding(before: Capture, after: Capture, tol: float) -> tuple[dict, tuple]:

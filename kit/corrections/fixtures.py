@@ -14,11 +14,9 @@ import numpy as np
 from kit.capture import Capture, CaptureError
 from kit.corrections.algebra import (
     error_terms_from_s,
-    gamma_from_z,
     remove_one_port_box,
     remove_two_port_boxes,
     solve_one_port_terms,
-    z_from_gamma,
 )
 from kit.corrections.base import (
     PASSIVITY_TOL,
@@ -32,6 +30,7 @@ from kit.corrections.base import (
     s_on_grid,
     same_grid,
 )
+from kit.network.reflection import gamma_from_z, z_from_gamma
 
 
 class _StandardsCorrection(Correction):

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+import warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -9,10 +11,15 @@ import numpy as np
 
 from kit.capture import CaptureError
 from kit.corrections.base import as_capture
+from kit.network.coerce import sweep
+from kit.network.immittance import SingularPointsWarning
+from kit.results import Result, nan_if_none
+
+_ARRAYS = ("rel", "z_ohm", "expected_ohm", "freq_hz")
 
 
-@dataclass(frozen=True)
-class Residual:
+@dataclass(frozen=True, eq=False)
+class Residual(Result):
     """How far a corrected capture of a known part is from its expected impedance.
 
     Attributes
@@ -31,14 +38,17 @@ class Residual:
         The grid [Hz].
     median_rel : float
         Median relative error [1].
-    limit : float or None
-        The acceptance limit asked for, if any.
-    margin : float or None
-        ``limit - worst_rel`` (positive: inside the limit by that much).
+    limit : float
+        The acceptance limit asked for [1]; NaN when none was given.
+    margin : float
+        ``limit - worst_rel`` [1] (positive: inside the limit by that much); NaN without a
+        limit.
     invalid_points : int
         Points where Z was not finite (ideal open) and that were left out.
     name : str
         The capture checked.
+    ok, reason : bool, str
+        False with a plain reason when no point had a finite impedance.
     """
 
     worst_rel: float
@@ -47,27 +57,38 @@ class Residual:
     z_ohm: np.ndarray = field(repr=False)
     expected_ohm: np.ndarray = field(repr=False)
     freq_hz: np.ndarray = field(repr=False)
-    median_rel: float = float("nan")
-    limit: float | None = None
-    margin: float | None = None
+    median_rel: float = math.nan
+    limit: float = math.nan
+    margin: float = math.nan
     invalid_points: int = 0
     name: str = ""
+    ok: bool = True
+    reason: str = ""
 
-    def to_dict(self) -> dict[str, Any]:
-        """Scalars only, for tables and JSON."""
-        return {"name": self.name, "worst_rel": self.worst_rel, "f_hz": self.f_hz,
-                "median_rel": self.median_rel, "limit": self.limit, "margin": self.margin,
-                "invalid_points": self.invalid_points}
+    _ROWS = (("worst_rel", "worst relative error", ""), ("f_hz", "at", "Hz"),
+             ("median_rel", "median relative error", ""), ("limit", "limit", ""),
+             ("margin", "margin to the limit", ""), ("invalid_points", "points left out", ""))
+
+    def __post_init__(self) -> None:
+        # arrays back from lists (from_dict), missing scalars as NaN
+        for key in _ARRAYS:
+            v = getattr(self, key)
+            dtype = complex if key in ("z_ohm", "expected_ohm") else float
+            object.__setattr__(self, key, np.asarray(v, dtype=dtype))
+        for key in ("worst_rel", "f_hz", "median_rel", "limit", "margin"):
+            object.__setattr__(self, key, nan_if_none(getattr(self, key)))
 
     def __str__(self) -> str:
+        if not self.ok:
+            return f"{self.name}: residual not computed: {self.reason}"
         text = (f"{self.name}: worst |Z - Zexp|/|Zexp| = {self.worst_rel:.3g} at "
                 f"{self.f_hz:.6g} Hz (median {self.median_rel:.3g})")
-        if self.margin is not None:
+        if not math.isnan(self.limit):
             text += f", margin to limit {self.limit:g}: {self.margin:+.3g}"
         return text
 
 
-def residual(corrected: Any, expected_ohms: Any, *, limit: float | None = None,
+def residual(corrected: Any, expected_ohm: Any, *, limit: float | None = None,
              method: str = "reflection", port: int = 1) -> Residual:
     r"""Relative residual of a corrected capture of a known part.
 
@@ -77,11 +98,11 @@ def residual(corrected: Any, expected_ohms: Any, *, limit: float | None = None,
     ----------
     corrected : Capture or skrf.Network
         The corrected capture of the known part (a check resistor, a load standard).
-    expected_ohms : complex, array_like or callable
+    expected_ohm : complex, array_like or callable
         The part's impedance [ohm]: a number, an array on the capture's grid, or a
         function of frequency [Hz] returning impedance.
     limit : float, optional
-        An acceptance limit on the worst relative error; the result then carries
+        An acceptance limit on the worst relative error [1]; the result then carries
         ``margin = limit - worst_rel``.
     method : {"reflection", "series-through", "shunt-through"}
         How Z is taken from the capture (see :func:`kit.impedance`).
@@ -91,43 +112,44 @@ def residual(corrected: Any, expected_ohms: Any, *, limit: float | None = None,
     Returns
     -------
     Residual
+        ``ok`` False with a reason when no point has a finite impedance.
+
+    Raises
+    ------
+    CaptureError
+        When ``expected_ohm`` does not fit the grid or is 0 somewhere.
 
     References
     ----------
     .. [1] Verification on a known part after compensation: an instrument maker's impedance
        measurement handbook, §4.3 (common practice of checking with a known standard).
     """
-    from kit import impedance  # resolved through kit._EXPORTS (module may move)
-
     cap = as_capture(corrected)
-    f = np.asarray(cap.f_hz, dtype=float)
-    s = np.asarray(cap.s)
-    if method == "reflection" and 1 <= port <= cap.ports:
-        # Z from Gamma without the singular-point warning: an ideal open is simply invalid
-        g = s[:, port - 1, port - 1]
-        z0 = cap.z0[:, port - 1].real
-        with np.errstate(divide="ignore", invalid="ignore"):
-            z = z0 * (1 + g) / (1 - g)
-    else:
-        z = impedance(cap, method=method, port=port)
-    exp = expected_ohms(f) if callable(expected_ohms) else expected_ohms
+    with warnings.catch_warnings():
+        # an ideal open has no finite Z: it is counted in invalid_points, not warned about
+        warnings.simplefilter("ignore", SingularPointsWarning)
+        sw = sweep(cap, method=method, port=port, what="residual")
+    f, z = sw.f_hz, sw.z_ohm
+    exp = expected_ohm(f) if callable(expected_ohm) else expected_ohm
     exp = np.broadcast_to(np.asarray(exp, dtype=complex), f.shape) if np.ndim(exp) == 0 \
         else np.asarray(exp, dtype=complex)
     if exp.shape != f.shape:
-        raise CaptureError(f"expected_ohms has {exp.size} values but {cap.name!r} has "
+        raise CaptureError(f"expected_ohm has {exp.size} values but {cap.name!r} has "
                            f"{f.size} frequency points", cap.path)
     if np.any(np.abs(exp) == 0):
-        raise CaptureError("expected_ohms is 0 somewhere: a relative residual needs a "
+        raise CaptureError("expected_ohm is 0 somewhere: a relative residual needs a "
                            "non-zero expected impedance", cap.path)
     with np.errstate(invalid="ignore", over="ignore"):
         rel = np.abs(z - exp) / np.abs(exp)
-    ok = np.isfinite(rel)
-    if not np.any(ok):
-        raise CaptureError(f"no finite impedance in {cap.name!r}; the residual cannot be "
-                           "computed", cap.path)
-    k = int(np.argmax(np.where(ok, rel, -np.inf)))
+    good = np.isfinite(rel)
+    lim = nan_if_none(limit)
+    if not np.any(good):
+        return Residual(math.nan, math.nan, rel, z, np.array(exp), f.copy(), limit=lim,
+                        invalid_points=int(rel.size), name=cap.name, ok=False,
+                        reason="no frequency point has a finite impedance (every point is "
+                               "an ideal open or not a number)")
+    k = int(np.argmax(np.where(good, rel, -np.inf)))
     worst = float(rel[k])
-    margin = None if limit is None else float(limit) - worst
     return Residual(worst, float(f[k]), rel, z, np.array(exp), f.copy(),
-                    float(np.median(rel[ok])), None if limit is None else float(limit),
-                    margin, int(np.count_nonzero(~ok)), cap.name)
+                    float(np.median(rel[good])), lim, lim - worst,
+                    int(np.count_nonzero(~good)), cap.name)

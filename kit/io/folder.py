@@ -8,14 +8,13 @@ from __future__ import annotations
 
 import hashlib
 import itertools
-import os
 import re
 from collections import OrderedDict
-from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable
 
 from kit.capture import Capture, CaptureError
+from kit.io.pool import run_chunks
 from kit.io.touchstone import load
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -23,8 +22,11 @@ if TYPE_CHECKING:  # pragma: no cover
 
 TOUCHSTONE_RE = re.compile(r"\.(s\d+p|ts)$", re.IGNORECASE)
 #: Below this many files, parsing in this process is faster than starting workers
-#: (measured here: a worker pool costs about 0.3 s to start, a 1601-point file 5 ms).
+#: (measured here: a worker pool costs about 0.25 s to start once the session's fork
+#: server runs, the first one about 0.9 s; a 1601-point file takes 5 ms).
 PARALLEL_MIN_FILES = 48
+#: Smallest chunk of files sent to a worker.
+MIN_CHUNK_FILES = 4
 #: Show a progress bar from this many files on (tqdm; a widget in notebooks).
 PROGRESS_MIN_FILES = 50
 
@@ -87,7 +89,8 @@ def load_folder(folder: str | Path, pattern: str | None = None, *, recursive: bo
     recursive : bool
         Also look in sub-folders.
     workers : int, optional
-        Worker processes; default: the machine's cores (at most 8). ``1`` parses here.
+        Worker processes; default: the usable CPU count (:mod:`kit.io.pool`). ``1``
+        parses here.
     progress : bool, optional
         Show a progress bar; default: from 50 files on.
 
@@ -111,31 +114,10 @@ def load_folder(folder: str | Path, pattern: str | None = None, *, recursive: bo
         raise CaptureError("is not a folder", folder)
     paths = touchstone_files(folder, recursive=recursive)
     n = len(paths)
-    workers = workers or min(os.cpu_count() or 1, 8)
     show = (n >= PROGRESS_MIN_FILES) if progress is None else progress
-    results: list[tuple[dict[str, Any], Capture | None]] = []
-    bar = None
-    if show:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=n, desc=f"reading {folder.name}", unit="file")
-    try:
-        if workers > 1 and n >= PARALLEL_MIN_FILES:
-            size = max(4, n // (workers * 8))
-            chunks = [[str(p) for p in paths[i: i + size]] for i in range(0, n, size)]
-            with ProcessPoolExecutor(max_workers=workers) as ex:
-                for part in ex.map(_rows_chunk, chunks, itertools.repeat(pattern)):
-                    results.extend(part)
-                    if bar is not None:
-                        bar.update(len(part))
-        else:
-            for p in paths:
-                results.append(_row(p, pattern))
-                if bar is not None:
-                    bar.update(1)
-    finally:
-        if bar is not None:
-            bar.close()
+    results = run_chunks(_rows_chunk, [str(p) for p in paths], pattern, workers=workers,
+                         min_chunk=MIN_CHUNK_FILES, parallel_from=PARALLEL_MIN_FILES,
+                         progress=show, desc=f"reading {folder.name}", unit="file")
     table = pd.DataFrame([r for r, _ in results])
     for col in COLUMNS:
         if col not in table.columns:

@@ -165,17 +165,25 @@ def _merge_params(items: Iterable[Circuit]) -> tuple[str, ...]:
     return tuple(seen)
 
 
-class Series(Circuit):
-    """Elements in series: Z = sum Z_i."""
+class _Combination(Circuit):
+    """Circuits joined by one rule (series or parallel); ``word`` names the rule."""
+
+    word = "?"
 
     def __init__(self, *items: Circuit):
         if not items or not all(isinstance(i, Circuit) for i in items):
-            raise ValueError("series(...) needs one or more circuits (R, L, C, Block, ...)")
+            raise ValueError(f"{self.word}(...) needs one or more circuits (R, L, C, Block, ...)")
         self.items = items
         self.params = _merge_params(items)
 
     def __repr__(self) -> str:
-        return "series(" + ", ".join(map(repr, self.items)) + ")"
+        return f"{self.word}(" + ", ".join(map(repr, self.items)) + ")"
+
+
+class Series(_Combination):
+    """Elements in series: Z = sum Z_i."""
+
+    word = "series"
 
     def z_and_jac(self, f_hz, values):
         total = 0.0
@@ -188,17 +196,10 @@ class Series(Circuit):
         return np.asarray(total, dtype=complex), jac
 
 
-class Parallel(Circuit):
+class Parallel(_Combination):
     """Elements in parallel: Y = sum 1/Z_i, Z = 1/Y, dZ/dp = Z^2 sum (dZ_i/dp)/Z_i^2."""
 
-    def __init__(self, *items: Circuit):
-        if not items or not all(isinstance(i, Circuit) for i in items):
-            raise ValueError("parallel(...) needs one or more circuits (R, L, C, Block, ...)")
-        self.items = items
-        self.params = _merge_params(items)
-
-    def __repr__(self) -> str:
-        return "parallel(" + ", ".join(map(repr, self.items)) + ")"
+    word = "parallel"
 
     def z_and_jac(self, f_hz, values):
         ytot = 0.0

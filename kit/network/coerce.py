@@ -10,6 +10,10 @@ Accepted inputs
 * a :class:`kit.Capture` (its network, name and path are kept);
 * a scikit-rf ``Network`` (anything with ``s`` and ``frequency``);
 * a pair ``(f_hz, z_ohm)`` as a tuple, or ``f_hz`` with ``z=`` given separately.
+
+:func:`is_network`, :func:`network_of` and :func:`name_of` are defined in
+:mod:`kit.network.accept` (below the impedance methods, which use them too) and are part
+of this module's interface.
 """
 
 from __future__ import annotations
@@ -19,9 +23,11 @@ from typing import Any
 
 import numpy as np
 
-from kit.capture import Capture, CaptureError
+from kit.capture import CaptureError
+from kit.network.accept import is_network, name_of, network_of
+from kit.network.immittance import impedance
 
-__all__ = ["Sweep", "is_network", "network_of", "reference_ohm", "sweep"]
+__all__ = ["Sweep", "is_network", "name_of", "network_of", "reference_ohm", "sweep"]
 
 #: Reference impedance assumed for bare arrays when none is given [ohm] (common practice).
 DEFAULT_Z0_OHM = 50.0
@@ -61,33 +67,6 @@ class Sweep:
     def from_arrays(self) -> bool:
         """True when the sweep was made from bare arrays (no network behind it)."""
         return self.network is None
-
-
-def is_network(obj: Any) -> bool:
-    """True for a scikit-rf Network or anything shaped like one (``s`` and ``frequency``)."""
-    return hasattr(obj, "s") and hasattr(obj, "frequency") and not isinstance(obj, Capture)
-
-
-def network_of(obj: Any, what: str = "this function"):
-    """The scikit-rf Network of a Capture or Network.
-
-    Raises
-    ------
-    TypeError
-        For anything else, naming ``what`` needed it.
-    """
-    if isinstance(obj, Capture):
-        return obj.network
-    if is_network(obj):
-        return obj
-    raise TypeError(f"{what} needs a Capture or a scikit-rf Network, got {type(obj).__name__}")
-
-
-def name_of(obj: Any, default: str = "network") -> str:
-    """Display name of a Capture or Network."""
-    if isinstance(obj, Capture):
-        return obj.name
-    return str(getattr(obj, "name", None) or default)
 
 
 def reference_ohm(obj: Any, port: int = 1) -> float:
@@ -139,8 +118,6 @@ def sweep(obj: Any, z: Any = None, *, method: str = "reflection", port: int = 1,
     if z is None and isinstance(obj, tuple) and len(obj) == 2:
         obj, z = obj
     if z is None:
-        from kit.network.immittance import impedance
-
         ntwk = network_of(obj, what)
         zz = impedance(obj, method=method, port=port)
         ref_port = port if method == "reflection" else 1

@@ -13,14 +13,13 @@ N-port inversion (scikit-rf's ``Network.z``), which is the right tool for full m
 from __future__ import annotations
 
 import warnings
-from typing import TYPE_CHECKING, Literal
+from typing import Literal
 
 import numpy as np
 
-from kit.capture import Capture, CaptureError
-
-if TYPE_CHECKING:  # pragma: no cover
-    import skrf
+from kit.capture import CaptureError
+from kit.network.accept import network_of
+from kit.network.reflection import z_from_gamma
 
 Method = Literal["reflection", "series-through", "shunt-through"]
 METHODS: tuple[str, ...] = ("reflection", "series-through", "shunt-through")
@@ -50,6 +49,11 @@ def _warn_singular(bad: np.ndarray, f_hz: np.ndarray | None, what: str) -> None:
 def _finish(num: np.ndarray, den: np.ndarray, f_hz, what: str) -> np.ndarray:
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         out = num / den
+    return _nan_singular(out, f_hz, what)
+
+
+def _nan_singular(out: np.ndarray, f_hz, what: str) -> np.ndarray:
+    """``out`` with its non-finite points set to NaN, and a warning naming them."""
     # fast path: one pass over the result; the singular points are found only when needed
     if np.isfinite(out.real.sum() + out.imag.sum()):
         return out
@@ -73,6 +77,9 @@ def z_from_reflection(gamma: np.ndarray, z0_ohm=50.0, f_hz=None) -> np.ndarray:
 
     .. math:: Z = Z_0 \frac{1 + \Gamma}{1 - \Gamma}
 
+    The formula is :func:`kit.network.reflection.z_from_gamma`; this adds the handling of
+    singular points (NaN and a :class:`SingularPointsWarning`).
+
     Parameters
     ----------
     gamma : array_like of complex
@@ -89,11 +96,10 @@ def z_from_reflection(gamma: np.ndarray, z0_ohm=50.0, f_hz=None) -> np.ndarray:
 
     References
     ----------
-    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley, 2012, ch. 2 (reflection
-       coefficient of a terminated line), from memory for the section number.
+    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley, 2012, eq. 2.35 (from memory
+       for the equation number); methods sheet section 0.
     """
-    g = np.asarray(gamma, dtype=complex)
-    return _finish(np.asarray(z0_ohm) * (1.0 + g), 1.0 - g, f_hz, "reflection impedance")
+    return _nan_singular(z_from_gamma(gamma, z0_ohm), f_hz, "reflection impedance")
 
 
 def z_from_series_through(s21: np.ndarray, z0_ohm=50.0, f_hz=None) -> np.ndarray:
@@ -155,14 +161,6 @@ def z_from_shunt_through(s21: np.ndarray, z0_ohm=50.0, f_hz=None) -> np.ndarray:
     return _finish(np.asarray(z0_ohm) * t, 2.0 * (1.0 - t), f_hz, "shunt-through impedance")
 
 
-def _network(obj) -> "skrf.Network":
-    if isinstance(obj, Capture):
-        return obj.network
-    if hasattr(obj, "s") and hasattr(obj, "frequency"):
-        return obj
-    raise TypeError(f"expected a Capture or a scikit-rf Network, got {type(obj).__name__}")
-
-
 def impedance(capture, method: Method = "reflection", port: int = 1) -> np.ndarray:
     """Device impedance per frequency from a capture.
 
@@ -192,7 +190,7 @@ def impedance(capture, method: Method = "reflection", port: int = 1) -> np.ndarr
     .. [1] See :func:`z_from_reflection`, :func:`z_from_series_through` and
        :func:`z_from_shunt_through` for the formulas and their sources.
     """
-    ntwk = _network(capture)
+    ntwk = network_of(capture, "impedance")
     path = getattr(capture, "path", None)
     n = ntwk.nports
     f = ntwk.frequency.f
@@ -224,5 +222,5 @@ def admittance(capture, method: Method = "reflection", port: int = 1) -> np.ndar
     .. [1] Y = 1/Z by definition of admittance (common practice, no source).
     """
     z = impedance(capture, method=method, port=port)
-    f = _network(capture).frequency.f
+    f = network_of(capture, "admittance").frequency.f
     return _finish(np.ones_like(z), z, f, "admittance")

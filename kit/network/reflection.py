@@ -1,4 +1,4 @@
-r"""Reflection coefficient and the figures made from it: VSWR, return loss, mismatch loss.
+r"""Reflection coefficient and the figures made from it: impedance, VSWR, return loss, mismatch loss.
 
 One home for these definitions; the views, the corrections and the matching designs all
 use them.
@@ -41,6 +41,42 @@ def gamma_from_z(z, z0_ohm=50.0) -> np.ndarray:
     with np.errstate(invalid="ignore", divide="ignore"):
         g = (z - z0) / (z + z0)
     return np.where(np.isinf(z), 1.0 + 0j, g)
+
+
+def z_from_gamma(gamma, z0_ohm=50.0) -> np.ndarray:
+    r"""Impedance of a one-port termination from its reflection coefficient on a real reference.
+
+    .. math:: Z = Z_0 \frac{1 + \Gamma}{1 - \Gamma}
+
+    The inverse of :func:`gamma_from_z`. This is the one home of the formula: callers that
+    want singular points flagged (NaN and a warning) use
+    :func:`kit.network.immittance.z_from_reflection`, which calls this.
+
+    Parameters
+    ----------
+    gamma : array_like of complex
+        Reflection coefficient [1] (pseudo or power waves; the two coincide on a real
+        reference).
+    z0_ohm : float or array_like
+        Real reference impedance [ohm], broadcast against ``gamma``.
+
+    Returns
+    -------
+    numpy.ndarray of complex
+        Z [ohm]; Gamma = 1 exactly (an ideal open) gives ``inf``, NaN stays NaN. No warning
+        is raised: the caller decides what an ideal open means.
+
+    References
+    ----------
+    .. [1] D. M. Pozar, *Microwave Engineering*, 4th ed., Wiley, 2012, eq. 2.35 (from memory
+       for the equation number); methods sheet section 0 (conventions):
+       Z = Z0 (1 + Gamma)/(1 - Gamma).
+    """
+    g = np.asarray(gamma, dtype=complex)
+    z0 = np.asarray(z0_ohm, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        z = z0 * (1.0 + g) / (1.0 - g)
+    return np.where(g == 1.0, complex(np.inf, 0.0), z)
 
 
 def vswr(gamma) -> np.ndarray:

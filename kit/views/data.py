@@ -132,9 +132,10 @@ def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None
         z0 = 50.0 if z0_ohm is None else float(z0_ohm)
         g = gamma_from_z(z, z0)
         return Trace(f, z, g, g, z0, label or "trace")
-    from kit.network.immittance import _network, impedance
+    from kit.network.coerce import network_of
+    from kit.network.immittance import impedance
 
-    ntwk = _network(obj)
+    ntwk = network_of(obj, "trace")
     f = np.array(ntwk.frequency.f, dtype=float)
     zref = np.asarray(ntwk.z0)
     z0 = float(np.real(zref[0, 0])) if z0_ohm is None else float(z0_ohm)
