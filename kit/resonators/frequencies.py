@@ -13,7 +13,9 @@ r"""Characteristic frequencies of a resonator from its measured impedance.
 
 plus ``k_eff`` from (fs, fp) and ``qm`` from the half-power points of the conductance.
 
-How the numbers are obtained (say this when you quote them):
+How the numbers are obtained (say this when you quote them; the numerics are those of
+:mod:`kit.resonators.peaks`, the kit's one peak reader, so the fit's start values, the
+Bode-Fano series branch and the match panel read the same fs from the same points):
 
 * Extrema. The sample with the extreme value is found among the interior local extrema (the
   most prominent one, so that the 1/(omega C) slope of a wide sweep is not mistaken for a

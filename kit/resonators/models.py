@@ -292,6 +292,7 @@ def _estimate_multi(f_hz, z, modes: int) -> dict:
 
 
 def bvd_model() -> Model:
+    """The Butterworth-Van Dyke model "bvd" (registry entry)."""
     circ = parallel(C("C0"), series(R("R1"), L("L1"), C("C1")))
     return Model("bvd", circ, ("C0", "R1", "L1", "C1"), estimate_bvd,
                  lambda p: bvd_figures(p["C0"], p["R1"], p["L1"], p["C1"]),
@@ -299,6 +300,7 @@ def bvd_model() -> Model:
 
 
 def bvd_loss_model() -> Model:
+    """The modified BVD model "bvd-loss" (registry entry)."""
     circ = series(R("Rs"), parallel(series(R("R0"), C("C0")),
                                     series(R("R1"), L("L1"), C("C1"))))
 
@@ -314,6 +316,7 @@ def bvd_loss_model() -> Model:
 
 
 def multi_model(modes: int) -> Model:
+    """C0 parallel ``modes`` motional branches, "multi" (registry entry)."""
     branches = [series(R(f"R{n}"), L(f"L{n}"), C(f"C{n}")) for n in range(1, modes + 1)]
     circ = parallel(C("C0"), *branches)
     names = ("C0",) + tuple(f"{s}{n}" for n in range(1, modes + 1) for s in "RLC")
@@ -332,6 +335,7 @@ def multi_model(modes: int) -> Model:
 
 
 def inductor_model() -> Model:
+    """The real inductor model "inductor" (registry entry)."""
     circ = parallel(series(R("Rs"), L("L")), C("Cp"))
 
     def start(f, z):
@@ -362,6 +366,7 @@ def inductor_model() -> Model:
 
 
 def capacitor_model() -> Model:
+    """The real capacitor model "capacitor" (registry entry)."""
     circ = series(R("ESR"), L("ESL"), C("C"))
 
     def start(f, z):

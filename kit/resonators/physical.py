@@ -270,7 +270,7 @@ def _extra_branches(start, modes):
         f, z = clean_fz(f, z)
         g = (1.0 / z).real
         peaks, props = find_peaks(g, prominence=0)
-        main = int(np.argmax(g))
+        main = conductance_peak(f, z).index  # start() found it, so it exists
         keep = [(pr, i) for i, pr in zip(peaks, props["prominences"]) if abs(i - main) > 2]
         keep.sort(reverse=True)
         if len(keep) < modes - 1:
