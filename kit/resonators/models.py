@@ -182,16 +182,11 @@ def start_peak_q(f_hz, g, i: int, base: float = 0.0,
     ----------
     .. [1] Methods sheet sections 1.7(b) and 2.2; ANSI/IEEE Std 177-1966 (from memory).
     """
-    pk = peak_by_reciprocal(f_hz, g, i) if base == 0.0 else _peak_above(f_hz, g, i, base)
-    pts = half_power_points(f_hz, g, i, pk.value, base)
+    pk = peak_by_reciprocal(f_hz, np.asarray(g) - base, i)   # the peak above the baseline
+    g_peak = pk.value + base
+    pts = half_power_points(f_hz, g, i, g_peak, base)
     q = q_half_power(pk.f_hz, *pts) if pts is not None else default_q
-    return pk.f_hz, pk.value, q
-
-
-def _peak_above(f_hz, g, i, base):
-    """Peak of g over a baseline: refined on 1/(g - base), height added back."""
-    pk = peak_by_reciprocal(f_hz, g - base, i)
-    return pk._replace(value=pk.value + base)
+    return pk.f_hz, g_peak, q
 
 
 def estimate_bvd(f_hz, z) -> dict:
