@@ -360,3 +360,37 @@ def test_report_gives_every_number_its_unit():
     z = 1 / (1j * w * c0 + 1 / (r1 + 1j * w * l1 + 1 / (1j * w * c1)))
     text = kit.fit(f, z=z * (1 + 1e-4 * np.cos(37 * w / w[0])), model="bvd").report()
     assert " F +/- " in text and " H +/- " in text and " ohm +/- " in text and " Hz +/- " in text
+
+
+def test_fit_uses_the_captures_own_reference_impedance():
+    """A capture referenced to 75 ohm is fitted with its own reference: the BVD comes back."""
+    # Gamma = (Z - Z0)/(Z + Z0) with the port's real reference Z0 (methods sheet section 0,
+    # common practice, no source); the capture is built with scikit-rf Network(z0=75), an
+    # independent implementation holding the reference. BVD values: fixture A (sheet 1.2).
+    import skrf
+
+    from kit.capture import CaptureError
+
+    f = np.linspace(0.9e6, 1.2e6, 1201)
+    z = BVD.z(f, FIX_A)
+    gamma = (z - 75.0) / (z + 75.0)
+    ntwk = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="Hz"),
+                        s=gamma.reshape(-1, 1, 1), z0=75.0, name="ref75")
+    cap = kit.from_network(ntwk)
+    assert np.allclose(ntwk.z[:, 0, 0], z, rtol=1e-9)   # scikit-rf reads it back as Z
+    for weighting in ("reflection", "relative"):
+        r = kit.fit(cap, weighting=weighting)
+        assert r.ok, r.report()
+        for k, v in FIX_A.items():
+            assert r.params[k] == pytest.approx(v, rel=1e-6), (weighting, k)
+    # the reflection weighting uses 75 ohm: the same as arrays given z0_ohm=75 explicitly
+    r_cap = kit.fit(cap, weighting="reflection")
+    r_arr = kit.fit(f, z=z, weighting="reflection", z0_ohm=75.0)
+    assert r_cap.params == pytest.approx(r_arr.params, rel=1e-9)
+    # read as if it were 50 ohm, the same S-parameters describe another element
+    z50 = 50.0 * (1 + gamma) / (1 - gamma)
+    r50 = kit.fit(f, z=z50)
+    assert r50.params["R1"] != pytest.approx(FIX_A["R1"], rel=1e-2)
+    # a reference that contradicts the capture's is refused, not silently used
+    with pytest.raises(CaptureError, match="75"):
+        kit.fit(cap, weighting="reflection", z0_ohm=50.0)

@@ -34,7 +34,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.match.circuit import load_grid, load_z
+from kit.match.circuit import load_grid, load_z, measured_z
+from kit.resonators.peaks import clean_trace, conductance_peak, half_power_points, q_half_power
 
 REF_FANO = ("R. M. Fano, J. Franklin Inst. 249 (1950); Pozar, Microwave Engineering, 4th ed., "
             "section 5.9 (from memory for the section)")
@@ -231,34 +232,29 @@ def _series_rlc_estimate(f, z):
     """Motional R1, L1, C1 from the conductance peak and its half-power points.
 
     Near fs the motional admittance traces a circle of diameter 1/R1; the points where
-    G = Gmax/2 are the +-45 degree points, f2 - f1 = fs/Qm.
+    G = Gmax/2 are the +-45 degree points, f2 - f1 = fs/Qm. fs, Gmax, f1 and f2 come from
+    the kit's one peak reader (:mod:`kit.resonators.peaks`), the same as :func:`kit.resonance`
+    on the same points.
     """
-    y = 1.0 / z
-    g = y.real
-    k = int(np.argmax(g))
-    gmax = g[k]
-    half = gmax / 2.0
-    lo = k
-    while lo > 0 and g[lo] > half:
-        lo -= 1
-    hi = k
-    while hi < len(g) - 1 and g[hi] > half:
-        hi += 1
-    if g[lo] > half or g[hi] > half:
+    g = (1.0 / z).real
+    pk = conductance_peak(f, z)
+    if pk is None or not pk.value > 0:
+        raise ValueError("no conductance peak (series resonance) inside the band; widen the "
+                         "band or give r_ohm, l_h and c_f of the motional branch")
+    pts = half_power_points(f, g, pk.index, pk.value)
+    if pts is None:
         raise ValueError("the conductance peak's half-power points are not inside the band; "
                          "widen the band or give r_ohm, l_h and c_f of the motional branch")
-
-    def cross(i, j):
-        return f[i] + (half - g[i]) * (f[j] - f[i]) / (g[j] - g[i])
-
-    f1, f2, fs = cross(lo, lo + 1), cross(hi, hi - 1), f[k]
-    qm = fs / (f2 - f1)
+    (f1, f2), fs, gmax = pts, pk.f_hz, pk.value
+    qm = q_half_power(fs, f1, f2)
     r1 = 1.0 / gmax
     ws = 2 * np.pi * fs
     l1 = qm * r1 / ws
     c1 = 1.0 / (ws * ws * l1)
-    spacing = float(np.max(np.diff(f[max(lo, 0):hi + 1]))) if hi > lo else float("nan")
-    # grid-limited uncertainty: half a step on fs, f1 and f2
+    lo = max(int(np.searchsorted(f, f1)) - 1, 0)
+    hi = min(int(np.searchsorted(f, f2)), len(f) - 1)
+    spacing = float(np.max(np.diff(f[lo:hi + 1]))) if hi > lo else float("nan")
+    # grid-limited uncertainty (conservative): half a step on f1 and f2
     q_rel = np.hypot(spacing / 2, spacing / 2) / (f2 - f1)
     return r1, l1, c1, q_rel, (f1, fs, f2)
 
@@ -316,15 +312,14 @@ def bode_fano(load=None, f_lo_hz: float = None, f_hi_hz: float = None, *,
         r, c = float(r_ohm), float(c_f)
         l = float(l_h) if model != "parallel-rc" else np.inf
     else:
-        grid = load_grid(load)
-        if grid is not None:
-            f = grid[(grid >= f_lo) & (grid <= f_hi)]
-            if f.size < 3:
-                raise ValueError(f"only {f.size} measured point(s) in {f_lo:.6g}..{f_hi:.6g} Hz; "
-                                 "widen the band or measure more points")
+        if load_grid(load) is not None:
+            # the measured points in the band, cleaned as kit.resonance cleans them
+            fm, zm = measured_z(load)
+            f, z, _, _ = clean_trace(fm, zm, (f_lo, f_hi), min_points=3,
+                                     path=getattr(load, "path", None))
         else:
             f = np.linspace(f_lo, f_hi, n_points)
-        z = load_z(load, f)
+            z = load_z(load, f)
         ok = np.isfinite(z) & (z != 0)
         f, z = f[ok], z[ok]
         if model == "series-rlc":

@@ -22,6 +22,7 @@ from typing import Any
 import numpy as np
 
 from kit.capture import Capture, CaptureError
+from kit.network.coerce import is_network, network_of, sweep
 
 PART_KINDS = ("L", "C", "T")
 PLACEMENTS = ("series", "shunt", "transformer")
@@ -158,15 +159,11 @@ def input_impedance(abcd: np.ndarray, z_load) -> np.ndarray:
 # ----------------------------------------------------------------------------- the load
 
 
-def _is_network(obj) -> bool:
-    return hasattr(obj, "s") and hasattr(obj, "frequency") and not isinstance(obj, Capture)
-
-
 def load_name(load) -> str:
     """Short description of a load for provenance."""
     if isinstance(load, Capture):
         return f"capture {load.name}" + (f" (sha256 {load.sha256[:12]})" if load.sha256 else "")
-    if _is_network(load):
+    if is_network(load):
         return f"network {load.name or '(unnamed)'}"
     if callable(load):
         return f"function {getattr(load, '__name__', 'load')}"
@@ -177,17 +174,19 @@ def load_name(load) -> str:
 
 
 def measured_z(load) -> tuple[np.ndarray, np.ndarray]:
-    """Frequency grid [Hz] and one-port impedance [ohm] of a Capture or Network."""
-    from kit.network.immittance import impedance
+    """Frequency grid [Hz] and one-port impedance [ohm] of a Capture or Network.
 
-    ntwk = load.network if isinstance(load, Capture) else load
-    return np.asarray(ntwk.frequency.f, dtype=float), impedance(load, method="reflection")
+    By the kit's one coercion (:func:`kit.network.coerce.sweep`, reflection at port 1, with
+    the capture's own reference impedance).
+    """
+    src = sweep(load, method="reflection", what="the matching load")
+    return src.f_hz, src.z_ohm
 
 
 def load_grid(load) -> np.ndarray | None:
     """The measured frequency grid of a Capture or Network load, else None."""
-    if isinstance(load, Capture) or _is_network(load):
-        return np.asarray((load.network if isinstance(load, Capture) else load).frequency.f)
+    if isinstance(load, Capture) or is_network(load):
+        return np.asarray(network_of(load, "load_grid()").frequency.f, dtype=float)
     return None
 
 
@@ -209,7 +208,7 @@ def load_z(load, f_hz) -> np.ndarray:
         When a frequency lies outside the capture's range (names the file).
     """
     f = np.atleast_1d(np.asarray(f_hz, dtype=float))
-    if isinstance(load, Capture) or _is_network(load):
+    if isinstance(load, Capture) or is_network(load):
         fg, z = measured_z(load)
         lo, hi = fg[0], fg[-1]
         tol = 1e-9 * max(abs(hi), 1.0)

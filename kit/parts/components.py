@@ -19,8 +19,9 @@ from typing import Any
 
 import numpy as np
 
-from kit.capture import Capture, CaptureError
-from kit.resonators.frequencies import _cross, _dedupe, _vertex_min
+from kit.capture import CaptureError
+from kit.network.coerce import sweep
+from kit.resonators.peaks import crossing, sort_merge, vertex_min
 
 __all__ = ["ComponentFigures", "component_figures"]
 
@@ -199,16 +200,11 @@ def component_figures(capture, method: str = "series-through", kind: str | None 
        ESR + j omega ESL + 1/(j omega C), |Z(SRF)| = ESR, Q = 1/(omega C ESR) (standard
        textbook forms, from memory).
     """
-    from kit.network.immittance import impedance
-
     path = getattr(capture, "path", None)
-    ntwk = capture.network if isinstance(capture, Capture) else capture
-    name = capture.name if isinstance(capture, Capture) else str(getattr(ntwk, "name", None)
-                                                                  or "network")
     if kind is not None and kind not in ("inductor", "capacitor"):
         raise CaptureError(f"unknown kind {kind!r}; choose 'inductor' or 'capacitor'", path)
-    z = np.asarray(impedance(capture, method=method, port=port))
-    f = np.asarray(ntwk.frequency.f, float)
+    src = sweep(capture, method=method, port=port, what="component_figures()")
+    name, f, z = src.name, src.f_hz, src.z_ohm
     flags: list[str] = []
     sel = np.isfinite(z) & np.isfinite(f)
     if span_hz is not None:
@@ -217,7 +213,7 @@ def component_figures(capture, method: str = "series-through", kind: str | None 
     if np.count_nonzero(~np.isfinite(z)):
         flags.append(f"nan-points:{int(np.count_nonzero(~np.isfinite(z)))}")
     f, z = f[sel], z[sel]
-    f, z, n_rep = _dedupe(f, z)
+    f, z, n_rep = sort_merge(f, z)
     if n_rep:
         flags.append(f"repeated-frequencies:{n_rep}")
     if len(f) < 5:
@@ -237,7 +233,7 @@ def component_figures(capture, method: str = "series-through", kind: str | None 
     else:
         idx = np.nonzero((sx[:-1] < 0) & (sx[1:] >= 0))[0]
         smooth = x
-    srf = _cross(f, smooth, int(idx[0]), 0.0) if len(idx) else None
+    srf = crossing(f, smooth, int(idx[0]), 0.0) if len(idx) else None
     if srf is None:
         flags.append("no-self-resonance-in-span")
 
@@ -253,7 +249,7 @@ def component_figures(capture, method: str = "series-through", kind: str | None 
             i = lo_i + int(np.argmin(mag[lo_i:hi_i]))
             t = mag**2
         if 0 < i < len(f) - 1:
-            f_ext, tv = _vertex_min(f, t, i)
+            f_ext, tv = vertex_min(f, t, i)
             z_ext = 1.0 / math.sqrt(tv) if kind == "inductor" else math.sqrt(max(tv, 0.0))
             # fewer than 3 samples inside the half-power width of the |Z| extremum: the
             # parabola cannot resolve it

@@ -36,9 +36,10 @@ import numpy as np
 
 from kit._text import fmt_value as _fmt
 from kit._text import html_rows as _esc_rows
-from kit.capture import Capture, CaptureError
+from kit.capture import CaptureError
+from kit.network.coerce import name_of, network_of
 from kit.parts.components import ComponentFigures, component_figures  # noqa: F401  (re-export)
-from kit.resonators.frequencies import _cross, _dedupe, _vertex_min
+from kit.resonators.peaks import crossing, drop_nonfinite, sort_merge, vertex_min
 
 __all__ = ["FilterFigures", "ComponentFigures", "filter_figures", "component_figures",
            "FILTER_KINDS", "HALF_POWER_DB"]
@@ -141,11 +142,9 @@ class FilterFigures:
 
 
 def _s_trace(capture, trace: str):
-    ntwk = capture.network if isinstance(capture, Capture) else capture
-    if not (hasattr(ntwk, "s") and hasattr(ntwk, "frequency")):
-        raise TypeError(f"expected a Capture or a scikit-rf Network, got {type(capture).__name__}")
+    ntwk = network_of(capture, "filter_figures()")
     path = getattr(capture, "path", None)
-    name = capture.name if isinstance(capture, Capture) else str(ntwk.name or "network")
+    name = name_of(capture)
     n = ntwk.nports
     if n == 1:
         return ntwk.frequency.f, ntwk.s[:, 0, 0], name, "one-port trace", path
@@ -214,11 +213,10 @@ def filter_figures(capture, level_db: float = -3.0, kind: str | None = None, *,
     flags: list[str] = []
     f = np.asarray(f, float)
     s = np.asarray(s, complex)
-    good = np.isfinite(f) & np.isfinite(s)
-    if not np.all(good):
-        flags.append(f"nan-points:{int(np.count_nonzero(~good))}")
-        f, s = f[good], s[good]
-    f, s, n_rep = _dedupe(f, s)
+    f, s, n_bad = drop_nonfinite(f, s)
+    if n_bad:
+        flags.append(f"nan-points:{n_bad}")
+    f, s, n_rep = sort_merge(f, s)
     if n_rep:
         flags.append(f"repeated-frequencies:{n_rep}")
     if len(f) < 5:
@@ -247,7 +245,7 @@ def filter_figures(capture, level_db: float = -3.0, kind: str | None = None, *,
             kind = "band-pass"
 
     def edge_at(i):  # crossing between i and i+1
-        return _cross(f, inv_p, i, thr)
+        return crossing(f, inv_p, i, thr)
 
     f_lo = f_hi = center = bw = q = f_pk = rej = None
     stop: list[tuple[float, float]] = []
@@ -268,7 +266,7 @@ def filter_figures(capture, level_db: float = -3.0, kind: str | None = None, *,
             flags.append("no-lower-edge")
     elif kind == "band-pass":
         a, b = next(r for r in runs if r[0] <= i_max <= r[1])
-        f_pk = (_vertex_min(f, inv_p, i_max)[0] if 0 < i_max < len(f) - 1 else float(f[i_max]))
+        f_pk = (vertex_min(f, inv_p, i_max)[0] if 0 < i_max < len(f) - 1 else float(f[i_max]))
         if a > 0:
             f_lo = edge_at(a - 1)
         else:
@@ -283,7 +281,7 @@ def filter_figures(capture, level_db: float = -3.0, kind: str | None = None, *,
             stop = [(0.0, f_lo - bw), (f_hi + bw, math.inf)]
     elif kind == "notch":
         i_min = int(np.argmin(db))
-        f_pk = (_vertex_min(f, p, i_min)[0] if 0 < i_min < len(f) - 1 else float(f[i_min]))
+        f_pk = (vertex_min(f, p, i_min)[0] if 0 < i_min < len(f) - 1 else float(f[i_min]))
         rej = ref - float(db[i_min])
         if passing[i_min]:
             flags.append("no-edge-in-span")

@@ -11,6 +11,9 @@ from pathlib import Path
 
 import numpy as np
 
+from kit.capture import Capture
+from kit.network.coerce import is_network, name_of
+
 __all__ = ["fit_lot", "result_row"]
 
 
@@ -30,11 +33,13 @@ def result_row(name: str, result) -> dict:
     return row
 
 
-def _name_of(item, index: int) -> str:
+def _label(item, index: int) -> str:
+    """Row name: a path's stem, a capture's or network's name (kit.network.coerce.name_of)."""
     if isinstance(item, (str, os.PathLike)):
         return Path(item).stem
-    n = getattr(item, "name", None)
-    return str(n) if n else f"capture-{index + 1}"
+    if isinstance(item, Capture) or is_network(item):
+        return name_of(item, f"capture-{index + 1}")
+    return f"capture-{index + 1}"
 
 
 def _fit_one(args):
@@ -89,7 +94,7 @@ def fit_lot(captures, model: str = "bvd", span_hz=None, modes: int = 1,
     if isinstance(captures, dict):
         items = list(captures.items())
     else:
-        items = [(_name_of(c, i), c) for i, c in enumerate(captures)]
+        items = [(_label(c, i), c) for i, c in enumerate(captures)]
     kwargs = dict(model=model, span_hz=span_hz, modes=modes, method=method, **options)
     from kit.resonators.registry import get_model
 

@@ -43,7 +43,8 @@ from typing import Any
 
 import numpy as np
 
-from kit.resonators.models import StartError
+from kit.network.coerce import sweep
+from kit.resonators.models import StartError, clean_fz
 from kit.resonators.registry import MODEL_NAMES, get_model
 
 __all__ = ["fit", "FitResult", "WEIGHTINGS", "SEVERE_FLAGS"]
@@ -310,29 +311,21 @@ def _failed(model, reason, flag, **kw) -> FitResult:
                      **kw)
 
 
-def _data(capture, z, method, port):
-    """(f, z, name, z0) from a Capture/Network, a (f, z) pair, or arrays."""
-    from kit.network.immittance import SingularPointsWarning, impedance
+def _data(capture, z, method, port, z0_ohm):
+    """(f, z, name, z0) by the one coercion (:func:`kit.network.coerce.sweep`).
 
-    if z is not None:
-        f = np.asarray(capture, dtype=float)
-        zz = np.asarray(z, dtype=complex)
-        if f.shape != zz.shape or f.ndim != 1:
-            raise ValueError(f"f and z must be 1-D arrays of the same length, got shapes "
-                             f"{f.shape} and {zz.shape}")
-        return f, zz, "", 50.0
-    if isinstance(capture, (tuple, list)) and len(capture) == 2:
-        return _data(capture[0], capture[1], method, port)
-    if hasattr(capture, "network") or (hasattr(capture, "s") and hasattr(capture, "frequency")):
-        ntwk = capture.network if hasattr(capture, "network") else capture
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", SingularPointsWarning)
-            zz = impedance(capture, method=method, port=port)
-        z0 = float(np.median(np.asarray(ntwk.z0).real))
-        name = getattr(capture, "name", "") or getattr(ntwk, "name", "") or ""
-        return np.asarray(ntwk.frequency.f, dtype=float), zz, str(name), z0
-    raise TypeError(f"fit needs a Capture, a scikit-rf Network or arrays (f, z); got "
-                    f"{type(capture).__name__}")
+    A Capture or Network keeps its own reference impedance (``z0_ohm`` must then be None or
+    equal to it); bare arrays take ``z0_ohm`` or 50 ohm.
+    """
+    from kit.network.immittance import SingularPointsWarning
+
+    if isinstance(capture, list) and len(capture) == 2 and z is None:
+        capture = tuple(capture)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", SingularPointsWarning)
+        src = sweep(capture, z, method=method, port=port, z0_ohm=z0_ohm, what="fit()")
+    name = "" if src.from_arrays else src.name
+    return src.f_hz, src.z_ohm, name, src.z0_ohm
 
 
 def _sigma_y(y, z, weighting, z0):
@@ -514,7 +507,9 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         Admittance residual scale (module docstring). Default "relative": both the series
         and the parallel resonance count.
     z0_ohm : float, optional
-        Reference impedance for ``weighting="reflection"`` (default: the capture's, or 50).
+        Reference impedance [ohm] of ``weighting="reflection"`` for bare arrays (default
+        50 ohm). A Capture or Network always uses its own reference (the port's, from the
+        Touchstone file); a different value here raises :class:`kit.CaptureError`.
     start : dict, optional
         Start values overriding the closed-form estimates.
     port : int
@@ -538,6 +533,8 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
     ------
     ValueError
         For an unknown model, method or weighting, modes < 1, or mismatched arrays.
+    CaptureError
+        When ``z0_ohm`` contradicts the capture's reference impedance.
 
     References
     ----------
@@ -554,8 +551,7 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
     if model not in MODEL_NAMES:
         raise ValueError(f"unknown model {model!r}; choose one of {', '.join(MODEL_NAMES)}")
     mdl = get_model(model, modes, **options)
-    f, zz, cname, z0 = _data(capture, z, method, port)
-    z0 = float(z0_ohm) if z0_ohm is not None else z0
+    f, zz, cname, z0 = _data(capture, z, method, port, z0_ohm)
     name = cname if name is None else name
     if span_hz is not None:
         lo, hi = (float(v) for v in span_hz)
@@ -566,10 +562,7 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         f, zz = f[sel], zz[sel]
     else:
         span = (float(np.min(f)), float(np.max(f))) if len(f) else None
-    keep = np.isfinite(f) & np.isfinite(zz) & (zz != 0)
-    f, zz = f[keep], zz[keep]
-    order = np.argsort(f, kind="stable")
-    f, zz = f[order], zz[order]
+    f, zz = clean_fz(f, zz)
     common = dict(name=name, modes=int(modes), model_options=dict(mdl.options), method=method,
                   weighting=weighting, span_hz=span, n_points=int(len(f)),
                   f_hz=f if keep_data else None, z=zz if keep_data else None)

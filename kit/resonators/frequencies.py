@@ -13,7 +13,9 @@ r"""Characteristic frequencies of a resonator from its measured impedance.
 
 plus ``k_eff`` from (fs, fp) and ``qm`` from the half-power points of the conductance.
 
-How the numbers are obtained (say this when you quote them):
+How the numbers are obtained (say this when you quote them; the numerics are those of
+:mod:`kit.resonators.peaks`, the kit's one peak reader, so the fit's start values, the
+Bode-Fano series branch and the match panel read the same fs from the same points):
 
 * Extrema. The sample with the extreme value is found among the interior local extrema (the
   most prominent one, so that the 1/(omega C) slope of a wide sweep is not mistaken for a
@@ -46,7 +48,18 @@ from typing import Any
 
 import numpy as np
 
-from kit.capture import Capture, CaptureError
+from kit.network.coerce import sweep
+from kit.resonators.peaks import (
+    clean_trace,
+    conductance_peak,
+    crossing,
+    half_power_points,
+    nearest_peak,
+    prominent_peak,
+    q_half_power,
+    resistance_peak,
+    vertex_min,
+)
 
 __all__ = ["Resonance", "resonance", "INTERPOLATION"]
 
@@ -172,155 +185,6 @@ class Resonance:
                 "</div>")
 
 
-# --------------------------------------------------------------------------- numerics
-
-def _parabola(x: np.ndarray, y: np.ndarray) -> tuple[float, float, float]:
-    """Coefficients (a, b, c) of y = a (x - x1)^2 + b (x - x1) + c through 3 points."""
-    d0, d2 = x[0] - x[1], x[2] - x[1]
-    e0, e2 = y[0] - y[1], y[2] - y[1]
-    a = (e2 * d0 - e0 * d2) / (d0 * d2 * (d2 - d0))
-    b = (e0 - a * d0 * d0) / d0
-    return a, b, float(y[1])
-
-
-def _vertex_min(f: np.ndarray, t: np.ndarray, i: int) -> tuple[float, float]:
-    """Refine a discrete minimum of t at interior index i by a 3-point parabola."""
-    x = f[i - 1:i + 2]
-    y = t[i - 1:i + 2]
-    if not np.all(np.isfinite(y)):
-        return float(f[i]), float(t[i])
-    a, b, c = _parabola(x, y)
-    if not a > 0:
-        return float(f[i]), float(t[i])
-    dx = -b / (2 * a)
-    dx = min(max(dx, x[0] - x[1]), x[2] - x[1])
-    return float(x[1] + dx), float(c + b * dx + a * dx * dx)
-
-
-def _cross(f: np.ndarray, y: np.ndarray, i: int, level: float) -> float:
-    """Where y - level changes sign between samples i and i+1 (quadratic through 3 samples)."""
-    lo, hi = float(f[i]), float(f[i + 1])
-    y0, y1 = float(y[i]) - level, float(y[i + 1]) - level
-    lin = lo + (hi - lo) * y0 / (y0 - y1) if y0 != y1 else lo
-    j = i - 1 if i >= 1 else (i if i + 2 < len(f) else None)
-    if j is None:
-        return lin
-    x = f[j:j + 3]
-    yy = y[j:j + 3] - level
-    if not np.all(np.isfinite(yy)):
-        return lin
-    a, b, c = _parabola(x, yy)
-    x1 = float(x[1])
-    if abs(a) < 1e-300:
-        return lin
-    disc = b * b - 4 * a * c
-    if disc < 0:
-        return lin
-    sq = math.sqrt(disc)
-    # numerically stable roots
-    q = -0.5 * (b + math.copysign(sq, b))
-    roots = [q / a] + ([c / q] if q != 0 else [])
-    inside = [x1 + r for r in roots if lo - 1e-9 * (hi - lo) <= x1 + r <= hi + 1e-9 * (hi - lo)]
-    if not inside:
-        return lin
-    return float(min(inside, key=lambda r: abs(r - lin)))
-
-
-def _peaks(y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Interior local maxima of y and their prominences (NaN-free input)."""
-    from scipy.signal import find_peaks
-
-    idx, props = find_peaks(y, prominence=0)
-    return idx, props["prominences"]
-
-
-def _most_prominent(y: np.ndarray, mask: np.ndarray | None = None) -> int | None:
-    idx, prom = _peaks(y)
-    if mask is not None and len(idx):
-        keep = mask[idx]
-        idx, prom = idx[keep], prom[keep]
-    if len(idx) == 0:
-        return None
-    return int(idx[np.argmax(prom)])
-
-
-def _nearest_peak(y: np.ndarray, target: int) -> int | None:
-    idx, prom = _peaks(y)
-    if len(idx) == 0:
-        return None
-    # nearest in index; among equally near, the more prominent
-    order = np.lexsort((-prom, np.abs(idx - target)))
-    return int(idx[order[0]])
-
-
-# --------------------------------------------------------------------------- input
-
-def _arrays(capture_or_f, z, method: str, port: int) -> tuple[np.ndarray, np.ndarray, str, str,
-                                                              str | None]:
-    if z is None:
-        from kit.network.immittance import impedance
-
-        obj = capture_or_f
-        if not (isinstance(obj, Capture) or (hasattr(obj, "s") and hasattr(obj, "frequency"))):
-            raise TypeError("resonance() needs a Capture or a scikit-rf Network, or two arrays "
-                            f"(f_hz, z_ohm); got {type(obj).__name__} without z")
-        zz = impedance(obj, method=method, port=port)
-        ntwk = obj.network if isinstance(obj, Capture) else obj
-        name = obj.name if isinstance(obj, Capture) else str(ntwk.name or "network")
-        path = str(obj.path) if isinstance(obj, Capture) and obj.path is not None else None
-        return np.asarray(ntwk.frequency.f, float), np.asarray(zz), name, method, path
-    f = np.asarray(capture_or_f, dtype=float)
-    zz = np.asarray(z, dtype=complex)
-    if f.ndim != 1 or zz.shape != f.shape:
-        raise ValueError(f"resonance(): f_hz and z must be 1-D arrays of the same length, got "
-                         f"shapes {f.shape} and {zz.shape}")
-    return f, zz, "arrays", "arrays", None
-
-
-def _dedupe(f: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
-    """Sort by frequency and average complex values at repeated frequencies.
-
-    Returns the new arrays and how many samples were merged away (0 if none).
-    """
-    if len(f) == 0 or np.all(np.diff(f) > 0):
-        return f, z, 0
-    order = np.argsort(f, kind="stable")
-    f, z = f[order], z[order]
-    uf, inv, counts = np.unique(f, return_inverse=True, return_counts=True)
-    if len(uf) == len(f):
-        return f, z, 0
-    zr = np.bincount(inv, weights=z.real) / counts
-    zi = np.bincount(inv, weights=z.imag) / counts
-    return uf, zr + 1j * zi, len(f) - len(uf)
-
-
-def _clean(f, z, span_hz, path) -> tuple[np.ndarray, np.ndarray, list[str], tuple[float, float]]:
-    flags: list[str] = []
-    if span_hz is not None:
-        try:
-            lo, hi = (float(v) for v in span_hz)
-        except (TypeError, ValueError):
-            raise CaptureError(f"span_hz must be a pair (f_low, f_high) in Hz, got {span_hz!r}",
-                               path) from None
-        if not lo < hi:
-            raise CaptureError(f"span_hz = {span_hz!r}: the low edge must be below the high edge",
-                               path)
-        sel = (f >= lo) & (f <= hi)
-        f, z = f[sel], z[sel]
-    good = np.isfinite(f) & np.isfinite(z.real) & np.isfinite(z.imag)
-    if np.any(~good):
-        flags.append(f"nan-points:{int(np.count_nonzero(~good))}")
-        f, z = f[good], z[good]
-    f, z, n_rep = _dedupe(f, z)
-    if n_rep:
-        flags.append(f"repeated-frequencies:{n_rep}")
-    if len(f) < _MIN_POINTS:
-        where = "" if span_hz is None else f" inside span_hz={tuple(span_hz)!r}"
-        raise CaptureError(f"only {len(f)} usable point(s){where}; at least {_MIN_POINTS} are "
-                           "needed: widen the span or check the data for NaN values", path)
-    return f, z, flags, (float(f[0]), float(f[-1]))
-
-
 # --------------------------------------------------------------------------- main
 
 def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
@@ -367,61 +231,54 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
     .. [3] k_eff^2 = (fp^2 - fs^2)/fp^2: ANSI/IEEE Std 176-1987 (from memory), quoted by
        Lamberti & Pappalardo, IEEE Ultrasonics Symp. 1991, doi 10.1109/ULTSYM.1991.234236.
     """
-    f, zz, name, meth, path = _arrays(capture_or_f, z, method, port)
-    f, zz, flags, span = _clean(f, zz, span_hz, path)
+    src = sweep(capture_or_f, z, method=method, port=port, what="resonance()")
+    name, meth, path = src.name, src.method, src.path
+    f, zz, flags, span = clean_trace(src.f_hz, src.z_ohm, span_hz, min_points=_MIN_POINTS,
+                                     path=path)
     n = len(f)
     step = float(np.median(np.diff(f)))
     with np.errstate(divide="ignore", invalid="ignore"):
         y = 1.0 / zz
-    g, r, x, mag = y.real, zz.real, zz.imag, np.abs(zz)
-    n_neg = int(np.count_nonzero(r < -1e-9 * mag))
+    g, x, mag = y.real, zz.imag, np.abs(zz)
+    n_neg = int(np.count_nonzero(zz.real < -1e-9 * mag))
     if n_neg:
         # a passive device has R >= 0: the fixture or the phase reference is not corrected
         flags.append(f"negative-resistance:{n_neg}")
 
     def vertex(i, t):
-        return _vertex_min(f, t, i) if 0 < i < n - 1 else (float(f[i]), float(t[i]))
+        return vertex_min(f, t, i) if 0 < i < n - 1 else (float(f[i]), float(t[i]))
 
-    # fs: most prominent conductance peak
-    fs = g_max = None
-    i_s = _most_prominent(g)
-    if i_s is None:
+    # fs: most prominent conductance peak, refined on 1/G (the one peak reader)
+    fs = g_max = i_s = None
+    pk_s = conductance_peak(f, zz)
+    if pk_s is None:
         flags.append("no-peak:fs")
     else:
-        gi = g[i_s - 1:i_s + 2]
-        if np.all(gi > 0):
-            with np.errstate(divide="ignore"):
-                fs, t = vertex(i_s, 1.0 / g)
-            g_max = 1.0 / t
-        else:
-            fs, g_max = float(f[i_s]), float(g[i_s])
+        i_s, fs, g_max, _ = pk_s
+        if not pk_s.refined:
             flags.append("not-interpolated:fs")
 
     # fp: most prominent resistance peak above fs (anywhere if fs is missing)
-    fp = r_max = None
-    i_p = _most_prominent(r, None if i_s is None else np.arange(n) > i_s)
-    if i_p is None:
+    fp = r_max = i_p = None
+    pk_p = resistance_peak(f, zz, after=i_s)
+    if pk_p is None:
         flags.append("no-peak:fp")
     else:
-        ri = r[i_p - 1:i_p + 2]
-        if np.all(ri > 0):
-            fp, t = vertex(i_p, 1.0 / r)
-            r_max = 1.0 / t
-        else:
-            fp, r_max = float(f[i_p]), float(r[i_p])
+        i_p, fp, r_max, _ = pk_p
+        if not pk_p.refined:
             flags.append("not-interpolated:fp")
 
     # fm, fn: |Z| extrema nearest to fs and fp
     fm = zm = fn = zn = None
-    i_m = (_nearest_peak(-np.log(mag), i_s) if i_s is not None
-           else _most_prominent(-np.log(mag)))
+    i_m = (nearest_peak(-np.log(mag), i_s) if i_s is not None
+           else prominent_peak(-np.log(mag)))
     if i_m is None:
         flags.append("no-peak:fm")
     else:
         fm, t = vertex(i_m, mag**2)
         zm = math.sqrt(max(t, 0.0))
-    i_n = (_nearest_peak(np.log(mag), i_p) if i_p is not None
-           else _most_prominent(np.log(mag)))
+    i_n = (nearest_peak(np.log(mag), i_p) if i_p is not None
+           else prominent_peak(np.log(mag)))
     if i_n is None:
         flags.append("no-peak:fn")
     else:
@@ -440,7 +297,7 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
         later = down[down > iu]
         if len(later):
             idn = later[np.argmin(np.abs(f[later] - ref_p))]
-            fr, fa = _cross(f, x, int(iu), 0.0), _cross(f, x, int(idn), 0.0)
+            fr, fa = crossing(f, x, int(iu), 0.0), crossing(f, x, int(idn), 0.0)
         if len(up) > 1 or len(down) > 1:
             flags.append("several-zero-reactance-pairs")
     if fr is None:
@@ -449,22 +306,14 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
     # half-power points of G
     f1 = f2 = qm = None
     if fs is not None and g_max is not None and g_max > 0:
-        half = 0.5 * g_max
-        left = np.nonzero(g[:i_s] <= half)[0]
-        right = np.nonzero(g[i_s + 1:] <= half)[0]
-        if len(left) and len(right):
-            il = int(left[-1])
-            ir = int(i_s + 1 + right[0]) - 1
-            with np.errstate(divide="ignore"):
-                inv_g = 1.0 / g
-            f1 = _cross(f, inv_g, il, 1.0 / half) if g[il] > 0 else _cross(f, g, il, half)
-            f2 = _cross(f, inv_g, ir, 1.0 / half) if g[ir + 1] > 0 else _cross(f, g, ir, half)
-            if f2 > f1:
-                qm = fs / (f2 - f1)
-                if (f2 - f1) < 4 * step:
-                    flags.append("coarse-sampling")
-        else:
+        pts = half_power_points(f, g, i_s, g_max)
+        if pts is None:
             flags.append("half-power-outside-span")
+        else:
+            f1, f2 = pts
+            qm = q_half_power(fs, f1, f2)
+            if (f2 - f1) < 4 * step:
+                flags.append("coarse-sampling")
 
     k = None
     if fs is not None and fp is not None and fp > fs:

@@ -44,10 +44,19 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from kit.network.circuits import C, Circuit, L, R, parallel, series
+from kit.resonators.peaks import (
+    conductance_peak,
+    drop_nonfinite,
+    half_power_points,
+    peak_by_reciprocal,
+    q_half_power,
+    resistance_peak,
+    sort_merge,
+    vertex_min,
+)
 
-__all__ = ["Model", "StartError", "bvd_figures", "estimate_bvd"]
-
-
+__all__ = ["Model", "StartError", "bvd_figures", "bvd_loss_model", "bvd_model", "capacitor_model",
+           "clean_fz", "estimate_bvd", "inductor_model", "multi_model", "start_peak_q"]
 
 class StartError(ValueError):
     """The closed-form start values could not be found in the data (reason in the message)."""
@@ -101,42 +110,6 @@ class Model:
 # closed-form helpers (methods sheet section 2.2; common practice, no source)
 
 
-def _peak(f: np.ndarray, v: np.ndarray, i: int) -> tuple[float, float]:
-    """Sub-step peak position and height by a parabola through three points."""
-    if 0 < i < len(v) - 1:
-        y0, y1, y2 = v[i - 1], v[i], v[i + 1]
-        den = y0 - 2 * y1 + y2
-        if den < 0:
-            d = 0.5 * (y0 - y2) / den
-            if abs(d) <= 1:
-                step = f[i + 1] - f[i] if d > 0 else f[i] - f[i - 1]
-                return float(f[i] + d * step), float(y1 - 0.25 * (y0 - y2) * d)
-    return float(f[i]), float(v[i])
-
-
-def _half_power_q(f: np.ndarray, g: np.ndarray, i: int, base: float = 0.0) -> float | None:
-    """Q = f0/(f2 - f1) from the half-height points of a peak of ``g`` above ``base``."""
-    half = base + 0.5 * (g[i] - base)
-    lo = i
-    while lo > 0 and g[lo] > half:
-        lo -= 1
-    hi = i
-    while hi < len(g) - 1 and g[hi] > half:
-        hi += 1
-    if g[lo] > half or g[hi] > half:
-        return None
-
-    def cross(a, b):
-        if g[a] == g[b]:
-            return f[a]
-        return f[a] + (half - g[a]) * (f[b] - f[a]) / (g[b] - g[a])
-
-    f1, f2 = cross(lo, lo + 1), cross(hi - 1, hi)
-    if f2 <= f1:
-        return None
-    return float(f[i] / (f2 - f1))
-
-
 def bvd_figures(c0: float, r1: float, l1: float, c1: float) -> dict:
     """fs, fp, k_eff and Qm of a BVD circuit (lossless-limit identities).
 
@@ -161,11 +134,59 @@ def bvd_figures(c0: float, r1: float, l1: float, c1: float) -> dict:
             "k_eff": np.sqrt(c1 / (c0 + c1)), "qm": 1.0 / (2 * np.pi * fs * r1 * c1)}
 
 
-def _clean(f, z):
-    f = np.asarray(f, dtype=float)
-    z = np.asarray(z, dtype=complex)
-    ok = np.isfinite(f) & np.isfinite(z) & (z != 0)
+def clean_fz(f_hz, z) -> tuple[np.ndarray, np.ndarray]:
+    """Finite, non-zero impedance points sorted by frequency, repeated frequencies averaged.
+
+    The same cleaning as :func:`kit.resonance` (:func:`kit.resonators.peaks.clean_trace`),
+    plus dropping Z = 0 (no admittance), so that start values and the characteristic
+    frequencies are read from the same points.
+
+    Returns
+    -------
+    f_hz : numpy.ndarray
+        Increasing frequencies [Hz].
+    z : numpy.ndarray of complex
+        Impedance [ohm].
+    """
+    f, z, _ = drop_nonfinite(f_hz, np.asarray(z, dtype=complex))
+    f, z, _ = sort_merge(f, z)
+    ok = z != 0
     return f[ok], z[ok]
+
+
+def start_peak_q(f_hz, g, i: int, base: float = 0.0,
+                 default_q: float = 100.0) -> tuple[float, float, float]:
+    """Peak frequency, height and half-power Q of a conductance peak, for start values.
+
+    Parameters
+    ----------
+    f_hz : numpy.ndarray
+        Increasing frequencies [Hz].
+    g : numpy.ndarray
+        Conductance [S].
+    i : int
+        Index of the discrete peak.
+    base : float
+        Baseline under the peak [S] (a neighbouring mode or dielectric loss).
+    default_q : float
+        Q returned when the half-power points are not inside the span [1] (a start value
+        only; common practice, no source).
+
+    Returns
+    -------
+    f0_hz, g_peak_s, q : float
+        From :func:`kit.resonators.peaks.peak_by_reciprocal` and
+        :func:`kit.resonators.peaks.half_power_points`, Q = f0/(f2 - f1).
+
+    References
+    ----------
+    .. [1] Methods sheet sections 1.7(b) and 2.2; ANSI/IEEE Std 177-1966 (from memory).
+    """
+    pk = peak_by_reciprocal(f_hz, np.asarray(g) - base, i)   # the peak above the baseline
+    g_peak = pk.value + base
+    pts = half_power_points(f_hz, g, i, g_peak, base)
+    q = q_half_power(pk.f_hz, *pts) if pts is not None else default_q
+    return pk.f_hz, g_peak, q
 
 
 def estimate_bvd(f_hz, z) -> dict:
@@ -190,24 +211,21 @@ def estimate_bvd(f_hz, z) -> dict:
     ----------
     .. [1] Methods sheet section 2.2 (steps 1-6) and 1.7(b); common practice, no source.
     """
-    f, z = _clean(f_hz, z)
+    f, z = clean_fz(f_hz, z)
     if len(f) < 5:
         raise StartError("fewer than 5 usable points")
     y = 1.0 / z
-    g, r = y.real, z.real
-    i = int(np.argmax(g))
-    if i == 0 or i == len(f) - 1:
+    g = y.real
+    pk = conductance_peak(f, z)
+    if pk is None:
         raise StartError("the conductance maximum (series resonance) is at the edge of the "
                          "span; widen the span around the resonance")
-    fs, gmax = _peak(f, g, i)
+    i, fs, gmax, _refined = pk
     if not gmax > 0:
         raise StartError("no positive conductance peak")
     r1 = 1.0 / gmax
-    above = np.nonzero(f > fs)[0]
-    j = above[int(np.argmax(r[above]))] if len(above) else None
-    fp = None
-    if j is not None and 0 < j < len(f) - 1:
-        fp = _peak(f, r, int(j))[0]
+    pk_p = resistance_peak(f, z, after=i)
+    fp = pk_p.f_hz if pk_p is not None else None
     ws = 2 * np.pi * fs
     if fp is not None and fp > fs:
         ratio = (fp / fs) ** 2 - 1.0
@@ -222,7 +240,7 @@ def estimate_bvd(f_hz, z) -> dict:
             c0 = max(ests)[1]
             c1 = ratio * c0
             return {"C0": c0, "R1": r1, "L1": 1.0 / (ws**2 * c1), "C1": c1}
-    q = _half_power_q(f, g, i) or 100.0
+    q = start_peak_q(f, g, i)[2]
     c1 = 1.0 / (ws * q * r1)
     l1 = 1.0 / (ws**2 * c1)
     k = 0 if abs(f[0] - fs) > abs(f[-1] - fs) else len(f) - 1
@@ -238,7 +256,7 @@ def _estimate_multi(f_hz, z, modes: int) -> dict:
     """Start values for N branches from the N most prominent conductance peaks."""
     from scipy.signal import find_peaks
 
-    f, z = _clean(f_hz, z)
+    f, z = clean_fz(f_hz, z)
     y = 1.0 / z
     g = y.real
     peaks, props = find_peaks(g, prominence=0)
@@ -250,10 +268,9 @@ def _estimate_multi(f_hz, z, modes: int) -> dict:
     out: dict[str, float] = {}
     motional = np.zeros_like(y)
     for n, (i, prom) in enumerate(chosen, start=1):
-        fn, gpk = _peak(f, g, int(i))
-        base = gpk - prom
+        base = g[i] - prom
+        fn, _gpk, q = start_peak_q(f, g, int(i), base)
         rn = 1.0 / max(prom, 1e-300)
-        q = _half_power_q(f, g, int(i), base) or 100.0
         wn = 2 * np.pi * fn
         cn = 1.0 / (wn * q * rn)
         ln = 1.0 / (wn**2 * cn)
@@ -269,14 +286,16 @@ def _estimate_multi(f_hz, z, modes: int) -> dict:
     return out
 
 
-def _bvd_model() -> Model:
+def bvd_model() -> Model:
+    """The Butterworth-Van Dyke model "bvd" (registry entry)."""
     circ = parallel(C("C0"), series(R("R1"), L("L1"), C("C1")))
     return Model("bvd", circ, ("C0", "R1", "L1", "C1"), estimate_bvd,
                  lambda p: bvd_figures(p["C0"], p["R1"], p["L1"], p["C1"]),
                  description="Butterworth-Van Dyke: C0 parallel (R1 - L1 - C1)")
 
 
-def _bvd_loss_model() -> Model:
+def bvd_loss_model() -> Model:
+    """The modified BVD model "bvd-loss" (registry entry)."""
     circ = series(R("Rs"), parallel(series(R("R0"), C("C0")),
                                     series(R("R1"), L("L1"), C("C1"))))
 
@@ -291,7 +310,8 @@ def _bvd_loss_model() -> Model:
                  description="modified BVD: Rs - [(R0 - C0) parallel (R1 - L1 - C1)]")
 
 
-def _multi_model(modes: int) -> Model:
+def multi_model(modes: int) -> Model:
+    """C0 parallel ``modes`` motional branches, "multi" (registry entry)."""
     branches = [series(R(f"R{n}"), L(f"L{n}"), C(f"C{n}")) for n in range(1, modes + 1)]
     circ = parallel(C("C0"), *branches)
     names = ("C0",) + tuple(f"{s}{n}" for n in range(1, modes + 1) for s in "RLC")
@@ -309,15 +329,16 @@ def _multi_model(modes: int) -> Model:
                              "fs, fp, k_eff, qm are those of branch 1 (lowest frequency)")
 
 
-def _inductor_model() -> Model:
+def inductor_model() -> Model:
+    """The real inductor model "inductor" (registry entry)."""
     circ = parallel(series(R("Rs"), L("L")), C("Cp"))
 
     def start(f, z):
-        f, z = _clean(f, z)
+        f, z = clean_fz(f, z)
         i = int(np.argmax(z.real))
         lo = 2 * np.pi * f[0]
         if 0 < i < len(f) - 1:
-            fsrf, rmax = _peak(f, z.real, i)
+            _i, fsrf, rmax, _ok = peak_by_reciprocal(f, z.real, i)
             x2 = (f[0] / fsrf) ** 2
             ind = z[0].imag * (1 - x2) / lo
             cp = 1.0 / ((2 * np.pi * fsrf) ** 2 * ind)
@@ -339,15 +360,16 @@ def _inductor_model() -> Model:
                  description="real inductor: (Rs - L) parallel Cp; fs_hz = self-resonance")
 
 
-def _capacitor_model() -> Model:
+def capacitor_model() -> Model:
+    """The real capacitor model "capacitor" (registry entry)."""
     circ = series(R("ESR"), L("ESL"), C("C"))
 
     def start(f, z):
-        f, z = _clean(f, z)
+        f, z = clean_fz(f, z)
         mag = np.abs(z)
         i = int(np.argmin(mag))
         if 0 < i < len(f) - 1:
-            fsrf = _peak(f, -mag, i)[0]
+            fsrf = vertex_min(f, mag**2, i)[0]
             esr = max(z[i].real, 1e-6)
         else:
             fsrf = 3 * f[-1]

@@ -28,7 +28,8 @@ from __future__ import annotations
 import numpy as np
 
 from kit.network.circuits import Block
-from kit.resonators.models import Model, StartError, _clean, _half_power_q, _peak
+from kit.resonators.models import Model, StartError, clean_fz, start_peak_q
+from kit.resonators.peaks import conductance_peak, resistance_peak
 
 __all__ = ["plate_z", "mason_plate_z", "klm_plate_z", "bar_y", "bar_z", "plate_fs_hz",
            "bar_fp_hz", "plate_model", "bar_model"]
@@ -232,22 +233,20 @@ def bar_z(f_hz, ct_f, fs_hz, k31, qm=np.inf, tan_delta=0.0) -> np.ndarray:
 
 
 def _fs_fp_from_data(f, z):
+    """fs, fp, half-power Q and Y from the one peak reader (:mod:`kit.resonators.peaks`)."""
     y = 1.0 / z
-    i = int(np.argmax(y.real))
-    if i == 0 or i == len(f) - 1:
+    pk = conductance_peak(f, z)
+    if pk is None:
         raise StartError("the conductance maximum is at the edge of the span; widen the span")
-    fs = _peak(f, y.real, i)[0]
-    above = np.nonzero(f > fs)[0]
-    j = int(above[np.argmax(z.real[above])]) if len(above) else len(f) - 1
-    if j == len(f) - 1:
+    pk_p = resistance_peak(f, z, after=pk.index)
+    if pk_p is None:
         raise StartError("no resistance maximum (parallel resonance) above fs inside the span")
-    fp = _peak(f, z.real, j)[0]
-    q = _half_power_q(f, y.real, i) or 100.0
-    return fs, fp, q, y
+    fs, _g, q = start_peak_q(f, y.real, pk.index)
+    return fs, pk_p.f_hz, q, y
 
 
 def _plate_start(f, z):
-    f, z = _clean(f, z)
+    f, z = clean_fz(f, z)
     fs, fp, q, y = _fs_fp_from_data(f, z)
     kt2 = (np.pi / 2) * (fs / fp) * np.tan((np.pi / 2) * (fp - fs) / fp)
     kt = float(np.sqrt(min(max(kt2, 1e-4), 0.9)))
@@ -268,19 +267,18 @@ def _extra_branches(start, modes):
         p = start(f, z)
         if modes == 1:
             return p
-        f, z = _clean(f, z)
+        f, z = clean_fz(f, z)
         g = (1.0 / z).real
         peaks, props = find_peaks(g, prominence=0)
-        main = int(np.argmax(g))
+        main = conductance_peak(f, z).index  # start() found it, so it exists
         keep = [(pr, i) for i, pr in zip(peaks, props["prominences"]) if abs(i - main) > 2]
         keep.sort(reverse=True)
         if len(keep) < modes - 1:
             raise StartError(f"found {len(keep)} conductance peak(s) besides the main mode, "
                              f"{modes - 1} asked; lower modes or widen the span")
         for n, (prom, i) in enumerate(sorted(keep[:modes - 1], key=lambda t: t[1]), start=2):
-            fn = _peak(f, g, int(i))[0]
+            fn, _gpk, q = start_peak_q(f, g, int(i), g[i] - prom)
             rn = 1.0 / prom
-            q = _half_power_q(f, g, int(i), g[i] - prom) or 100.0
             wn = 2 * np.pi * fn
             cn = 1.0 / (wn * q * rn)
             p.update({f"R{n}": rn, f"L{n}": 1.0 / (wn**2 * cn), f"C{n}": cn})
@@ -334,7 +332,7 @@ def plate_model(z_front: complex = 0.0, z_back: complex = 0.0, modes: int = 1) -
 
 
 def _bar_start(f, z):
-    f, z = _clean(f, z)
+    f, z = clean_fz(f, z)
     fs, fp, q, y = _fs_fp_from_data(f, z)
     a = (np.pi / 2) * (fp / fs) * np.tan((np.pi / 2) * (fp - fs) / fs)
     k31 = float(np.sqrt(min(max(a / (1 + a), 1e-4), 0.9)))

@@ -29,7 +29,8 @@ from typing import Any
 
 import numpy as np
 
-from kit.capture import Capture, CaptureError
+from kit.capture import CaptureError
+from kit.network.coerce import name_of, network_of
 
 __all__ = ["QFactor", "q_factor", "KINDS"]
 
@@ -195,10 +196,7 @@ def _covariance(p, f, s, f_low, weights) -> np.ndarray | None:
 def _trace(capture, kind: str, trace: str | None):
     import skrf as rf
 
-    ntwk = capture.network if isinstance(capture, Capture) else capture
-    if not (hasattr(ntwk, "s") and hasattr(ntwk, "frequency")):
-        raise TypeError(f"q_factor() needs a Capture or a scikit-rf Network, got "
-                        f"{type(capture).__name__}")
+    ntwk = network_of(capture, "q_factor()")
     path = getattr(capture, "path", None)
     n = ntwk.nports
     if n == 1 and trace is None:
@@ -277,7 +275,7 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
     if fit not in _FITS:
         raise CaptureError(f"unknown fit {fit!r}; choose one of {', '.join(_FITS)}", path)
     ntwk, trace = _trace(capture, kind, trace)
-    name = capture.name if isinstance(capture, Capture) else str(ntwk.name or "network")
+    name = name_of(capture)
     flags: list[str] = []
     f_all = ntwk.frequency.f
     if span_hz is not None:

@@ -10,11 +10,11 @@ import numpy as np
 from kit.resonators import physical as mp
 from kit.resonators.models import (
     Model,
-    _bvd_loss_model,
-    _bvd_model,
-    _capacitor_model,
-    _inductor_model,
-    _multi_model,
+    bvd_loss_model,
+    bvd_model,
+    capacitor_model,
+    inductor_model,
+    multi_model,
 )
 
 __all__ = ["MODEL_NAMES", "get_model"]
@@ -55,8 +55,8 @@ def get_model(name: str, modes: int = 1, **options) -> Model:
     if options:
         raise ValueError(f"model {name!r} takes no options, got {', '.join(options)}")
     if name == "multi" or (name == "bvd" and modes > 1):
-        return _multi_model(int(modes))
+        return multi_model(int(modes))
     if modes != 1:
         raise ValueError(f"model {name!r} has a single mode; use model='multi' for several")
-    return {"bvd": _bvd_model, "bvd-loss": _bvd_loss_model, "inductor": _inductor_model,
-            "capacitor": _capacitor_model}[name]()
+    return {"bvd": bvd_model, "bvd-loss": bvd_loss_model, "inductor": inductor_model,
+            "capacitor": capacitor_model}[name]()

@@ -200,7 +200,10 @@ class FitPanel:
         self.output.outputs = ()
         f, z, item = self._data(self.selector.value)
         lo, hi = (v * 1e6 for v in self.span.value)
-        res = kit.fit((f, z), model=self.model.value, span_hz=(lo, hi),
+        # a capture is fitted as itself, so that its own reference impedance is used
+        data = (f, z) if isinstance(item, (tuple, list)) else item
+        method = self.method.value if hasattr(self, "method") else "reflection"
+        res = kit.fit(data, model=self.model.value, span_hz=(lo, hi), method=method,
                       modes=int(self.modes.value), weighting=self.weighting.value,
                       name=self.items[self.selector.value][0])
         self.result = res

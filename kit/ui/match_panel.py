@@ -110,11 +110,15 @@ class MatchPanel:
         self.capture = capture
         self.r_source_ohm = float(r_source_ohm)
         f = np.asarray(capture.f_hz, dtype=float)
-        z = km.load_z(capture, f)
-        if f_hz is None:  # conductance peak: the series resonance of the element
-            with np.errstate(divide="ignore", invalid="ignore"):
-                g = np.nan_to_num((1.0 / z).real, nan=-np.inf)
-            f_hz = float(f[int(np.argmax(g))])
+        if f_hz is None:  # the series resonance fs of kit.resonance on the whole capture
+            from kit.capture import CaptureError
+            from kit.resonators.frequencies import resonance
+
+            try:
+                fs = resonance(capture).fs_hz
+            except CaptureError:  # too few usable points: start mid-sweep
+                fs = None
+            f_hz = float(fs) if fs is not None else float(np.sqrt(f[0] * f[-1]))
         span = 0.02 * f_hz
         lo, hi = max(f[0], f_hz - span), min(f[-1], f_hz + span)
         self.message = MessageBar()
@@ -254,7 +258,8 @@ def match_panel(capture, display: bool = True, f_hz: float | None = None,
     display : bool
         Show it in the notebook; False to build only (tests).
     f_hz : float, optional
-        Design frequency [Hz]; default the conductance peak (series resonance).
+        Design frequency [Hz]; default the series resonance fs of :func:`kit.resonance`
+        on the whole capture.
     r_source_ohm : float
         Source (amplifier) resistance [ohm].
     """
