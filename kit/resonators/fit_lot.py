@@ -42,8 +42,12 @@ def _label(item, index: int) -> str:
     return f"capture-{index + 1}"
 
 
-def _fit_one(args):
-    index, name, item, kwargs = args
+def _failed_row(name: str, model: str, exc: BaseException) -> dict:
+    return {"name": name, "ok": False, "error": f"{type(exc).__name__}: {exc}",
+            "flags": "failed", "model": model}
+
+
+def _fit_one(name: str, item, kwargs: dict) -> dict:
     from kit.resonators.fitting import fit
 
     try:
@@ -51,16 +55,19 @@ def _fit_one(args):
             from kit.io.touchstone import load
 
             item = load(item)
-        result = fit(item, keep_data=False, **kwargs)
-        return index, result_row(name, result)
+        return result_row(name, fit(item, keep_data=False, **kwargs))
     except Exception as exc:  # noqa: BLE001 - a lot never stops on one capture
-        return index, {"name": name, "ok": False, "error": f"{type(exc).__name__}: {exc}",
-                       "flags": "failed", "model": kwargs.get("model", "")}
+        return _failed_row(name, kwargs.get("model", ""), exc)
+
+
+def _fit_chunk(chunk: list, kwargs: dict) -> list[dict]:
+    """Worker task of :func:`fit_lot`: one row per (name, item) of the chunk."""
+    return [_fit_one(name, item, kwargs) for name, item in chunk]
 
 
 def fit_lot(captures, model: str = "bvd", span_hz=None, modes: int = 1,
             method: str = "reflection", workers: int | None = None, progress: bool = True,
-            start_method: str = "forkserver", **options):
+            start_method: str | None = None, **options):
     """Fit many captures; returns a pandas DataFrame, one row per capture, in input order.
 
     Parameters
@@ -71,12 +78,14 @@ def fit_lot(captures, model: str = "bvd", span_hz=None, modes: int = 1,
     model, span_hz, modes, method, **options
         As for :func:`kit.fit`.
     workers : int, optional
-        Number of processes (default: the CPU count); 0 or 1 fits in this process.
+        Number of processes (default: the usable CPUs, :mod:`kit.io.pool`); 0 or 1 fits in
+        this process.
     progress : bool
         Show a tqdm progress bar.
-    start_method : str
-        multiprocessing start method ("forkserver" by default: safe with the threads of a
-        notebook kernel; it needs the main script to be a file or a notebook, not stdin).
+    start_method : str, optional
+        multiprocessing start method (default :func:`kit.io.pool.default_start_method`:
+        the fork server, safe with the threads of a notebook kernel; it needs the main
+        script to be a file or a notebook, not stdin).
 
     Returns
     -------
@@ -100,40 +109,12 @@ def fit_lot(captures, model: str = "bvd", span_hz=None, modes: int = 1,
 
     get_model(model, modes, **{k: v for k, v in options.items()
                                if k in ("z_front", "z_back")})  # invalid arguments raise here
-    jobs = [(i, name, item, kwargs) for i, (name, item) in enumerate(items)]
-    rows: list = [None] * len(jobs)
-    if workers is None:
-        workers = min(os.cpu_count() or 1, max(len(jobs), 1))
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
+    from kit.io.pool import run_chunks
 
-        bar = tqdm(total=len(jobs), desc=f"fitting {model}", unit="capture")
-    try:
-        if workers <= 1 or len(jobs) <= 1:
-            for job in jobs:
-                i, row = _fit_one(job)
-                rows[i] = row
-                if bar is not None:
-                    bar.update(1)
-        else:
-            import multiprocessing
-            from concurrent.futures import ProcessPoolExecutor, as_completed
+    def failed_chunk(chunk: list, exc: BaseException) -> list[dict]:  # e.g. a worker that died
+        return [_failed_row(name, model, exc) for name, _ in chunk]
 
-            ctx = multiprocessing.get_context(start_method)
-            with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
-                futures = [pool.submit(_fit_one, job) for job in jobs]
-                for fut in as_completed(futures):
-                    try:
-                        i, row = fut.result()
-                    except Exception as exc:  # noqa: BLE001 - e.g. a worker that died
-                        i = futures.index(fut)
-                        row = {"name": jobs[i][1], "ok": False, "flags": "failed",
-                               "error": f"{type(exc).__name__}: {exc}", "model": model}
-                    rows[i] = row
-                    if bar is not None:
-                        bar.update(1)
-    finally:
-        if bar is not None:
-            bar.close()
+    rows = run_chunks(_fit_chunk, items, kwargs, workers=workers, start_method=start_method,
+                      progress=progress, desc=f"fitting {model}",
+                      unit="capture", on_error=failed_chunk)
     return pd.DataFrame(rows)
