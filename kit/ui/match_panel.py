@@ -18,7 +18,7 @@ import numpy as np
 from kit import match as km
 from kit import views as kv
 from kit.match.circuit import UNITS, eng
-from kit.ui.common import FigureHost, MessageBar, classed, show
+from kit.ui.common import FigureHost, MessageBar, classed, show, span_hz
 
 #: (label, key) of the designs offered.
 DESIGNS: tuple[tuple[str, str], ...] = (
@@ -174,8 +174,8 @@ class MatchPanel:
     def update(self) -> None:
         """Design, evaluate and draw with the current controls."""
         self.design = self.rounded = self.response_after = self.limit = self.stress = None
-        f_hz = float(self.f_mhz.value) * 1e6
-        f_lo, f_hi = (float(x) * 1e6 for x in self.band_mhz.value)
+        f_hz = float(kv.from_unit(self.f_mhz.value, "MHz"))
+        f_lo, f_hi = span_hz(self.band_mhz)
         q = self.q()
         d = make_design(self.design_kind.value, self.capture, f_hz, f_lo, f_hi,
                         self.r_source_ohm, q)
@@ -226,7 +226,7 @@ class MatchPanel:
         kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
         kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)
         kv.plot_return_loss(ar, ideal.f_hz, ideal.gamma, label="matched (designed)", i=2, ls="--")
-        lo, hi = (float(x) * 1e6 for x in self.band_mhz.value)
+        lo, hi = span_hz(self.band_mhz)
         ar.axvspan(lo, hi, color="#dfe8e6", alpha=0.6, zorder=0)
         ar.axhline(float(self.rl_db.value), color="#8c8c8c", lw=0.8, ls=":")
         finite = np.concatenate([x[np.isfinite(x)] for x in

@@ -34,14 +34,14 @@ def color(i: int) -> str:
     return PALETTE[i % len(PALETTE)]
 
 
-def _prefix_factor(unit: str) -> float:
-    """Factor from the SI unit to ``unit`` (1 when ``unit`` has no prefix), e.g. 1e3 for "mS"."""
+def _prefix_exp(unit: str) -> int:
+    """Power of ten of the prefix of ``unit`` (0 without a prefix), e.g. -3 for "mS"."""
     bases = {u for _, u in SUFFIXES}
     if unit in bases:
-        return 1.0
+        return 0
     for exp, p in PREFIXES.items():
         if p and unit.startswith(p) and unit[len(p):] in bases:
-            return 10.0 ** -exp
+            return exp
     raise ValueError(f"unknown display unit {unit!r}: an SI prefix and one of "
                      f"{', '.join(sorted(bases))}")
 
@@ -57,8 +57,7 @@ def to_unit(values, unit: str):
     .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
        prefixes).
     """
-    factor = _prefix_factor(unit)
-    return values * factor if np.isscalar(values) else np.asarray(values) * factor
+    return _scale(values, -_prefix_exp(unit))
 
 
 def from_unit(values, unit: str):
@@ -66,8 +65,13 @@ def from_unit(values, unit: str):
 
     The inverse of :func:`to_unit` (same prefixes, BIPM SI brochure Table 7).
     """
-    factor = _prefix_factor(unit)
-    return values / factor if np.isscalar(values) else np.asarray(values) / factor
+    return _scale(values, _prefix_exp(unit))
+
+
+def _scale(values, exp: int):
+    """values * 10**exp, multiplying or dividing by an exact power of ten."""
+    v = values if np.isscalar(values) else np.asarray(values)
+    return v * 10.0 ** exp if exp >= 0 else v / 10.0 ** -exp
 
 
 def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:
