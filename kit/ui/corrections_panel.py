@@ -116,7 +116,6 @@ class CorrectionsPanel:
         self.chain = None
         self.raw = self.corrected = None
         self.residual = None
-        self.updates = 0
 
         controls = [self.dut, self.check, self.check_ohms, self.compensation, self.open,
                     self.short, self.load, self.load_ohms, self.use_cable, self.cable_length_m,
@@ -186,7 +185,6 @@ class CorrectionsPanel:
     def _redraw(self) -> None:
         import kit
 
-        self.updates += 1
         self.chain = None
         self.corrected = self.residual = None
         self.residual_text.value = ""

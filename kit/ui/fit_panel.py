@@ -16,9 +16,12 @@ import os
 from typing import Any
 
 from kit import views as kv
+from kit.network.immittance import METHODS
+from kit.resonators.registry import MODEL_NAMES
 from kit.ui.common import FigureHost, MessageBar, classed, reset_span, set_span_hz, show, span_hz, span_slider
 
-MODEL_CHOICES = ("bvd", "bvd-loss", "multi", "plate", "bar", "inductor", "capacitor")
+#: Models offered: all of the fit registry's.
+MODEL_CHOICES = MODEL_NAMES
 
 
 def _items(captures) -> list[tuple[str, Any]]:
@@ -89,8 +92,7 @@ class FitPanel:
                                         description="model"), "fit-model")
         self.modes = classed(w.BoundedIntText(value=modes, min=1, max=8, description="modes",
                                               layout=w.Layout(width="160px")), "fit-modes")
-        self.method = classed(w.Dropdown(options=["reflection", "series-through",
-                                                  "shunt-through"], value=method,
+        self.method = classed(w.Dropdown(options=list(METHODS), value=method,
                                          description="method"), "fit-method")
         self.weighting = classed(w.Dropdown(options=["relative", "reflection", "uniform"],
                                             value="relative", description="weighting"),

@@ -7,6 +7,7 @@ markers table can be copied (a CSV text box) or written to a CSV file.
 
 from __future__ import annotations
 
+import html
 from pathlib import Path
 from typing import Any
 
@@ -120,8 +121,6 @@ class MarkerPanel:
             self.csv_text.value = ""
             return
         text = kv.readout_text(self.readouts[-1])
-        import html
-
         self.readout.value = ('<pre class="sb-readout-text" style="font-size:12px;margin:0 12px 0 0">'
                               + html.escape(text) + "</pre>")
         tab = self.table()

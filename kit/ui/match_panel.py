@@ -219,9 +219,9 @@ class MatchPanel:
         ar.clear()
         kv.smith_grid(ax, self.r_source_ohm)
         before, after = self.response_before, self.response_after
-        kv.plot_smith(ax, before.gamma, before.f_hz, label="element alone", i=0)
-        kv.plot_smith(ax, after.gamma, after.f_hz, label="matched (bought values)", i=1)
-        kv.plot_smith(ax, ideal.gamma, ideal.f_hz, label="matched (designed)", i=2, ls="--")
+        kv.plot_smith(ax, before.gamma, label="element alone", i=0)
+        kv.plot_smith(ax, after.gamma, label="matched (bought values)", i=1)
+        kv.plot_smith(ax, ideal.gamma, label="matched (designed)", i=2, ls="--")
         ax.set_title("reflection, same colours as the right", fontsize=8)
         kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
         kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)

@@ -21,6 +21,7 @@ import html
 from pathlib import Path
 from typing import Any
 
+from kit.resonators.registry import MODEL_NAMES
 from kit.ui.common import MessageBar, classed, guess, section, show, touchstone_names
 from kit.views.data import from_unit, to_unit
 
@@ -28,7 +29,7 @@ NONE = "(none)"
 NO_FIT = "(no fit)"
 COMPENSATIONS = ("off", "open/short/load", "open/short")
 #: Fit models offered (those of kit.fit that take a one-port resonator capture).
-FIT_MODELS = (NO_FIT, "bvd", "bvd-loss", "multi", "plate", "bar", "inductor", "capacitor")
+FIT_MODELS = (NO_FIT, *MODEL_NAMES)
 #: Summary quantities with a min/max row in the panel: (column, label with unit).
 LIMIT_QUANTITIES = (
     ("fs_hz", "fs [Hz]"),

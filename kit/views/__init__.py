@@ -35,7 +35,17 @@ from typing import Any, Iterable
 import numpy as np
 
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
-from kit.views.data import CHARTS, PALETTE, Trace, color, from_unit, group_delay_s, to_unit, trace
+from kit.views.data import (
+    CHARTS,
+    PALETTE,
+    Trace,
+    color,
+    from_unit,
+    group_delay_s,
+    reciprocal,
+    to_unit,
+    trace,
+)
 from kit.views.decimate import columns_of, minmax_indices, window
 from kit.views.markers import (
     MARKER_KINDS,
@@ -230,10 +240,7 @@ def plot_r_x(ax, f_hz, z, label: str | None = None, columns: int | None = None, 
 def plot_g_b(ax, f_hz, y, label: str | None = None, columns: int | None = None, span_hz=None,
              **kw) -> list[Any]:
     """Conductance G and susceptance B [mS] against frequency on one axes."""
-    y = np.asarray(y, complex)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        z = np.where(y == 0, np.nan + 0j, 1.0 / np.where(y == 0, 1.0, y))
-    t = _arr_trace(f_hz, z=z, label=label or "Y")
+    t = _arr_trace(f_hz, z=reciprocal(y), label=label or "Y")
     return _pair(ax, t, ("g", "b"), ("G", "B"), "G, B [mS]", label, columns, span_hz, **kw)
 
 

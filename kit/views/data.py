@@ -95,6 +95,18 @@ def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:
     return -np.gradient(phi, 2.0 * np.pi * f)
 
 
+def reciprocal(x) -> np.ndarray:
+    """1/x elementwise, NaN where x is 0 (Y = 1/Z and back; no warning) [1/unit of x].
+
+    References
+    ----------
+    .. [1] Y = 1/Z by definition of admittance (common practice, no source).
+    """
+    x = np.asarray(x, dtype=complex)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(x == 0, np.nan + 0j, 1.0 / np.where(x == 0, 1.0, x))
+
+
 @dataclass(frozen=True, eq=False)
 class Trace:
     """One curve to draw: a device's impedance and reflection over frequency.
@@ -127,8 +139,7 @@ class Trace:
     @property
     def y(self) -> np.ndarray:
         """Admittance [S] (NaN where Z is 0)."""
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return np.where(self.z == 0, np.nan + 0j, 1.0 / np.where(self.z == 0, 1.0, self.z))
+        return reciprocal(self.z)
 
     @property
     def points(self) -> int:

@@ -97,12 +97,12 @@ def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
     return arts
 
 
-def _gamma_of(obj, f_hz=None):
-    """(gamma, f_hz, label) from a bare array or anything :func:`trace` accepts."""
+def _gamma_of(obj):
+    """(gamma, label) from a bare array or anything :func:`trace` accepts."""
     if isinstance(obj, (np.ndarray, list)):
-        return np.asarray(obj, dtype=complex), f_hz, None
+        return np.asarray(obj, dtype=complex), None
     t = trace(obj)
-    return t.gamma, t.f_hz, t.label
+    return t.gamma, t.label
 
 
 def smith_xy(gamma: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
@@ -112,7 +112,7 @@ def smith_xy(gamma: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
     return g.real[idx].copy(), g.imag[idx].copy()
 
 
-def plot_smith(ax, gamma_or_capture, f_hz=None, label: str | None = None, i: int = 0,
+def plot_smith(ax, gamma_or_capture, label: str | None = None, i: int = 0,
                columns: int | None = None, **kw) -> list[Any]:
     """Draw a reflection-coefficient trace on a Smith chart (draw the grid first).
 
@@ -121,8 +121,6 @@ def plot_smith(ax, gamma_or_capture, f_hz=None, label: str | None = None, i: int
     ax : matplotlib.axes.Axes
     gamma_or_capture : array of complex, Trace, Capture or skrf.Network
         Gamma [1], or anything :func:`kit.views.data.trace` accepts.
-    f_hz : array_like, optional
-        Frequencies [Hz] of a bare Gamma array (unused for drawing; kept for symmetry).
     label : str, optional
         Legend text.
     i : int
@@ -134,7 +132,7 @@ def plot_smith(ax, gamma_or_capture, f_hz=None, label: str | None = None, i: int
     -------
     list of matplotlib.lines.Line2D
     """
-    g, _, name = _gamma_of(gamma_or_capture, f_hz)
+    g, name = _gamma_of(gamma_or_capture)
     cols = columns or columns_of(ax)
     x, y = smith_xy(g, cols)
     kw.setdefault("color", color(i))
@@ -150,7 +148,7 @@ def plot_polar(ax, gamma_or_capture, label: str | None = None, i: int = 0,
     -------
     list of matplotlib.lines.Line2D
     """
-    g, _, name = _gamma_of(gamma_or_capture)
+    g, name = _gamma_of(gamma_or_capture)
     kw.setdefault("color", color(i))
     arts = ax.plot(*_polar(*smith_xy(g, columns or columns_of(ax))), label=label or name, **kw)
     ax.set_rlim(0, max(1.0, float(np.nanmax(np.abs(g))) if g.size else 1.0))
