@@ -510,9 +510,6 @@ def procedure_panel(source: Any = None, display: bool = True, standards: Any = N
     return panel
 
 
-procedure_panel.from_panels = ProcedurePanel.from_panels  # type: ignore[attr-defined]
-
-
 def for_workbench(wb) -> ProcedurePanel:
     """The procedure panel as a workbench section: runs on the workbench's lot folder and
     picks standards where the corrections panel does."""
