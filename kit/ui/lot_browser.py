@@ -15,8 +15,6 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Callable
 
-import numpy as np
-
 from kit import views as kv
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
 from kit.units import eng
@@ -264,8 +262,7 @@ class LotBrowser:
             self.ax_plane.relim()
             self.ax_plane.autoscale_view()
         if self.plane.value == "polar" and self.traces:
-            rmax = max(float(np.nanmax(ln.get_ydata(), initial=1.0)) for ln in self.lines_plane)
-            self._polar_ax.set_rlim(0, max(1.0, rmax))
+            kv.fit_polar_radius(self._polar_ax, *(ln.get_ydata() for ln in self.lines_plane))
         leg = self.ax_rect.get_legend()
         if leg is not None:
             leg.remove()

@@ -18,7 +18,7 @@ import numpy as np
 from kit import match as km
 from kit import views as kv
 from kit.match.circuit import UNITS, eng
-from kit.ui.common import FigureHost, MessageBar, classed, show, span_hz
+from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
 
 #: (label, key) of the designs offered.
 DESIGNS: tuple[tuple[str, str], ...] = (
@@ -121,14 +121,12 @@ class MatchPanel:
         self.design_kind = classed(w.Dropdown(options=list(DESIGNS), value="tuned-shunt",
                                               description="design",
                                               layout=w.Layout(width="330px")), "match-design")
-        self.f_mhz = classed(w.BoundedFloatText(value=f_hz / 1e6, min=f[0] / 1e6, max=f[-1] / 1e6,
-                                                step=0.0001, description="at [MHz]",
-                                                layout=w.Layout(width="200px")), "match-freq")
-        self.band_mhz = classed(w.FloatRangeSlider(
-            value=(lo / 1e6, hi / 1e6), min=f[0] / 1e6, max=f[-1] / 1e6,
-            step=max((f[-1] - f[0]) / 1e6 / 1000, 1e-9), description="band [MHz]",
-            continuous_update=False, readout_format=".4f", style={"description_width": "initial"},
-            layout=w.Layout(width="520px")), "span")
+        self.f_mhz = classed(w.BoundedFloatText(
+            value=kv.to_unit(f_hz, "MHz"), min=kv.to_unit(f[0], "MHz"),
+            max=kv.to_unit(f[-1], "MHz"), step=0.0001, description="at [MHz]",
+            layout=w.Layout(width="200px")), "match-freq")
+        self.band_mhz = span_slider(f[0], f[-1], "band [MHz]")
+        set_span_hz(self.band_mhz, lo, hi)
         self.series = classed(w.Dropdown(options=["E12", "E24"], value="E24",
                                          description="values", layout=w.Layout(width="170px")),
                               "match-series")
@@ -226,13 +224,8 @@ class MatchPanel:
         kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
         kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)
         kv.plot_return_loss(ar, ideal.f_hz, ideal.gamma, label="matched (designed)", i=2, ls="--")
-        lo, hi = span_hz(self.band_mhz)
-        ar.axvspan(lo, hi, color="#dfe8e6", alpha=0.6, zorder=0)
-        ar.axhline(float(self.rl_db.value), color="#8c8c8c", lw=0.8, ls=":")
-        finite = np.concatenate([x[np.isfinite(x)] for x in
-                                 (before.return_loss_db, after.return_loss_db)])
-        top = float(np.max(finite)) if finite.size else 30.0
-        ar.set_ylim(0.0, min(max(top + 3.0, float(self.rl_db.value) + 5.0), 60.0))
+        kv.frame_return_loss(ar, float(self.rl_db.value), span_hz(self.band_mhz),
+                             before.return_loss_db, after.return_loss_db)
         ar.legend(loc="upper right", fontsize=7)
         self.host.refresh()
 

@@ -59,6 +59,7 @@ from kit.views.markers import (
     write_markers_csv,
 )
 from kit.views.smith import (
+    fit_polar_radius,
     plane_point,
     plane_xy,
     plot_admittance_circle,
@@ -70,14 +71,14 @@ from kit.views.smith import (
 )
 
 __all__ = [
-    "CHARTS", "MARKER_KINDS", "PALETTE", "Trace", "color", "columns_of", "db20", "draw_marker",
-    "draw_readout", "find_marker", "frequency_axis", "from_unit", "gamma_from_z",
-    "group_delay_s", "marker_readout", "markers_table", "overlay", "plane_point", "plane_xy",
-    "plot_admittance_circle", "plot_chart", "plot_fit", "plot_g_b", "plot_group_delay",
-    "plot_limits", "plot_polar", "plot_r_x", "plot_return_loss", "plot_s_db", "plot_smith",
-    "plot_vswr", "plot_z_mag_phase", "readout_text", "return_loss_db", "smith_grid",
-    "smith_xy", "style_admittance_circle", "style_chart", "to_unit", "trace", "update_line",
-    "vswr", "write_markers_csv", "xy_for_display",
+    "CHARTS", "color", "columns_of", "db20", "draw_marker", "draw_readout", "find_marker",
+    "fit_polar_radius", "frame_return_loss", "frequency_axis", "from_unit", "gamma_from_z",
+    "group_delay_s", "MARKER_KINDS", "marker_readout", "markers_table", "overlay", "PALETTE",
+    "plane_point", "plane_xy", "plot_admittance_circle", "plot_chart", "plot_fit", "plot_g_b",
+    "plot_group_delay", "plot_limits", "plot_polar", "plot_r_x", "plot_return_loss", "plot_s_db",
+    "plot_smith", "plot_vswr", "plot_z_mag_phase", "readout_text", "return_loss_db", "smith_grid",
+    "smith_xy", "style_admittance_circle", "style_chart", "to_unit", "trace", "Trace",
+    "update_line", "vswr", "write_markers_csv", "xy_for_display",
 ]
 
 
@@ -256,6 +257,38 @@ def plot_return_loss(ax, f_hz, gamma, label: str | None = None, i: int = 0,
     """Return loss [dB] (positive) against frequency."""
     t = _arr_trace(f_hz, gamma=gamma, label=label or "Γ")
     return plot_chart(ax, t, "return_loss", i, label, columns, span_hz, **kw)
+
+
+def frame_return_loss(ax, level_db: float, band_hz=None, *curves_db, ceiling_db: float = 60.0,
+                      default_db: float = 30.0) -> list[Any]:
+    """Frame a return-loss chart: the band shaded, a level line, a y range that shows both.
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+        A chart drawn by :func:`plot_return_loss`.
+    level_db : float
+        Return-loss level drawn as a dotted line [dB].
+    band_hz : (float, float), optional
+        Frequency band shaded [Hz].
+    *curves_db : array_like
+        Return losses drawn [dB]; the y range reaches 3 dB above the best finite one and
+        5 dB above the level, from 0 to at most ``ceiling_db`` (``default_db`` when no
+        value is finite).
+
+    Returns
+    -------
+    list of matplotlib artists
+    """
+    arts: list[Any] = []
+    if band_hz is not None:
+        arts.append(ax.axvspan(*band_hz, color="#dfe8e6", alpha=0.6, zorder=0))
+    arts.append(ax.axhline(level_db, color="#8c8c8c", lw=0.8, ls=":"))
+    finite = [np.asarray(c, float)[np.isfinite(c)] for c in curves_db]
+    finite = np.concatenate(finite) if finite else np.array([])
+    top = float(np.max(finite)) if finite.size else default_db
+    ax.set_ylim(0.0, min(max(top + 3.0, level_db + 5.0), ceiling_db))
+    return arts
 
 
 def plot_vswr(ax, f_hz, gamma, label: str | None = None, i: int = 0, columns: int | None = None,

@@ -151,9 +151,15 @@ def plot_polar(ax, gamma_or_capture, label: str | None = None, i: int = 0,
     g, name = _gamma_of(gamma_or_capture)
     kw.setdefault("color", color(i))
     arts = ax.plot(*_polar(*smith_xy(g, columns or columns_of(ax))), label=label or name, **kw)
-    ax.set_rlim(0, max(1.0, float(np.nanmax(np.abs(g))) if g.size else 1.0))
+    fit_polar_radius(ax, np.abs(g))
     ax.set_title("reflection coefficient, |Γ| [1] against angle [°]", fontsize=9)
     return arts
+
+
+def fit_polar_radius(ax, *radii) -> None:
+    """Radius range of a polar axes: 0 to the largest finite radius given, at least 1 (|Γ| = 1)."""
+    top = [float(np.nanmax(r, initial=1.0)) for r in map(np.asarray, radii) if r.size]
+    ax.set_rlim(0, max([1.0, *top]))
 
 
 def plot_admittance_circle(ax, y_or_capture, f_hz=None, span_hz=None, label: str | None = None,
