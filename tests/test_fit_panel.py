@@ -25,7 +25,8 @@ def _pair(seed, c0=1e-9):
 
 @pytest.fixture
 def panel():
-    p = fit_panel({"disc <1>": _pair(1), "disc 2": _pair(2, 1.2e-9)}, display=False)
+    p = fit_panel({"disc <1>": _pair(1), "disc 2": _pair(2, 1.2e-9)}, display=False,
+                  interactive=False)
     yield p
     import matplotlib.pyplot as plt
 
@@ -58,16 +59,17 @@ def test_panel_controls_refit(panel):
 
 
 def test_panel_failed_fit_and_callback_error(panel):
-    """A fit that cannot start shows its reason; a callback error lands in the output widget."""
+    """A fit that cannot start shows its reason; a callback error lands in the message bar."""
     panel.set_span(1.3e6, 1.5e6)  # no resonance inside: the fit says so, nothing raises
     assert not panel.result.ok and "NOT ok" in panel.table.value
     bad = fit_panel({"missing": "/nonexistent/file.s1p"}, display=False)
-    assert bad.errors and "not found" in bad.errors[-1]
-    assert len(bad.output.outputs) == 1 and "not found" in str(bad.output.outputs[0])
+    assert bad.message.kind == "error" and "not found" in bad.message.last
+    assert "Error:" not in bad.message.last  # plain message, no Python class name
+    assert "not found" in bad.message.widget.value
 
 
 def test_panel_method_error_is_shown_not_raised():
-    """Asking series-through of a one-port capture shows the CaptureError in the output."""
+    """Asking series-through of a one-port capture shows the CaptureError in the message bar."""
     import skrf
 
     import kit
@@ -78,5 +80,24 @@ def test_panel_method_error_is_shown_not_raised():
     p = fit_panel([kit.from_network(ntwk, {})], display=False)
     assert p.result.ok
     p.method.value = "series-through"
-    assert p.errors and "two-port" in p.errors[-1]
-    assert "two-port" in str(p.output.outputs[0])
+    assert p.message.kind == "error" and "two-port" in p.message.last
+    assert not p.message.last.startswith("CaptureError")
+
+
+def test_panel_fits_with_the_capture_reference():
+    """A 75 ohm capture is fitted in its own reference: C0 = 1 nF found (IEEE 176 BVD fixture A)."""
+    import skrf
+
+    import kit
+
+    f, z = _pair(4)
+    ntwk = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="Hz"),
+                        s=((z - 75) / (z + 75)).reshape(-1, 1, 1), z0=75, name="ref75")
+    p = fit_panel([kit.from_network(ntwk, {})], display=False)
+    assert p.result.ok and p.result.params["C0"] == pytest.approx(1e-9, rel=1e-3)
+    p.weighting.value = "reflection"  # the weighting that uses the reference impedance
+    assert p.result.ok and p.result.params["C0"] == pytest.approx(1e-9, rel=1e-3)
+    own = kit.fit(p._data(0)[1], weighting="reflection", span_hz=p.result.span_hz)
+    at50 = kit.fit(p._data(0)[1], weighting="reflection", span_hz=p.result.span_hz, z0_ohm=50)
+    assert p.result.params["L1"] == pytest.approx(own.params["L1"], rel=1e-9)
+    assert p.result.params["L1"] != pytest.approx(at50.params["L1"], rel=1e-6)  # 50 ohm differs

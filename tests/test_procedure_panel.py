@@ -196,7 +196,7 @@ def test_from_panels_takes_the_corrections_and_fit_settings(demo_dir, small_lot)
     corr = corrections_panel(demo_dir, display=False, interactive=False)
     fitp = fit_panel([kit.load(small_lot / "pzd7-01.s1p")], display=False)
     fitp.set_span(1.7e6, 2.2e6)
-    p = procedure_panel.from_panels(corrections=corr, fit=fitp, source=small_lot,
+    p = ProcedurePanel.from_panels(corrections=corr, fit=fitp, source=small_lot,
                                     use_cache=False)
     assert isinstance(p, ProcedurePanel)
     proc = p.procedure()

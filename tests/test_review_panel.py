@@ -53,7 +53,7 @@ def test_buttons_append_verdicts_and_notes(tmp_path):
     assert list(ev["kind"]) == ["note", "verdict", "verdict", "tag"]
     assert list(ev["capture"]) == ["d1", "d1", "d2", "d2"]
     assert ev.loc[1, "value"] == "accept" and ev.loc[1, "text"] == "fs in band"
-    assert set(ev["author"]) == {"n.sato"} and p.errors == []
+    assert set(ev["author"]) == {"n.sato"} and p.message.kind != "error"
     assert "retest" in p.state.value and "chipped" in p.state.value
     p.select(0)
     assert "accept" in p.state.value and "resonance sharp" in p.history.value
@@ -72,14 +72,14 @@ def test_history_is_escaped(tmp_path):
     assert evil in "".join(parser.text)
 
 
-def test_errors_go_to_output_not_raised(tmp_path):
-    """An empty note is refused with a message in the Output widget; nothing is written."""
+def test_errors_go_to_the_message_bar_not_raised(tmp_path):
+    """An empty note is refused with a plain message in the message bar; nothing is written."""
     log = ReviewLog(tmp_path / "r.sqlite")
     p = review_panel(_caps(), log, display=False)
     p.add_note.click()
     assert len(log) == 0
-    assert p.errors and "empty" in p.errors[0]
-    assert any("empty" in o.get("text", "") for o in p.output.outputs)
+    assert p.message.kind == "error" and "empty" in p.message.last
+    assert not p.message.last.startswith("ValueError")
 
 
 def test_refresh_shows_other_reviewers(tmp_path):

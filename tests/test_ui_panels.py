@@ -32,8 +32,10 @@ def test_message_bar_turns_errors_into_escaped_messages():
         raise ValueError("bad <file> & worse")
 
     assert boom() is None
-    assert bar.kind == "error" and "bad <file> & worse" in bar.last
+    assert bar.kind == "error" and bar.last == "bad <file> & worse"  # no "ValueError: "
     assert "&lt;file&gt; &amp; worse" in bar.widget.value
+    assert bar.guard(lambda: {}["fs_hz"])() is None and bar.last == "fs_hz"
+    assert bar.guard(lambda: 1 / 0)() is None and bar.last == "division by zero"
 
 
 def test_message_bar_reports_warnings_as_notes():

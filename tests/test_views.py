@@ -179,7 +179,7 @@ def test_marker_readout_is_consistent():
     """The readout gives Y = 1/Z, Gamma = (Z-Z0)/(Z+Z0) and VSWR of |Gamma| (methods 0 and 8.3)."""
     t = kv.trace((np.array([1e6, 2e6]), np.array([25 + 0j, 100 + 50j])), label="p")
     r = kv.marker_readout(t, 0, "A")
-    assert r["f_hz"] == 1e6 and r["z_ohm"] == 25 and r["g_s"] == pytest.approx(0.04)
+    assert r["f_hz"] == 1e6 and r["z_ohm"] == 25 and r["g_siemens"] == pytest.approx(0.04)
     assert r["gamma"] == pytest.approx(-1 / 3) and r["vswr"] == pytest.approx(2.0)
     text = kv.readout_text(r)
     for unit in ("MHz", "Ω", "mS", "°", "VSWR"):
@@ -241,3 +241,63 @@ def test_demo_capture_draws(demo_dir):
     kv.smith_grid(a)
     assert kv.plot_smith(a, t)[0].get_label() == "pzd7-01"
     assert kv.plot_chart(b, t, "z_mag")[0].get_label() == "pzd7-01"
+
+
+def test_display_units_follow_the_si_prefixes():
+    """mS, MHz, ns and ps scale by 1e3, 1e-6, 1e9 and 1e12 (BIPM SI brochure, 9th ed., Table 7)."""
+    assert kv.to_unit(2e-3, "mS") == pytest.approx(2.0)
+    assert kv.to_unit(3.2e-9, "ns") == pytest.approx(3.2)
+    assert np.allclose(kv.to_unit([1.5e6, 2e6], "MHz"), [1.5, 2.0])
+    assert kv.from_unit(1.5, "MHz") == pytest.approx(1.5e6)
+    assert kv.from_unit(12.0, "ps") == pytest.approx(12e-12)
+    assert kv.to_unit(7.0, "Hz") == 7.0
+    with pytest.raises(ValueError, match="unit"):
+        kv.to_unit(1.0, "Mhz")
+
+
+def test_trace_keeps_the_capture_reference():
+    """A 75 ohm capture: Z from Gamma in 75 ohm (Z = Z0 (1+G)/(1-G), Pozar from memory), Gamma = S11."""
+    rf = pytest.importorskip("skrf")
+    import kit
+
+    freq = rf.Frequency(1, 2, 5, unit="MHz")
+    ntwk = rf.media.DefinedGammaZ0(freq, z0=75).resistor(30) ** \
+        rf.media.DefinedGammaZ0(freq, z0=75).short()
+    t = kv.trace(kit.from_network(ntwk))
+    assert t.z0_ohm == 75.0 and np.allclose(t.z, 30.0) and np.allclose(t.gamma, ntwk.s[:, 0, 0])
+    t50 = kv.trace(kit.from_network(ntwk), z0_ohm=50.0)
+    assert np.allclose(t50.gamma, (30 - 50) / (30 + 50))
+
+
+def test_plot_fit_draws_the_registry_model():
+    """The fit overlay draws the BVD model of the fitted parameters (registry model z(f, params))."""
+    import kit
+    from kit.resonators.registry import get_model
+
+    f, z, fs = _bvd(n=2001)
+    res = kit.fit((f, z), model="bvd", span_hz=(f[0], f[-1]))
+    fig = Figure()
+    ax_m, ax_p, ax_c = fig.subplots(1, 3)
+    arts = kv.plot_fit(res, ax_m, ax_p, ax_c)
+    assert len(arts) == 3
+    x, y = arts[0].get_data()
+    expected = np.abs(get_model("bvd").z(np.asarray(x), res.params))
+    assert np.allclose(y, expected, rtol=1e-9)
+    gx, gb = arts[2].get_data()
+    ym = 1 / get_model("bvd").z(np.asarray(x), res.params)
+    assert np.nanmax(gx) == pytest.approx(1e3 * np.max(ym.real), rel=1e-3)  # G in mS
+    failed = kit.fit((f[:5], z[:5]), model="bvd")
+    assert not failed.ok and kv.plot_fit(failed, ax_m) == []
+
+
+def test_plane_coordinates_of_trace_and_marker_agree():
+    """A marker's plane point lies on the trace's plane curve (Gamma, polar, G/B in mS)."""
+    f, z, fs = _bvd(n=401)
+    t = kv.trace((f, z), label="bvd")
+    r = kv.marker_readout(t, 200)
+    for kind in ("smith:z", "polar", "circle"):
+        x, y = kv.plane_xy(t, kind, columns=10_000)
+        px, py = kv.plane_point(r, kind)
+        assert np.min(np.hypot(x - px, y - py)) < 1e-9, kind
+    with pytest.raises(ValueError, match="plane"):
+        kv.plane_xy(t, "bode", 100)

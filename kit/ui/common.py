@@ -21,9 +21,9 @@ import io
 import warnings
 from typing import Any, Callable
 
-#: Our panel look: header colour, accent, message colours.
-HEADER_BG = "#23414a"
-ACCENT = "#1f6f78"
+from kit.views.data import from_unit, to_unit
+
+#: Message colours (error, note).
 ERROR_FG = "#8c1d18"
 NOTE_FG = "#5b4a14"
 
@@ -152,7 +152,7 @@ class MessageBar:
                     warnings.simplefilter("always")
                     out = fn(*args, **kwargs)
             except Exception as exc:  # noqa: BLE001 - shown to the user instead
-                self.show(f"{type(exc).__name__}: {exc}", "error")
+                self.show(plain_error(exc), "error")
                 return None
             notes = [str(c.message) for c in caught
                      if not issubclass(c.category, (DeprecationWarning, PendingDeprecationWarning))]
@@ -163,16 +163,76 @@ class MessageBar:
         return wrapper
 
 
+def plain_error(exc: BaseException) -> str:
+    """The text a panel shows for an exception: its message, without the Python class name.
+
+    An exception without a message is described as an unexpected failure of its kind, so
+    that the user still learns something.
+    """
+    text = str(exc.args[0] if isinstance(exc, KeyError) and exc.args else exc).strip()
+    return text or f"the action failed unexpectedly ({type(exc).__name__} without a message)"
+
+
 def span_slider(lo_hz: float, hi_hz: float, description: str = "span [MHz]"):
-    """A frequency range slider in MHz that reports only when released."""
+    """A frequency range slider in MHz that reports only when released (:func:`span_hz`)."""
     import ipywidgets as w
 
-    lo, hi = lo_hz / 1e6, hi_hz / 1e6
-    step = max((hi - lo) / 1000.0, 1e-9)
+    lo, hi = to_unit(lo_hz, "MHz"), to_unit(hi_hz, "MHz")
+    step = _step(lo, hi)
     return classed(w.FloatRangeSlider(
         value=(lo, hi), min=lo, max=hi, step=step, description=description,
         continuous_update=False, readout_format=".4f",
         style={"description_width": "initial"}, layout=w.Layout(width="520px")), "span")
+
+
+def span_hz(slider) -> tuple[float, float]:
+    """The (low, high) frequencies [Hz] of a span slider, which shows MHz."""
+    lo, hi = slider.value
+    return float(from_unit(lo, "MHz")), float(from_unit(hi, "MHz"))
+
+
+def set_span_hz(slider, lo_hz: float, hi_hz: float) -> None:
+    """Move a span slider to (lo_hz, hi_hz) [Hz], clipped to its range."""
+    lo, hi = sorted((to_unit(lo_hz, "MHz"), to_unit(hi_hz, "MHz")))
+    slider.value = (max(lo, slider.min), min(hi, slider.max))
+
+
+def reset_span(slider, lo_hz: float, hi_hz: float) -> None:
+    """Give a span slider a new range (lo_hz, hi_hz) [Hz] and select all of it."""
+    lo, hi = to_unit(lo_hz, "MHz"), to_unit(hi_hz, "MHz")
+    slider.min, slider.max = -1e12, 1e12  # so that no intermediate state is clipped
+    slider.value = (lo, hi)
+    slider.min, slider.max = lo, hi
+    slider.step = _step(lo, hi)
+
+
+def _step(lo: float, hi: float) -> float:
+    return max((hi - lo) / 1000.0, 1e-9)
+
+
+def touchstone_names(folder) -> dict[str, Any]:
+    """Touchstone files under ``folder`` (with sub-folders) by their path relative to it.
+
+    An absent folder gives an empty dict. The files are found by
+    :func:`kit.io.folder.touchstone_files`.
+    """
+    from pathlib import Path
+
+    from kit.io.folder import touchstone_files
+
+    if folder is None or not Path(folder).is_dir():
+        return {}
+    root = Path(folder)
+    return {str(p.relative_to(root)): p.resolve() for p in touchstone_files(root, recursive=True)}
+
+
+def guess(names: list[str], word: str, none: str = "(none)") -> str:
+    """The name whose file stem is ``word``, else the first containing it, else ``none``."""
+    from pathlib import Path
+
+    stems = [(n, Path(n).stem.lower()) for n in names]
+    hits = [n for n, s in stems if s == word] or [n for n, s in stems if word in s]
+    return hits[0] if hits else none
 
 
 def section(title: str, body, css: str, open_: bool = True):

@@ -10,15 +10,18 @@ describe what is left between the new reference plane and the device.
 
 from __future__ import annotations
 
+import warnings
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
-from kit.ui.common import FigureHost, MessageBar, classed, section, show
+from kit import views as kv
+from kit.network.coerce import reference_ohm
+from kit.network.immittance import SingularPointsWarning
+from kit.ui.common import FigureHost, MessageBar, classed, guess, section, show, touchstone_names
+from kit.units import eng
+from kit.views.data import from_unit
 
 NONE = "(none)"
-_TOUCHSTONE = (".s1p", ".s2p", ".ts")
 
 
 def _scan(source: Any) -> dict[str, Any]:
@@ -26,11 +29,9 @@ def _scan(source: Any) -> dict[str, Any]:
     from kit.capture import Capture
 
     if isinstance(source, (str, Path)):
-        root = Path(source)
-        if not root.is_dir():
-            raise FileNotFoundError(f"{root}: not a folder of Touchstone files")
-        files = sorted(p for p in root.rglob("*") if p.suffix.lower() in _TOUCHSTONE)
-        return {str(p.relative_to(root)): p for p in files}
+        if not Path(source).is_dir():
+            raise FileNotFoundError(f"{source}: not a folder of Touchstone files")
+        return touchstone_names(source)
     if isinstance(source, dict):
         return dict(source)
     out: dict[str, Any] = {}
@@ -45,11 +46,6 @@ def _ports_of(item: Any) -> int:
     if isinstance(item, Path):
         return 2 if item.suffix.lower() == ".s2p" else 1
     return int(item.ports)
-
-
-def _guess(names: list[str], word: str) -> str:
-    hits = [n for n in names if word in Path(n).stem.lower()]
-    return hits[0] if hits else NONE
 
 
 class CorrectionsPanel:
@@ -91,15 +87,15 @@ class CorrectionsPanel:
             description=desc, value=val, style={"description_width": "120px"},
             layout=w.Layout(width="230px")), "corr-number")
         self.dut = dd("capture", duts or [NONE], duts[0] if duts else NONE)
-        self.check = dd("check part", [NONE] + one, _guess(one, "check"))
+        self.check = dd("check part", [NONE] + one, guess(one, "check"))
         self.check_ohms = ft("check [ohm]", 100.0)
         self.compensation = classed(w.Dropdown(
             description="standards", options=["off", "open/short/load", "open/short"],
-            value="open/short/load" if _guess(one, "open") != NONE else "off",
+            value="open/short/load" if guess(one, "open") != NONE else "off",
             style={"description_width": "90px"}), "corr-compensation")
-        self.open = dd("open", [NONE] + one, _guess(one, "open"))
-        self.short = dd("short", [NONE] + one, _guess(one, "short"))
-        self.load = dd("load", [NONE] + one, _guess(one, "load"))
+        self.open = dd("open", [NONE] + one, guess(one, "open"))
+        self.short = dd("short", [NONE] + one, guess(one, "short"))
+        self.load = dd("load", [NONE] + one, guess(one, "load"))
         self.load_ohms = ft("load [ohm]", 50.0)
         self.use_cable = classed(w.Checkbox(description="remove cable", value=False), "corr-cable")
         self.cable_length_m = ft("length [m]", 1.5)
@@ -120,7 +116,6 @@ class CorrectionsPanel:
         self.chain = None
         self.raw = self.corrected = None
         self.residual = None
-        self.updates = 0
 
         controls = [self.dut, self.check, self.check_ohms, self.compensation, self.open,
                     self.short, self.load, self.load_ohms, self.use_cable, self.cable_length_m,
@@ -160,14 +155,15 @@ class CorrectionsPanel:
             loss = float(self.cable_loss_db_per_m.value)
             steps.append(kit.cable(self.cable_length_m.value, self.cable_vf.value,
                                    self.cable_z0_ohm.value, loss,
-                                   self.cable_loss_ref_mhz.value * 1e6 if loss else None))
+                                   from_unit(self.cable_loss_ref_mhz.value, "MHz") if loss
+                                   else None))
         if self.use_fixture.value:
             if self.fixture_file.value == NONE:
                 raise ValueError("pick a fixture file (a two-port capture) or switch the "
                                  "fixture off")
             steps.append(kit.fixture(self.capture(self.fixture_file.value)))
         if self.use_extension.value:
-            steps.append(kit.port_extension(self.delay_ps.value * 1e-12))
+            steps.append(kit.port_extension(from_unit(self.delay_ps.value, "ps")))
         mode = self.compensation.value
         if mode != "off":
             keys = ("open", "short", "load") if mode == "open/short/load" else ("open", "short")
@@ -189,7 +185,6 @@ class CorrectionsPanel:
     def _redraw(self) -> None:
         import kit
 
-        self.updates += 1
         self.chain = None
         self.corrected = self.residual = None
         self.residual_text.value = ""
@@ -210,29 +205,29 @@ class CorrectionsPanel:
             self.residual = kit.residual(chk_c, self.check_ohms.value)
             self.residual_text.value = (
                 f"check part {self.check.value}: worst |Z &minus; Z<sub>exp</sub>|/|Z<sub>exp"
-                f"</sub>| = {self.residual.worst_rel:.3g} at {self.residual.f_hz / 1e6:.6g} MHz "
+                f"</sub>| = {self.residual.worst_rel:.3g} at {eng(self.residual.f_hz, 'Hz', 6)} "
                 f"(median {self.residual.median_rel:.3g})")
         self._draw()
 
     # ------------------------------------------------------------------ drawing
     def _draw(self) -> None:
-        from kit import views as kv
-
         fig = self.host.fig
         fig.clear()
         gs = fig.add_gridspec(2, 2, width_ratios=[1.0, 1.6])
         ax_s = fig.add_subplot(gs[:, 0])
         ax_m = fig.add_subplot(gs[0, 1])
         ax_p = fig.add_subplot(gs[1, 1], sharex=ax_m)
-        z0 = float(np.asarray(self.raw.z0).real.ravel()[0])
-        kv.smith_grid(ax_s, z0_ohm=z0)
+        kv.smith_grid(ax_s, z0_ohm=reference_ohm(self.raw))
         pairs = [(self.raw, "raw", 0)]
         if self.corrected is not self.raw:
             pairs.append((self.corrected, "corrected", 1))
         for cap, label, i in pairs:
-            kv.plot_smith(ax_s, cap.s[:, 0, 0], label=label, i=i)
-            z = kit_impedance(cap)
-            kv.plot_z_mag_phase(ax_m, ax_p, cap.f_hz, z, label=label, i=i)
+            with warnings.catch_warnings():  # an ideal open's Z is NaN: drawn as a gap
+                warnings.simplefilter("ignore", SingularPointsWarning)
+                t = kv.trace(cap, label=label)
+            kv.plot_smith(ax_s, t, i=i)
+            kv.plot_chart(ax_m, t, "z_mag", i=i)
+            kv.plot_chart(ax_p, t, "z_phase", i=i)
         ax_s.legend(loc="upper left", bbox_to_anchor=(-0.02, 1.04), fontsize=8, frameon=False)
         ax_m.legend(loc="best", fontsize=8)
         ax_m.tick_params(labelbottom=False)
@@ -241,14 +236,6 @@ class CorrectionsPanel:
         fig.subplots_adjust(left=0.04, right=0.98, bottom=0.12, top=0.92, wspace=0.25,
                             hspace=0.08)
         self.host.refresh()
-
-
-def kit_impedance(cap) -> np.ndarray:
-    """Reflection impedance [ohm] with ideal-open points as NaN (no warning in the panel)."""
-    from kit.corrections.algebra import z_from_gamma
-
-    z = z_from_gamma(np.asarray(cap.s)[:, 0, 0], np.asarray(cap.z0)[:, 0].real)
-    return np.where(np.isfinite(z), z, np.nan)
 
 
 def corrections_panel(folder_or_captures: Any, display: bool = True,

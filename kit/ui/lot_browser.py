@@ -15,10 +15,9 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Callable
 
-import numpy as np
-
 from kit import views as kv
-from kit.ui.common import FigureHost, MessageBar, classed, show, span_slider
+from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
+from kit.units import eng
 
 PLANE_OPTIONS = [("Smith chart, Z grid", "smith:z"), ("Smith chart, Y grid", "smith:y"),
                  ("Smith chart, Z and Y", "smith:both"), ("polar |Γ|", "polar"),
@@ -160,7 +159,7 @@ class LotBrowser:
         shown = t[cols].copy()
         for c in ("f_start_hz", "f_stop_hz"):
             if c in shown:
-                shown[c] = shown[c].map(lambda v: "" if v != v else kv.si(float(v), "Hz", 6))
+                shown[c] = shown[c].map(lambda v: "" if v != v else eng(float(v), "Hz", 6))
         self.table_html.value = (
             '<div style="max-height:210px;overflow:auto;font-size:12px">'
             + shown.to_html(escape=True, index=False, na_rep="", border=0,
@@ -197,8 +196,7 @@ class LotBrowser:
     # -- drawing -------------------------------------------------------------------------
     def span_hz(self) -> tuple[float, float]:
         """The chosen frequency span [Hz]."""
-        lo, hi = self.span.value
-        return lo * 1e6, hi * 1e6
+        return span_hz(self.span)
 
     def _draw_plane_grid(self) -> None:
         for a in self._grid_artists:
@@ -224,25 +222,10 @@ class LotBrowser:
             ax.set_axis_on()
             ax.set_aspect("auto")
             ax.set_autoscale_on(True)
-            ax.set_xlabel("conductance G [mS]")
-            ax.set_ylabel("susceptance B [mS]")
-            ax.grid(True, color="#e4e0da", lw=0.6)
+            kv.style_admittance_circle(ax)
 
     def _plane_ax(self):
         return self._polar_ax if self.plane.value == "polar" else self.ax_plane
-
-    def _plane_xy(self, t: kv.Trace, span) -> tuple[np.ndarray, np.ndarray]:
-        sl = kv_window(t.f_hz, span)
-        cols = kv.columns_of(self._plane_ax())
-        kind = self.plane.value
-        if kind == "circle":
-            y = t.y[sl]
-            return kv.smith_xy(1e3 * y.real + 1j * 1e3 * y.imag, cols)
-        x, yy = kv.smith_xy(t.gamma[sl], cols)
-        if kind == "polar":
-            g = x + 1j * yy
-            return np.angle(g), np.abs(g)
-        return x, yy
 
     def redraw(self, new_data: bool = False, new_grid: bool = False) -> None:
         """Bring the figure in line with the controls (called by every control)."""
@@ -268,7 +251,8 @@ class LotBrowser:
             if i >= len(self.lines_plane):
                 self.lines_plane += pax.plot([], [], color=kv.color(i), lw=1.4, zorder=3,
                                              label=t.label)
-            self.lines_plane[i].set_data(*self._plane_xy(t, span))
+            self.lines_plane[i].set_data(*kv.plane_xy(t, self.plane.value,
+                                                      kv.columns_of(pax), span))
         kv.style_chart(self.ax_rect, chart)
         self.ax_rect.set_xlim(*span)
         self._empty.set_visible(not self.traces)
@@ -278,8 +262,7 @@ class LotBrowser:
             self.ax_plane.relim()
             self.ax_plane.autoscale_view()
         if self.plane.value == "polar" and self.traces:
-            rmax = max(float(np.nanmax(ln.get_ydata(), initial=1.0)) for ln in self.lines_plane)
-            self._polar_ax.set_rlim(0, max(1.0, rmax))
+            kv.fit_polar_radius(self._polar_ax, *(ln.get_ydata() for ln in self.lines_plane))
         leg = self.ax_rect.get_legend()
         if leg is not None:
             leg.remove()
@@ -304,7 +287,7 @@ class LotBrowser:
         self.host.refresh()
 
     def _show_status(self) -> None:
-        lo, hi = self.span.value
+        lo, hi = self.span.value  # as the slider reads them (MHz)
         n, k = len(self.traces), len(self.markers)
         self.status.value = (
             f'<span style="color:#4d5b5e;font-size:12px">{n} capture{"s" * (n != 1)} · '
@@ -325,15 +308,8 @@ class LotBrowser:
             i = r["index"]
             yv = chart.quantity(t)[i]
             self.marker_artists += kv.draw_marker(self.ax_rect, r["f_hz"], yv, r["marker"])
-            if self.plane.value.startswith("smith"):
-                g = r["gamma"]
-                self.marker_artists += kv.draw_marker(pax, g.real, g.imag, r["marker"])
-            elif self.plane.value == "polar":
-                g = r["gamma"]
-                self.marker_artists += kv.draw_marker(pax, np.angle(g), abs(g), r["marker"])
-            else:
-                y = r["y_s"]
-                self.marker_artists += kv.draw_marker(pax, 1e3 * y.real, 1e3 * y.imag, r["marker"])
+            self.marker_artists += kv.draw_marker(pax, *kv.plane_point(r, self.plane.value),
+                                                  r["marker"])
         if self.markers:
             self.marker_artists.append(kv.draw_readout(self.ax_rect, self.markers[-1]))
 
@@ -343,19 +319,11 @@ class LotBrowser:
 
         def _picked(lo, hi):
             if hi > lo:
-                a, b = self.span.min, self.span.max
-                self.span.value = (max(a, lo / 1e6), min(b, hi / 1e6))
+                set_span_hz(self.span, lo, hi)
 
         self._span_selector = SpanSelector(self.ax_rect, self.message.guard(_picked), "horizontal",
                                            useblit=False, props={"alpha": 0.15,
                                                                  "facecolor": kv.color(0)})
-
-
-def kv_window(f_hz: np.ndarray, span) -> slice:
-    """Slice of the frequency grid inside the span (one point margin)."""
-    from kit.views.decimate import window
-
-    return window(f_hz, *span)
 
 
 def lot_browser(source, pattern: str | None = None, correction: Callable | None = None,

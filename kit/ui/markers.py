@@ -7,6 +7,7 @@ markers table can be copied (a CSV text box) or written to a CSV file.
 
 from __future__ import annotations
 
+import html
 from pathlib import Path
 from typing import Any
 
@@ -88,7 +89,7 @@ class MarkerPanel:
         if not traces:
             raise ValueError("select at least one capture in the lot browser first")
         t = traces.get(self.target.value) or self.browser.traces[0]
-        idx = kv.find_marker(t, self.kind.value, f_hz=self.freq_mhz.value * 1e6,
+        idx = kv.find_marker(t, self.kind.value, f_hz=kv.from_unit(self.freq_mhz.value, "MHz"),
                              span_hz=self.browser.span_hz())
         r = kv.marker_readout(t, idx, name=f"M{len(self.readouts) + 1}")
         self.readouts.append(r)
@@ -120,8 +121,6 @@ class MarkerPanel:
             self.csv_text.value = ""
             return
         text = kv.readout_text(self.readouts[-1])
-        import html
-
         self.readout.value = ('<pre class="sb-readout-text" style="font-size:12px;margin:0 12px 0 0">'
                               + html.escape(text) + "</pre>")
         tab = self.table()

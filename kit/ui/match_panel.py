@@ -18,7 +18,7 @@ import numpy as np
 from kit import match as km
 from kit import views as kv
 from kit.match.circuit import UNITS, eng
-from kit.ui.common import FigureHost, MessageBar, classed, show
+from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
 
 #: (label, key) of the designs offered.
 DESIGNS: tuple[tuple[str, str], ...] = (
@@ -125,14 +125,12 @@ class MatchPanel:
         self.design_kind = classed(w.Dropdown(options=list(DESIGNS), value="tuned-shunt",
                                               description="design",
                                               layout=w.Layout(width="330px")), "match-design")
-        self.f_mhz = classed(w.BoundedFloatText(value=f_hz / 1e6, min=f[0] / 1e6, max=f[-1] / 1e6,
-                                                step=0.0001, description="at [MHz]",
-                                                layout=w.Layout(width="200px")), "match-freq")
-        self.band_mhz = classed(w.FloatRangeSlider(
-            value=(lo / 1e6, hi / 1e6), min=f[0] / 1e6, max=f[-1] / 1e6,
-            step=max((f[-1] - f[0]) / 1e6 / 1000, 1e-9), description="band [MHz]",
-            continuous_update=False, readout_format=".4f", style={"description_width": "initial"},
-            layout=w.Layout(width="520px")), "span")
+        self.f_mhz = classed(w.BoundedFloatText(
+            value=kv.to_unit(f_hz, "MHz"), min=kv.to_unit(f[0], "MHz"),
+            max=kv.to_unit(f[-1], "MHz"), step=0.0001, description="at [MHz]",
+            layout=w.Layout(width="200px")), "match-freq")
+        self.band_mhz = span_slider(f[0], f[-1], "band [MHz]")
+        set_span_hz(self.band_mhz, lo, hi)
         self.series = classed(w.Dropdown(options=["E12", "E24"], value="E24",
                                          description="values", layout=w.Layout(width="170px")),
                               "match-series")
@@ -178,8 +176,8 @@ class MatchPanel:
     def update(self) -> None:
         """Design, evaluate and draw with the current controls."""
         self.design = self.rounded = self.response_after = self.limit = self.stress = None
-        f_hz = float(self.f_mhz.value) * 1e6
-        f_lo, f_hi = (float(x) * 1e6 for x in self.band_mhz.value)
+        f_hz = float(kv.from_unit(self.f_mhz.value, "MHz"))
+        f_lo, f_hi = span_hz(self.band_mhz)
         q = self.q()
         d = make_design(self.design_kind.value, self.capture, f_hz, f_lo, f_hi,
                         self.r_source_ohm, q)
@@ -223,20 +221,15 @@ class MatchPanel:
         ar.clear()
         kv.smith_grid(ax, self.r_source_ohm)
         before, after = self.response_before, self.response_after
-        kv.plot_smith(ax, before.gamma, before.f_hz, label="element alone", i=0)
-        kv.plot_smith(ax, after.gamma, after.f_hz, label="matched (bought values)", i=1)
-        kv.plot_smith(ax, ideal.gamma, ideal.f_hz, label="matched (designed)", i=2, ls="--")
+        kv.plot_smith(ax, before.gamma, label="element alone", i=0)
+        kv.plot_smith(ax, after.gamma, label="matched (bought values)", i=1)
+        kv.plot_smith(ax, ideal.gamma, label="matched (designed)", i=2, ls="--")
         ax.set_title("reflection, same colours as the right", fontsize=8)
         kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
         kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)
         kv.plot_return_loss(ar, ideal.f_hz, ideal.gamma, label="matched (designed)", i=2, ls="--")
-        lo, hi = (float(x) * 1e6 for x in self.band_mhz.value)
-        ar.axvspan(lo, hi, color="#dfe8e6", alpha=0.6, zorder=0)
-        ar.axhline(float(self.rl_db.value), color="#8c8c8c", lw=0.8, ls=":")
-        finite = np.concatenate([x[np.isfinite(x)] for x in
-                                 (before.return_loss_db, after.return_loss_db)])
-        top = float(np.max(finite)) if finite.size else 30.0
-        ar.set_ylim(0.0, min(max(top + 3.0, float(self.rl_db.value) + 5.0), 60.0))
+        kv.frame_return_loss(ar, float(self.rl_db.value), span_hz(self.band_mhz),
+                             before.return_loss_db, after.return_loss_db)
         ar.legend(loc="upper right", fontsize=7)
         self.host.refresh()
 

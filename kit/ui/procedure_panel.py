@@ -21,13 +21,15 @@ import html
 from pathlib import Path
 from typing import Any
 
-from kit.ui.common import MessageBar, classed, section, show
+from kit.resonators.registry import MODEL_NAMES
+from kit.ui.common import MessageBar, classed, guess, section, show, touchstone_names
+from kit.views.data import from_unit, to_unit
 
 NONE = "(none)"
 NO_FIT = "(no fit)"
 COMPENSATIONS = ("off", "open/short/load", "open/short")
 #: Fit models offered (those of kit.fit that take a one-port resonator capture).
-FIT_MODELS = (NO_FIT, "bvd", "bvd-loss", "multi", "plate", "bar", "inductor", "capacitor")
+FIT_MODELS = (NO_FIT, *MODEL_NAMES)
 #: Summary quantities with a min/max row in the panel: (column, label with unit).
 LIMIT_QUANTITIES = (
     ("fs_hz", "fs [Hz]"),
@@ -41,23 +43,6 @@ LIMIT_QUANTITIES = (
 TABLE_COLUMNS = (("capture", None), ("status", None), ("fs_hz", "{:.4g}"), ("fp_hz", "{:.4g}"),
                  ("k_eff", "{:.3f}"), ("qm", "{:.0f}"), ("c0_f", "{:.3g}"),
                  ("fit_ok", None), ("verdict", None), ("error", None))
-_TOUCHSTONE = (".s1p", ".s2p", ".ts")
-
-
-def _files(folder: Path | None) -> dict[str, Path]:
-    """Touchstone files under ``folder`` (recursive), by path relative to it."""
-    if folder is None or not folder.is_dir():
-        return {}
-    found = sorted(p for p in folder.rglob("*") if p.suffix.lower() in _TOUCHSTONE)
-    return {str(p.relative_to(folder)): p.resolve() for p in found}
-
-
-def _guess(names: list[str], word: str) -> str:
-    hits = [n for n in names if Path(n).stem.lower() == word]
-    hits = hits or [n for n in names if word in Path(n).stem.lower()]
-    return hits[0] if hits else NONE
-
-
 def _number(text: str, what: str) -> float | None:
     """A bound typed by the user: '' means no bound; anything else must be a number."""
     t = text.strip()
@@ -154,7 +139,7 @@ class ProcedurePanel:
 
         src = Path(source) if source is not None else None
         std_root = Path(standards) if standards is not None else (src.parent if src else None)
-        self.standard_files = _files(std_root)
+        self.standard_files = touchstone_names(std_root)
         self.cache_dir = cache_dir
         self.use_cache = use_cache
         self.result = None
@@ -175,13 +160,13 @@ class ProcedurePanel:
         self.method = classed(dd("import method", list(IMPORT_METHODS), "reflection"),
                               "proc-method")
         self.name_pattern = classed(text("name pattern", "{lot}-{serial}"), "proc-pattern")
-        has_open = _guess(names, "open") != NONE
+        has_open = guess(names, "open") != NONE
         self.compensation = classed(dd("standards", list(COMPENSATIONS),
                                        "open/short/load" if has_open else "off"),
                                     "proc-compensation")
-        self.open = dd("open", [NONE, *names], _guess(names, "open"))
-        self.short = dd("short", [NONE, *names], _guess(names, "short"))
-        self.load = dd("load", [NONE, *names], _guess(names, "load"))
+        self.open = dd("open", [NONE, *names], guess(names, "open"))
+        self.short = dd("short", [NONE, *names], guess(names, "short"))
+        self.load = dd("load", [NONE, *names], guess(names, "load"))
         self.load_ohms = num("load [ohm]", 50.0)
         self.use_cable = classed(w.Checkbox(description="remove cable", value=False),
                                  "proc-cable")
@@ -277,8 +262,8 @@ class ProcedurePanel:
         if self.model.value != NO_FIT:
             fit = dict(self.kept.get("fit", {}))
             fit.update(model=self.model.value,
-                       span_hz=[float(self.span_lo_mhz.value) * 1e6,
-                                float(self.span_hi_mhz.value) * 1e6],
+                       span_hz=[float(from_unit(self.span_lo_mhz.value, "MHz")),
+                                float(from_unit(self.span_hi_mhz.value, "MHz"))],
                        modes=int(self.modes.value))
             doc["fit"] = fit
         limits = dict(self.kept.get("limits", {}))
@@ -386,7 +371,8 @@ class ProcedurePanel:
             self.model.value = fit.pop("model", "bvd") if proc.fit else NO_FIT
             if "span_hz" in fit:
                 lo, hi = fit.pop("span_hz")
-                self.span_lo_mhz.value, self.span_hi_mhz.value = lo / 1e6, hi / 1e6
+                self.span_lo_mhz.value = to_unit(lo, "MHz")
+                self.span_hi_mhz.value = to_unit(hi, "MHz")
             self.modes.value = int(fit.pop("modes", 1))
             limits = dict(proc.limits or {})
             for key, (lo, hi) in self.limits.items():
@@ -522,9 +508,6 @@ def procedure_panel(source: Any = None, display: bool = True, standards: Any = N
     if display:
         show(panel.widget)
     return panel
-
-
-procedure_panel.from_panels = ProcedurePanel.from_panels  # type: ignore[attr-defined]
 
 
 def for_workbench(wb) -> ProcedurePanel:

@@ -3,8 +3,8 @@
 ``review_panel(captures, log)`` builds the panel and returns a :class:`ReviewPanel` whose
 attributes are the named controls: a capture selector, the reviewer's name, verdict
 buttons (accept / reject / ask for a retest), a note box, a tag box, the current state
-and the history of the selected capture (an escaped HTML table), and an ``Output``
-widget where errors appear instead of tracebacks.
+and the history of the selected capture (an escaped HTML table), and a message bar where errors appear
+instead of tracebacks.
 
 Every action is one append to :class:`kit.review.log.ReviewLog`; the panel holds no state of
 its own beyond the selection, so two engineers reviewing the same lot at once see each
@@ -17,7 +17,7 @@ import html
 from typing import Any
 
 from kit.review.log import ReviewLog, current_user
-from kit.ui.common import classed, show
+from kit.ui.common import MessageBar, classed, show
 
 VERDICT_BUTTONS = (("accept", "Accept", "success", "check"),
                    ("reject", "Reject", "danger", "times"),
@@ -48,6 +48,8 @@ def history_html(events) -> str:
 class ReviewPanel:
     """The review panel's controls and actions (see :func:`review_panel`).
 
+    Each action is one append to the review log, then a refresh of state and history.
+
     Attributes
     ----------
     widget : ipywidgets.VBox
@@ -67,21 +69,26 @@ class ReviewPanel:
         The selected capture's current verdict.
     history : ipywidgets.HTML
         Its events, newest first.
-    output : ipywidgets.Output
-        Error messages (also kept in ``errors``).
+    message : kit.ui.common.MessageBar
+        Error messages (class ``sb-message``).
     """
 
     def __init__(self, captures: Any, log: ReviewLog | str) -> None:
         import ipywidgets as w
 
         from kit.capture import Capture
-        from kit.outputs.dataset import _as_list
+        from kit.io.folder import captures_of
 
-        self.captures = [c for c in _as_list(captures) if isinstance(c, Capture)]
+        if isinstance(captures, Capture):
+            captures = [captures]
+        elif hasattr(captures, "columns"):  # a kit.load_folder table: its loadable rows
+            captures = captures_of(captures)
+        self.captures = [c for c in captures if isinstance(c, Capture)]
         if not self.captures:
             raise ValueError("the review panel needs at least one loadable capture")
         self.log = log if isinstance(log, ReviewLog) else ReviewLog(log)
-        self.errors: list[str] = []
+        self.message = MessageBar()
+        g = self.message.guard
         self.selector = classed(w.Dropdown(options=[(c.name, i) for i, c in
                                                     enumerate(self.captures)], value=0,
                                            description="capture"), "review-capture")
@@ -91,41 +98,28 @@ class ReviewPanel:
         for value, label, style, icon in VERDICT_BUTTONS:
             b = classed(w.Button(description=label, button_style=style, icon=icon),
                         "review-verdict", f"review-{value}")
-            b.on_click(self._guard(lambda _b, v=value: self.set_verdict(v)))
+            b.on_click(g(lambda _b, v=value: self.set_verdict(v)))
             self.buttons[value] = b
         self.note = classed(w.Textarea(placeholder="note, or the reason of a verdict",
                                        layout=w.Layout(width="100%", height="5em")),
                             "review-note")
         self.add_note = classed(w.Button(description="Add note", icon="pencil"),
                                 "review-add-note")
-        self.add_note.on_click(self._guard(lambda _b: self.add_note_text()))
+        self.add_note.on_click(g(lambda _b: self.add_note_text()))
         self.tag = classed(w.Text(placeholder="tag, e.g. cracked"), "review-tag")
         self.add_tag = classed(w.Button(description="Add tag", icon="tag"), "review-add-tag")
-        self.add_tag.on_click(self._guard(lambda _b: self.add_tag_text()))
+        self.add_tag.on_click(g(lambda _b: self.add_tag_text()))
         self.state = classed(w.HTML(), "review-state")
         self.history = classed(w.HTML(), "review-history")
-        self.output = classed(w.Output(), "review-output")
-        self.selector.observe(self._guard(lambda _c: self.refresh()), names="value")
+        self.selector.observe(g(lambda _c: self.refresh()), names="value")
         self.widget = classed(w.VBox([
             w.HBox([self.selector, self.author]),
             w.HBox(list(self.buttons.values())),
             self.note, w.HBox([self.add_note, self.tag, self.add_tag]),
-            self.state, self.history, self.output]), "review-panel")
+            self.message.widget, self.state, self.history]), "review-panel")
         self.refresh()
 
-    # ---- plumbing
-    def _guard(self, fn):
-        def wrapper(*args: Any) -> Any:
-            try:
-                return fn(*args)
-            except Exception as exc:  # noqa: BLE001 - shown in the panel, not raised
-                msg = f"{type(exc).__name__}: {exc}"
-                self.errors.append(msg)
-                self.output.append_stderr(msg + "\n")
-                return None
-
-        return wrapper
-
+    # ---- state
     @property
     def current(self):
         """The selected Capture."""

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from typing import Any, Callable
 
-from kit.ui.common import classed, section, show
+from kit.ui.common import classed, plain_error, section, show
 from kit.ui.lot_browser import LotBrowser, lot_browser
 from kit.ui.markers import MarkerPanel, marker_panel
 
@@ -43,7 +43,8 @@ def _fits(wb: "Workbench"):
     from kit.io import folder
     from kit.ui.fit_panel import fit_panel
 
-    return fit_panel(folder.captures_of(wb.browser.table), display=False)
+    return fit_panel(folder.captures_of(wb.browser.table), display=False,
+                     interactive=wb.browser.host.interactive)
 
 
 def _review(wb: "Workbench"):
@@ -134,7 +135,7 @@ class Workbench:
                 self.skipped[title] = f"module {exc.name} is not available"
                 continue
             except Exception as exc:  # noqa: BLE001 - one panel must not stop the others
-                self.skipped[title] = f"{type(exc).__name__}: {exc}"
+                self.skipped[title] = plain_error(exc)
                 continue
             self.add_section(title, panel, open_=False)
 

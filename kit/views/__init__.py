@@ -15,7 +15,11 @@ This module gathers the whole drawing API:
 * markers and limits (:mod:`kit.views.markers`): :func:`find_marker`,
   :func:`marker_readout`, :func:`readout_text`, :func:`draw_marker`, :func:`draw_readout`,
   :func:`markers_table`, :func:`plot_limits`;
-* data (:mod:`kit.views.data`): :func:`trace`, :class:`Trace`, :data:`PALETTE`.
+* fits: :func:`plot_fit` (the model curve of a fit result);
+* data (:mod:`kit.views.data`): :func:`trace`, :class:`Trace`, :data:`PALETTE`, and the
+  fixed display units :func:`to_unit` / :func:`from_unit`;
+* reflection-plane coordinates for widgets that update lines: :func:`plane_xy`,
+  :func:`plane_point`.
 
 Example
 -------
@@ -30,25 +34,20 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from kit.views.data import (  # noqa: F401  (re-exported)
+from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
+from kit.views.data import (
     CHARTS,
-    GRID_Y,
-    GRID_Z,
-    LIMIT_COLOR,
-    MARKER_COLOR,
     PALETTE,
-    Chart,
     Trace,
     color,
-    db20,
-    gamma_from_z,
+    from_unit,
     group_delay_s,
-    return_loss_db,
+    reciprocal,
+    to_unit,
     trace,
-    vswr,
 )
 from kit.views.decimate import columns_of, minmax_indices, window
-from kit.views.markers import (  # noqa: F401  (re-exported)
+from kit.views.markers import (
     MARKER_KINDS,
     draw_marker,
     draw_readout,
@@ -57,20 +56,30 @@ from kit.views.markers import (  # noqa: F401  (re-exported)
     markers_table,
     plot_limits,
     readout_text,
-    si,
     write_markers_csv,
 )
-from kit.views.smith import (  # noqa: F401  (re-exported)
+from kit.views.smith import (
+    fit_polar_radius,
+    plane_point,
+    plane_xy,
     plot_admittance_circle,
     plot_polar,
     plot_smith,
     smith_grid,
     smith_xy,
+    style_admittance_circle,
 )
 
-#: Charts drawn in the reflection plane rather than against frequency.
-PLANE_CHARTS: dict[str, str] = {"smith": "Smith chart", "polar": "polar", "circle":
-                                "admittance circle"}
+__all__ = [
+    "CHARTS", "color", "columns_of", "db20", "draw_marker", "draw_readout", "find_marker",
+    "fit_polar_radius", "frame_return_loss", "frequency_axis", "from_unit", "gamma_from_z",
+    "group_delay_s", "MARKER_KINDS", "marker_readout", "markers_table", "overlay", "PALETTE",
+    "plane_point", "plane_xy", "plot_admittance_circle", "plot_chart", "plot_fit", "plot_g_b",
+    "plot_group_delay", "plot_limits", "plot_polar", "plot_r_x", "plot_return_loss", "plot_s_db",
+    "plot_smith", "plot_vswr", "plot_z_mag_phase", "readout_text", "return_loss_db", "smith_grid",
+    "smith_xy", "style_admittance_circle", "style_chart", "to_unit", "trace", "Trace",
+    "update_line", "vswr", "write_markers_csv", "xy_for_display",
+]
 
 
 def frequency_axis(ax) -> None:
@@ -211,31 +220,29 @@ def plot_z_mag_phase(ax_mag, ax_phase, f_hz, z, label: str | None = None, i: int
             + plot_chart(ax_phase, t, "z_phase", i, label, columns, span_hz, **kw))
 
 
+def _pair(ax, t: Trace, charts: tuple[str, str], names: tuple[str, str], ylabel: str,
+          label: str | None, columns, span_hz, **kw) -> list[Any]:
+    """Two charts of one trace on one axes (solid, dashed), named in a legend."""
+    name = f"{label} " if label else ""
+    arts = plot_chart(ax, t, charts[0], 0, f"{name}{names[0]}", columns, span_hz, **kw)
+    arts += plot_chart(ax, t, charts[1], 1, f"{name}{names[1]}", columns, span_hz, ls="--", **kw)
+    ax.set_ylabel(ylabel)
+    ax.legend(fontsize=7, frameon=False)
+    return arts
+
+
 def plot_r_x(ax, f_hz, z, label: str | None = None, columns: int | None = None, span_hz=None,
              **kw) -> list[Any]:
     """Resistance R and reactance X [ohm] against frequency on one axes (solid, dashed)."""
     t = _arr_trace(f_hz, z=z, label=label or "Z")
-    name = f"{label} " if label else ""
-    arts = plot_chart(ax, t, "r", 0, f"{name}R", columns, span_hz, **kw)
-    arts += plot_chart(ax, t, "x", 1, f"{name}X", columns, span_hz, ls="--", **kw)
-    ax.set_ylabel("R, X [Ω]")
-    ax.legend(fontsize=7, frameon=False)
-    return arts
+    return _pair(ax, t, ("r", "x"), ("R", "X"), "R, X [Ω]", label, columns, span_hz, **kw)
 
 
 def plot_g_b(ax, f_hz, y, label: str | None = None, columns: int | None = None, span_hz=None,
              **kw) -> list[Any]:
     """Conductance G and susceptance B [mS] against frequency on one axes."""
-    y = np.asarray(y, complex)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        z = np.where(y == 0, np.nan + 0j, 1.0 / np.where(y == 0, 1.0, y))
-    t = _arr_trace(f_hz, z=z, label=label or "Y")
-    name = f"{label} " if label else ""
-    arts = plot_chart(ax, t, "g", 0, f"{name}G", columns, span_hz, **kw)
-    arts += plot_chart(ax, t, "b", 1, f"{name}B", columns, span_hz, ls="--", **kw)
-    ax.set_ylabel("G, B [mS]")
-    ax.legend(fontsize=7, frameon=False)
-    return arts
+    t = _arr_trace(f_hz, z=reciprocal(y), label=label or "Y")
+    return _pair(ax, t, ("g", "b"), ("G", "B"), "G, B [mS]", label, columns, span_hz, **kw)
 
 
 def plot_s_db(ax, f_hz, s, label: str | None = None, i: int = 0, columns: int | None = None,
@@ -252,6 +259,38 @@ def plot_return_loss(ax, f_hz, gamma, label: str | None = None, i: int = 0,
     return plot_chart(ax, t, "return_loss", i, label, columns, span_hz, **kw)
 
 
+def frame_return_loss(ax, level_db: float, band_hz=None, *curves_db, ceiling_db: float = 60.0,
+                      default_db: float = 30.0) -> list[Any]:
+    """Frame a return-loss chart: the band shaded, a level line, a y range that shows both.
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+        A chart drawn by :func:`plot_return_loss`.
+    level_db : float
+        Return-loss level drawn as a dotted line [dB].
+    band_hz : (float, float), optional
+        Frequency band shaded [Hz].
+    *curves_db : array_like
+        Return losses drawn [dB]; the y range reaches 3 dB above the best finite one and
+        5 dB above the level, from 0 to at most ``ceiling_db`` (``default_db`` when no
+        value is finite).
+
+    Returns
+    -------
+    list of matplotlib artists
+    """
+    arts: list[Any] = []
+    if band_hz is not None:
+        arts.append(ax.axvspan(*band_hz, color="#dfe8e6", alpha=0.6, zorder=0))
+    arts.append(ax.axhline(level_db, color="#8c8c8c", lw=0.8, ls=":"))
+    finite = [np.asarray(c, float)[np.isfinite(c)] for c in curves_db]
+    finite = np.concatenate(finite) if finite else np.array([])
+    top = float(np.max(finite)) if finite.size else default_db
+    ax.set_ylim(0.0, min(max(top + 3.0, level_db + 5.0), ceiling_db))
+    return arts
+
+
 def plot_vswr(ax, f_hz, gamma, label: str | None = None, i: int = 0, columns: int | None = None,
               span_hz=None, **kw) -> list[Any]:
     """VSWR [1] on a log scale against frequency."""
@@ -264,3 +303,46 @@ def plot_group_delay(ax, f_hz, s, label: str | None = None, i: int = 0,
     """Group delay [ns] of an S-parameter against frequency."""
     t = _arr_trace(f_hz, s=s, gamma=s, label=label or "S")
     return plot_chart(ax, t, "group_delay", i, label, columns, span_hz, **kw)
+
+
+def plot_fit(fit, ax_mag=None, ax_phase=None, ax_circle=None, span_hz=None, points: int = 801,
+             **kw) -> list[Any]:
+    """The model curve of a fit result, dashed, on |Z|, phase and admittance-circle axes.
+
+    The model impedance comes from the result itself (``fit.model_z(f_hz)``, the fitted
+    model of :mod:`kit.resonators`); nothing is drawn for a fit without parameters.
+
+    Parameters
+    ----------
+    fit : kit.resonators.fitting.FitResult
+    ax_mag, ax_phase, ax_circle : matplotlib.axes.Axes, optional
+        Axes of |Z| [ohm], phase of Z [deg] and B against G [mS]; None skips a view.
+    span_hz : (float, float), optional
+        Frequencies drawn [Hz]; default the fit's span.
+    points : int
+        Least number of frequencies of the model curve (more when the fit had more).
+
+    Returns
+    -------
+    list of matplotlib.lines.Line2D
+        Empty when the fit has no parameters (see ``fit.reason``).
+    """
+    span = span_hz if span_hz is not None else fit.span_hz
+    if span is None:
+        return []
+    f = np.linspace(float(span[0]), float(span[1]), max(int(points), int(fit.n_points)))
+    try:
+        z = fit.model_z(f)
+    except ValueError:
+        return []
+    t = trace((f, z), label=f"model {fit.model}")
+    kw.setdefault("color", "k")
+    kw.setdefault("lw", 1.0)
+    kw.setdefault("ls", "--")
+    arts: list[Any] = []
+    for ax, chart in ((ax_mag, "z_mag"), (ax_phase, "z_phase")):
+        if ax is not None:
+            arts += plot_chart(ax, t, chart, columns=len(f), span_hz=span, **kw)
+    if ax_circle is not None:
+        arts += plot_admittance_circle(ax_circle, t, columns=len(f), **kw)
+    return arts

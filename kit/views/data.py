@@ -13,7 +13,9 @@ from typing import Any, Callable
 
 import numpy as np
 
-from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr  # noqa: F401  (re-exported)
+from kit.network.coerce import name_of, sweep
+from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
+from kit.units import PREFIXES, SUFFIXES
 
 #: Our trace colours, in order of use (deep teal, brick, violet, moss, ochre, slate, berry,
 #: umber). Chosen for contrast on white and between neighbours.
@@ -32,12 +34,44 @@ def color(i: int) -> str:
     return PALETTE[i % len(PALETTE)]
 
 
+def _prefix_exp(unit: str) -> int:
+    """Power of ten of the prefix of ``unit`` (0 without a prefix), e.g. -3 for "mS"."""
+    bases = {u for _, u in SUFFIXES}
+    if unit in bases:
+        return 0
+    for exp, p in PREFIXES.items():
+        if p and unit.startswith(p) and unit[len(p):] in bases:
+            return exp
+    raise ValueError(f"unknown display unit {unit!r}: an SI prefix and one of "
+                     f"{', '.join(sorted(bases))}")
 
 
+def to_unit(values, unit: str):
+    """Values in SI units expressed in the prefixed ``unit``: ``to_unit(2e-3, "mS") == 2.0``.
+
+    The one home of the views' and widgets' fixed display units (admittance in mS, span
+    controls in MHz, group delay in ns); the prefixes are those of :data:`kit.units.PREFIXES`.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
+       prefixes).
+    """
+    return _scale(values, -_prefix_exp(unit))
 
 
+def from_unit(values, unit: str):
+    """Values given in the prefixed ``unit`` back in SI units: ``from_unit(1.5, "MHz") == 1.5e6``.
+
+    The inverse of :func:`to_unit` (same prefixes, BIPM SI brochure Table 7).
+    """
+    return _scale(values, _prefix_exp(unit))
 
 
+def _scale(values, exp: int):
+    """values * 10**exp, multiplying or dividing by an exact power of ten."""
+    v = values if np.isscalar(values) else np.asarray(values)
+    return v * 10.0 ** exp if exp >= 0 else v / 10.0 ** -exp
 
 
 def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:
@@ -59,6 +93,18 @@ def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:
     if f.size < 2:
         return np.full(f.shape, np.nan)
     return -np.gradient(phi, 2.0 * np.pi * f)
+
+
+def reciprocal(x) -> np.ndarray:
+    """1/x elementwise, NaN where x is 0 (Y = 1/Z and back; no warning) [1/unit of x].
+
+    References
+    ----------
+    .. [1] Y = 1/Z by definition of admittance (common practice, no source).
+    """
+    x = np.asarray(x, dtype=complex)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(x == 0, np.nan + 0j, 1.0 / np.where(x == 0, 1.0, x))
 
 
 @dataclass(frozen=True, eq=False)
@@ -93,8 +139,7 @@ class Trace:
     @property
     def y(self) -> np.ndarray:
         """Admittance [S] (NaN where Z is 0)."""
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return np.where(self.z == 0, np.nan + 0j, 1.0 / np.where(self.z == 0, 1.0, self.z))
+        return reciprocal(self.z)
 
     @property
     def points(self) -> int:
@@ -117,7 +162,9 @@ def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None
     label : str, optional
         Legend name; default the capture's name.
     z0_ohm : float, optional
-        Reference impedance [ohm]; default the capture's (port 1), else 50.
+        Reference impedance [ohm]; default the capture's own at the port used
+        (:func:`kit.network.coerce.sweep`), else 50 for arrays. Given for a capture, Gamma
+        is re-referred to it.
 
     Returns
     -------
@@ -126,28 +173,20 @@ def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None
     """
     if isinstance(obj, Trace):
         return obj if label is None else Trace(obj.f_hz, obj.z, obj.gamma, obj.s, obj.z0_ohm, label)
-    if isinstance(obj, tuple) and len(obj) == 2:
-        f = np.asarray(obj[0], dtype=float)
-        z = np.asarray(obj[1], dtype=complex)
-        z0 = 50.0 if z0_ohm is None else float(z0_ohm)
-        g = gamma_from_z(z, z0)
-        return Trace(f, z, g, g, z0, label or "trace")
-    from kit.network.coerce import network_of
-    from kit.network.immittance import impedance
-
-    ntwk = network_of(obj, "trace")
-    f = np.array(ntwk.frequency.f, dtype=float)
-    zref = np.asarray(ntwk.z0)
-    z0 = float(np.real(zref[0, 0])) if z0_ohm is None else float(z0_ohm)
-    z = impedance(obj, method=method, port=port)
+    arrays = isinstance(obj, tuple)
+    sw = sweep(obj, method=method, port=port, z0_ohm=z0_ohm if arrays else None, what="trace")
+    z0 = sw.z0_ohm if z0_ohm is None else float(z0_ohm)
+    if sw.from_arrays:
+        g = gamma_from_z(sw.z_ohm, z0)
+        return Trace(sw.f_hz, sw.z_ohm, g, g, z0, label or "trace")
     if method == "reflection":
-        s = np.array(ntwk.s[:, port - 1, port - 1])
-        gamma = s if z0_ohm is None else gamma_from_z(z, z0)
+        s = np.array(sw.network.s[:, port - 1, port - 1])
+        gamma = s if z0_ohm is None else gamma_from_z(sw.z_ohm, z0)
     else:
-        s = np.array(ntwk.s[:, 1, 0])
-        gamma = gamma_from_z(z, z0)
-    name = label if label is not None else getattr(obj, "name", None) or str(ntwk.name or "trace")
-    return Trace(f, z, gamma, s, z0, name)
+        s = np.array(sw.network.s[:, 1, 0])
+        gamma = gamma_from_z(sw.z_ohm, z0)
+    name = label if label is not None else name_of(obj, "trace")
+    return Trace(np.array(sw.f_hz), sw.z_ohm, gamma, s, z0, name)
 
 
 @dataclass(frozen=True)
@@ -171,11 +210,11 @@ CHARTS: dict[str, Chart] = {c.name: c for c in (
     Chart("z_phase", "phase of Z", "phase of Z [°]", _phase_deg),
     Chart("r", "R", "R [Ω]", lambda t: t.z.real),
     Chart("x", "X", "X [Ω]", lambda t: t.z.imag),
-    Chart("g", "G", "G [mS]", lambda t: 1e3 * t.y.real),
-    Chart("b", "B", "B [mS]", lambda t: 1e3 * t.y.imag),
+    Chart("g", "G", "G [mS]", lambda t: to_unit(t.y.real, "mS")),
+    Chart("b", "B", "B [mS]", lambda t: to_unit(t.y.imag, "mS")),
     Chart("s_db", "|S|", "|S| [dB]", lambda t: db20(t.s)),
     Chart("return_loss", "return loss", "return loss [dB]", lambda t: return_loss_db(t.gamma)),
     Chart("vswr", "VSWR", "VSWR [1]", lambda t: vswr(t.gamma), "log"),
     Chart("group_delay", "group delay", "group delay [ns]",
-          lambda t: 1e9 * group_delay_s(t.f_hz, t.s)),
+          lambda t: to_unit(group_delay_s(t.f_hz, t.s), "ns")),
 )}

@@ -14,7 +14,8 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from kit.views.data import LIMIT_COLOR, MARKER_COLOR, Trace, return_loss_db, vswr
+from kit.units import eng
+from kit.views.data import LIMIT_COLOR, MARKER_COLOR, Trace, return_loss_db, to_unit, vswr
 
 #: Marker searches offered by :func:`find_marker`.
 MARKER_KINDS: dict[str, str] = {
@@ -108,8 +109,8 @@ def marker_readout(t: Trace, index: int, name: str = "M1") -> dict[str, Any]:
     -------
     dict
         ``marker``, ``trace``, ``index``, ``f_hz`` [Hz], ``z_ohm`` (complex) [ohm],
-        ``r_ohm``, ``x_ohm``, ``z_mag_ohm``, ``z_phase_deg`` [deg], ``y_s`` (complex) [S],
-        ``g_s``, ``b_s``, ``gamma`` (complex) [1], ``gamma_mag``, ``gamma_deg`` [deg],
+        ``r_ohm``, ``x_ohm``, ``z_mag_ohm``, ``z_phase_deg`` [deg], ``y_siemens`` (complex)
+        [S], ``g_siemens``, ``b_siemens``, ``gamma`` (complex) [1], ``gamma_mag``, ``gamma_deg`` [deg],
         ``vswr`` [1], ``return_loss_db`` [dB], ``z0_ohm``.
 
     References
@@ -126,40 +127,25 @@ def marker_readout(t: Trace, index: int, name: str = "M1") -> dict[str, Any]:
         "marker": name, "trace": t.label, "index": i % t.points, "f_hz": float(t.f_hz[i]),
         "z_ohm": z, "r_ohm": z.real, "x_ohm": z.imag, "z_mag_ohm": abs(z),
         "z_phase_deg": math.degrees(math.atan2(z.imag, z.real)),
-        "y_s": y, "g_s": y.real, "b_s": y.imag,
+        "y_siemens": y, "g_siemens": y.real, "b_siemens": y.imag,
         "gamma": g, "gamma_mag": abs(g), "gamma_deg": math.degrees(math.atan2(g.imag, g.real)),
         "vswr": float(vswr(np.array([g]))[0]), "return_loss_db": float(return_loss_db(np.array([g]))[0]),
         "z0_ohm": t.z0_ohm,
     }
 
 
-_PREFIX = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"),
-           (1e-12, "p"))
-
-
-def si(value: float, unit: str, digits: int = 5) -> str:
-    """A number with an SI prefix, e.g. ``si(3.3886e6, "Hz") == "3.3886 MHz"``."""
-    if value is None or not math.isfinite(value):
-        return f"{value} {unit}"
-    a = abs(value)
-    for scale, p in _PREFIX:
-        if a >= scale:
-            return f"{value / scale:.{digits}g} {p}{unit}"
-    return f"{value:.{digits}g} {unit}" if a == 0 else f"{value / 1e-12:.{digits}g} p{unit}"
-
-
-def _cplx(v: complex, unit: str, scale: float = 1.0, digits: int = 4) -> str:
+def _cplx(v: complex, unit: str, digits: int = 4) -> str:
     sign = "+" if v.imag >= 0 else "−"
-    return f"{v.real * scale:.{digits}g} {sign} j{abs(v.imag) * scale:.{digits}g} {unit}"
+    return f"{v.real:.{digits}g} {sign} j{abs(v.imag):.{digits}g} {unit}"
 
 
 def readout_text(r: dict[str, Any]) -> str:
     """Multi-line text of a readout, every quantity with its unit."""
     return "\n".join([
-        f"{r['marker']}  {si(r['f_hz'], 'Hz', 7)}",
+        f"{r['marker']}  {eng(r['f_hz'], 'Hz', 7)}",
         f"Z = {_cplx(r['z_ohm'], 'Ω')}",
-        f"|Z| = {si(r['z_mag_ohm'], 'Ω', 4)}, {r['z_phase_deg']:.2f}°",
-        f"Y = {_cplx(r['y_s'], 'mS', 1e3)}",
+        f"|Z| = {eng(r['z_mag_ohm'], 'Ω', 4)}, {r['z_phase_deg']:.2f}°",
+        f"Y = {_cplx(to_unit(r['y_siemens'], 'mS'), 'mS')}",
         f"Γ = {r['gamma_mag']:.4f} ∠ {r['gamma_deg']:.2f}°",
         f"VSWR = {r['vswr']:.3f}",
     ])
@@ -185,8 +171,8 @@ def markers_table(readouts: Iterable[dict[str, Any]]):
     """Readouts as a pandas DataFrame, one row per marker, units in the column names."""
     import pandas as pd
 
-    cols = ["marker", "trace", "f_hz", "r_ohm", "x_ohm", "z_mag_ohm", "z_phase_deg", "g_s",
-            "b_s", "gamma_mag", "gamma_deg", "vswr", "return_loss_db", "z0_ohm"]
+    cols = ["marker", "trace", "f_hz", "r_ohm", "x_ohm", "z_mag_ohm", "z_phase_deg",
+            "g_siemens", "b_siemens", "gamma_mag", "gamma_deg", "vswr", "return_loss_db", "z0_ohm"]
     return pd.DataFrame([{c: r[c] for c in cols} for r in readouts], columns=cols)
 
 

@@ -9,8 +9,8 @@ from typing import Any
 
 import numpy as np
 
-from kit.views.data import GRID_Y, GRID_Z, color, trace
-from kit.views.decimate import columns_of, minmax_indices
+from kit.views.data import GRID_Y, GRID_Z, Trace, color, to_unit, trace
+from kit.views.decimate import columns_of, minmax_indices, window
 
 #: Normalised resistance / reactance values of the grid (our choice of circles).
 GRID_VALUES: tuple[float, ...] = (0.2, 0.5, 1.0, 2.0, 5.0)
@@ -82,7 +82,7 @@ def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
                                         fontsize=7, color="#6b5f50", ha="center", va="center"))
                 else:
                     p = -_w(v + 0j)
-                    arts.append(ax.text(p.real, -0.015, f"{_ohm(1e3 * v / z0_ohm)} mS",
+                    arts.append(ax.text(p.real, -0.015, f"{_ohm(to_unit(v / z0_ohm, 'mS'))} mS",
                                         fontsize=7, color="#3f7f88", rotation=90, ha="left",
                                         va="top"))
     if label:
@@ -97,12 +97,12 @@ def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
     return arts
 
 
-def _gamma_of(obj, f_hz=None):
-    """(gamma, f_hz, label) from a bare array or anything :func:`trace` accepts."""
+def _gamma_of(obj):
+    """(gamma, label) from a bare array or anything :func:`trace` accepts."""
     if isinstance(obj, (np.ndarray, list)):
-        return np.asarray(obj, dtype=complex), f_hz, None
+        return np.asarray(obj, dtype=complex), None
     t = trace(obj)
-    return t.gamma, t.f_hz, t.label
+    return t.gamma, t.label
 
 
 def smith_xy(gamma: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
@@ -112,7 +112,7 @@ def smith_xy(gamma: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:
     return g.real[idx].copy(), g.imag[idx].copy()
 
 
-def plot_smith(ax, gamma_or_capture, f_hz=None, label: str | None = None, i: int = 0,
+def plot_smith(ax, gamma_or_capture, label: str | None = None, i: int = 0,
                columns: int | None = None, **kw) -> list[Any]:
     """Draw a reflection-coefficient trace on a Smith chart (draw the grid first).
 
@@ -121,8 +121,6 @@ def plot_smith(ax, gamma_or_capture, f_hz=None, label: str | None = None, i: int
     ax : matplotlib.axes.Axes
     gamma_or_capture : array of complex, Trace, Capture or skrf.Network
         Gamma [1], or anything :func:`kit.views.data.trace` accepts.
-    f_hz : array_like, optional
-        Frequencies [Hz] of a bare Gamma array (unused for drawing; kept for symmetry).
     label : str, optional
         Legend text.
     i : int
@@ -134,7 +132,7 @@ def plot_smith(ax, gamma_or_capture, f_hz=None, label: str | None = None, i: int
     -------
     list of matplotlib.lines.Line2D
     """
-    g, _, name = _gamma_of(gamma_or_capture, f_hz)
+    g, name = _gamma_of(gamma_or_capture)
     cols = columns or columns_of(ax)
     x, y = smith_xy(g, cols)
     kw.setdefault("color", color(i))
@@ -150,14 +148,18 @@ def plot_polar(ax, gamma_or_capture, label: str | None = None, i: int = 0,
     -------
     list of matplotlib.lines.Line2D
     """
-    g, _, name = _gamma_of(gamma_or_capture)
-    x, y = smith_xy(g, columns or columns_of(ax))
-    gd = x + 1j * y
+    g, name = _gamma_of(gamma_or_capture)
     kw.setdefault("color", color(i))
-    arts = ax.plot(np.angle(gd), np.abs(gd), label=label or name, **kw)
-    ax.set_rlim(0, max(1.0, float(np.nanmax(np.abs(g))) if g.size else 1.0))
+    arts = ax.plot(*_polar(*smith_xy(g, columns or columns_of(ax))), label=label or name, **kw)
+    fit_polar_radius(ax, np.abs(g))
     ax.set_title("reflection coefficient, |Γ| [1] against angle [°]", fontsize=9)
     return arts
+
+
+def fit_polar_radius(ax, *radii) -> None:
+    """Radius range of a polar axes: 0 to the largest finite radius given, at least 1 (|Γ| = 1)."""
+    top = [float(np.nanmax(r, initial=1.0)) for r in map(np.asarray, radii) if r.size]
+    ax.set_rlim(0, max([1.0, *top]))
 
 
 def plot_admittance_circle(ax, y_or_capture, f_hz=None, span_hz=None, label: str | None = None,
@@ -191,14 +193,65 @@ def plot_admittance_circle(ax, y_or_capture, f_hz=None, span_hz=None, label: str
         y, f, name = t.y, t.f_hz, t.label
     if span_hz is not None and f is not None:
         f = np.asarray(f, float)
-        m = (f >= span_hz[0]) & (f <= span_hz[1])
-        y = y[m]
-    g_ms, b_ms = 1e3 * y.real, 1e3 * y.imag
-    idx = minmax_indices(columns or columns_of(ax), g_ms, b_ms)
+        y = y[(f >= span_hz[0]) & (f <= span_hz[1])]
     kw.setdefault("color", color(i))
-    arts = ax.plot(g_ms[idx], b_ms[idx], label=label or name, **kw)
+    arts = ax.plot(*smith_xy(to_unit(y, "mS"), columns or columns_of(ax)), label=label or name,
+                   **kw)
+    style_admittance_circle(ax)
+    ax.set_aspect("equal", adjustable="datalim")
+    return arts
+
+
+def style_admittance_circle(ax) -> None:
+    """Axis labels (G and B in mS) and grid of an admittance-circle view."""
     ax.set_xlabel("conductance G [mS]")
     ax.set_ylabel("susceptance B [mS]")
-    ax.set_aspect("equal", adjustable="datalim")
     ax.grid(True, color="#e4e0da", lw=0.6)
-    return arts
+
+
+def _polar(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(angle [rad], magnitude) of the points x + jy, as a polar axes draws them."""
+    g = np.asarray(x) + 1j * np.asarray(y)
+    return np.angle(g), np.abs(g)
+
+
+#: Reflection-plane views a widget may offer: "smith" (with any grid), "polar", "circle".
+PLANE_KINDS: tuple[str, ...] = ("smith", "polar", "circle")
+
+
+def plane_xy(t: Trace, kind: str, columns: int, span_hz=None) -> tuple[np.ndarray, np.ndarray]:
+    """Display coordinates of a trace in a reflection-plane view, decimated, as new arrays.
+
+    Parameters
+    ----------
+    t : Trace
+    kind : str
+        "smith" (or "smith:z", "smith:y", "smith:both"): (Re Gamma, Im Gamma) [1];
+        "polar": (angle of Gamma [rad], abs Gamma [1]); "circle": (G, B) [mS].
+    columns : int
+        Pixel columns for decimation.
+    span_hz : (float, float), optional
+        Frequency window [Hz] (one point of margin either side).
+    """
+    base = kind.split(":")[0]
+    if base not in PLANE_KINDS:
+        raise ValueError(f"unknown plane view {kind!r}; choose one of {', '.join(PLANE_KINDS)}")
+    sl = window(t.f_hz, *(span_hz if span_hz is not None else (None, None)))
+    if base == "circle":
+        return smith_xy(to_unit(t.y[sl], "mS"), columns)
+    x, y = smith_xy(t.gamma[sl], columns)
+    return _polar(x, y) if base == "polar" else (x, y)
+
+
+def plane_point(readout: dict, kind: str) -> tuple[float, float]:
+    """Where a marker readout (:func:`kit.views.marker_readout`) sits in a plane view.
+
+    Same coordinates as :func:`plane_xy`: Gamma for "smith", (angle, magnitude) for
+    "polar", (G, B) [mS] for "circle".
+    """
+    base = kind.split(":")[0]
+    if base == "circle":
+        y = to_unit(complex(readout["y_siemens"]), "mS")
+        return y.real, y.imag
+    g = complex(readout["gamma"])
+    return (float(np.angle(g)), abs(g)) if base == "polar" else (g.real, g.imag)
