@@ -35,6 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from kit.match.circuit import load_grid, load_z
+from kit.results import Result
 
 REF_FANO = ("R. M. Fano, J. Franklin Inst. 249 (1950); Pozar, Microwave Engineering, 4th ed., "
             "section 5.9 (from memory for the section)")
@@ -94,7 +95,7 @@ def fano_integral(f_hz, gamma, weight: str = "1") -> float:
 
 
 @dataclass(frozen=True, eq=False)
-class FanoLimit:
+class FanoLimit(Result):
     """Bode-Fano limit for a parallel RC or RLC equivalent over a band.
 
     Attributes
@@ -132,6 +133,18 @@ class FanoLimit:
     l_std_h: float = 0.0
     fit_residual: float = 0.0
     flags: tuple[str, ...] = ()
+
+    _ROWS = (("r_ohm", "R", "Ω"), ("c_f", "C", "F"), ("l_h", "L", "H"),
+             ("f_lo_hz", "band from", "Hz"), ("f_hi_hz", "band to", "Hz"),
+             ("bound_rad_s", "limit on ∫ ln(1/|Γ|) dω", "rad/s"),
+             ("bound_low_s", "limit on ∫ ω⁻² ln(1/|Γ|) dω", "s/rad"),
+             ("gamma_min", "best constant |Γ| over the band", ""),
+             ("rl_max_db", "best constant return loss", "dB"),
+             ("fit_residual", "fit residual (relative RMS)", ""))
+
+    @property
+    def title(self) -> str:
+        return f"Bode-Fano limit ({self.model})"
 
     @property
     def log_budget(self) -> float:
