@@ -246,8 +246,11 @@ class _Field:
     field value is found first.
     """
 
+    def __set_name__(self, owner, name):
+        self.name = name
+
     def __get__(self, obj, owner=None):
-        raise AttributeError("title")
+        raise AttributeError(self.name)
 
 
 @dataclass(frozen=True, eq=False)
@@ -279,6 +282,10 @@ class MatchDesign(Result):
         Frequency grid of the load capture, if the design came from one.
     info : dict
         Extra numbers (for example the optimiser's result of a band design).
+
+    A :class:`kit.results.Result`: ``to_dict()``/``from_dict()``, ``report()`` (parts with
+    their values, then the notes) and an escaped HTML view; :meth:`summary` is the shorter
+    text with the part labels.
     """
 
     kind: str
@@ -294,11 +301,16 @@ class MatchDesign(Result):
     info: dict[str, Any] = field(default_factory=dict)
 
     title = _Field()  # noqa: F811  (the field above is the heading, see _Field)
+
+    #: a design, stress table or part row is always computed (bad input raises instead)
+    ok = True
+    reason = ""
     _ROWS = (("r_source_ohm", "source resistance", "Ω"), ("f_design_hz", "design frequency", "Hz"))
 
     def rows(self) -> list[tuple[str, str]]:
-        """Source and design frequency, then one row per part (source to load)."""
-        return super().rows() + [
+        """Source and design frequency ("not used" when NaN), then one row per part."""
+        rows = [(k, "not used" if v == "not found" else v) for k, v in super().rows()]
+        return rows + [
             (f"{p.name} ({p.placement})",
              _eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {p.value:.4g}")
             for p in self.parts]

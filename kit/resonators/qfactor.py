@@ -203,7 +203,7 @@ class QFactor(Result):
         ax.set_aspect("equal", adjustable="datalim")
         ax.set_xlabel("Re S")
         ax.set_ylabel("Im S")
-        ax.set_title(f"Q_L {fmt_value(self.q_loaded)}, Q_0 {fmt_value(self.q_unloaded)}"
+        ax.set_title(f"Q_L {eng(self.q_loaded, '')}, Q_0 {eng(self.q_unloaded, '')}"
                      + ("" if self.ok else f"\n{self.reason}"), fontsize="small")
         ax.legend(loc="best", fontsize="x-small")
         return ax
