@@ -147,6 +147,17 @@ class FanoLimit(Result):
         return f"Bode-Fano limit ({self.model})"
 
     @property
+    def ok(self) -> bool:
+        """True when the limit is a finite positive number."""
+        return bool(np.isfinite(self.bound_rad_s) and self.bound_rad_s > 0)
+
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        return "" if self.ok else (f"the limit is not a finite positive number: R = "
+                                   f"{self.r_ohm:.4g} ohm, C = {self.c_f:.4g} F")
+
+    @property
     def log_budget(self) -> float:
         """Largest constant ln(1/|Γ|) over the band allowed by the limit(s) [1]."""
         w1, w2 = 2 * np.pi * self.f_lo_hz, 2 * np.pi * self.f_hi_hz

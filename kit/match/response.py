@@ -235,6 +235,16 @@ class MatchResponse(Result):
             object.__setattr__(self, k, None if v is None else float(v))
 
     @property
+    def ok(self) -> bool:
+        """True when the reflection could be computed at some frequency."""
+        return bool(np.any(np.isfinite(self.gamma)))
+
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        return "" if self.ok else "the reflection is not finite at any frequency"
+
+    @property
     def title(self) -> str:
         what = "unmatched element" if self.design is None else self.design.title or self.design.kind
         return f"MatchResponse: {what} ({self.f_hz.size} points)"

@@ -79,6 +79,10 @@ class PartStress(Result):
     def title(self) -> str:
         return f"Stress on {self.name} ({self.what})"
 
+    #: a design, stress table or part row is always computed (bad input raises instead)
+    ok = True
+    reason = ""
+
     @property
     def v_peak(self) -> float:
         """Peak voltage of the sine [V]."""
@@ -122,6 +126,9 @@ class StressReport(Result):
     def title(self) -> str:
         return f"StressReport at {eng(self.drive_w, 'W')} available drive"
 
+    #: a design, stress table or part row is always computed (bad input raises instead)
+    ok = True
+    reason = ""
     rows = _Field()  # noqa: F811  (the field above; Result.rows() is table_rows() here)
 
     def table_rows(self) -> list[tuple[str, str]]:
