@@ -238,6 +238,13 @@ def test_plots_draw_on_given_axes(results, lot_capture):
     step_mhz = res.step_hz * 1e-6
     assert abs(x[np.argmin(y)] - res.fm_hz * 1e-6) < 2 * step_mhz
     assert len(ax.lines) == 1 + 8  # |Z| and fm, fs, fr, fa, fp, fn, f1, f2
+    ff, _ = results[FilterFigures]
+    ax = ff.plot(capture=kit.load(DEMO / "parts" / "lc_bandpass.s2p"))
+    x, y = ax.lines[0].get_xdata(), ax.lines[0].get_ydata()
+    # the band edges are where |S21| is level_db below its maximum (common practice, no
+    # source): the curve drawn, read at the marked edges, is at that level within 0.05 dB
+    for edge in (ff.f_low_hz, ff.f_high_hz):
+        assert np.interp(edge * 1e-6, x, y) == pytest.approx(y.max() + ff.level_db, abs=0.05)
     for cls in (ComponentFigures, MatchResponse, StressReport):
         r, _ = results[cls]
         _, ax = plt.subplots()

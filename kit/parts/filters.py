@@ -35,6 +35,7 @@ from kit.capture import Capture, CaptureError
 from kit.parts.components import ComponentFigures, component_figures  # noqa: F401  (re-export)
 from kit.resonators.frequencies import _cross, _dedupe, _vertex_min
 from kit.results import Result, nan_if_none
+from kit.units import eng, scale_for
 
 __all__ = ["FilterFigures", "ComponentFigures", "filter_figures", "component_figures",
            "FILTER_KINDS", "HALF_POWER_DB"]
@@ -151,6 +152,42 @@ class FilterFigures(Result):
 
     def __repr__(self) -> str:
         return self.report()
+
+    def plot(self, ax=None, capture=None):
+        r"""\|S21\| [dB] with the band edges and the edge level marked; returns the axes.
+
+        Parameters
+        ----------
+        ax : matplotlib Axes, optional
+            Where to draw (a new figure when None).
+        capture : Capture or skrf.Network, optional
+            The measurement analysed, for the curve (trace ``self.trace``); without it only
+            the edges and the levels are drawn.
+        """
+        import matplotlib.pyplot as plt
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 4))
+        marks = [v for v in (self.f_low_hz, self.f_high_hz, self.f_peak_hz) if math.isfinite(v)]
+        f = s = None
+        if capture is not None:
+            f, s, *_ = _s_trace(capture, "S21" if self.trace == "one-port trace" else self.trace)
+        factor, unit = scale_for(marks if f is None else f, "Hz")
+        if f is not None:
+            with np.errstate(divide="ignore"):
+                ax.plot(f * factor, 20 * np.log10(np.abs(s)), "-", lw=1, label=f"|{self.trace}|")
+        ax.axhline(-self.insertion_loss_db + self.level_db, ls="--", lw=1, color="0.5",
+                   label=f"edge level ({self.level_db:g} dB)")
+        for key, label, color in (("f_low_hz", "lower edge", "C1"), ("f_high_hz", "upper edge", "C2"),
+                                  ("f_peak_hz", "notch" if self.kind == "notch" else "peak", "C3")):
+            v = getattr(self, key)
+            if math.isfinite(v):
+                ax.axvline(v * factor, ls=":", lw=1, color=color, label=f"{label} {eng(v, 'Hz')}")
+        ax.set_xlabel(f"frequency [{unit}]")
+        ax.set_ylabel(f"|{self.trace}| [dB]")
+        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
 
 def _s_trace(capture, trace: str):
