@@ -135,28 +135,28 @@ def test_random_bvd_order_and_recovery(fs, r, m, c0):
 
 
 def test_low_figure_of_merit_has_no_zero_reactance():
-    """With M = Qm C1/C0 = 1 X never crosses zero: fr, fa are None and flagged."""
+    """With M = Qm C1/C0 = 1 X never crosses zero: fr, fa are NaN and flagged."""
     # Source: methods sheet section 1.2: fr and fa exist only if M >= ~2.
     c1 = C0 / 5
     l1 = 1 / ((2 * np.pi * FS) ** 2 * c1)
     r1 = 1 / (2 * np.pi * FS * 5.0 * c1)
     f = np.linspace(0.5e6, 1.6e6, 4001)
     res = resonance(f, bvd_z(f, C0, c1, l1, r1))
-    assert res.fr_hz is None and res.fa_hz is None
+    assert math.isnan(res.fr_hz) and math.isnan(res.fa_hz)
     assert "no-zero-reactance" in res.flags
     assert res.fs_hz == pytest.approx(FS, abs=1.0)  # still found from the G peak
 
 
 def test_span_cuts_peaks_and_half_power_points():
-    """A span that stops below fp gives fp None; one narrower than the peak gives Qm None."""
+    """A span that stops below fp gives fp NaN; one narrower than the peak gives Qm NaN."""
     f = np.linspace(0.9e6, 1.2e6, 6001)
     z = bvd_z(f)
     r = resonance(f, z, span_hz=(0.95e6, 1.05e6))
-    assert r.fp_hz is None and r.fn_hz is None and r.k_eff is None
+    assert math.isnan(r.fp_hz) and math.isnan(r.fn_hz) and math.isnan(r.k_eff)
     assert "no-peak:fp" in r.flags and r.fs_hz == pytest.approx(FS, abs=0.05)
     r2 = resonance(f, z, span_hz=(0.998e6, 1.002e6))
-    assert r2.qm is None and "half-power-outside-span" in r2.flags
-    assert not r2.ok
+    assert math.isnan(r2.qm) and "half-power-outside-span" in r2.flags
+    assert not r2.ok and "qm" in r2.reason and "half-power point" in r2.reason
 
 
 def test_nan_and_repeated_points_are_flagged_not_hidden():
@@ -207,7 +207,7 @@ def test_pzt_bar_s11e_and_k31(realdata):
     # PZT ceramics have k31 of about 0.3 to 0.4 (from memory); the (fm, fn) pair agrees.
     assert 0.28 < k31 < 0.42, f"k31 = {k31:.4f}"
     assert coupling.k31(res.fm_hz, res.fn_hz) == pytest.approx(k31, abs=0.02)
-    assert res.qm is not None and 20 < res.qm < 500
+    assert 20 < res.qm < 500
 
 
 # Source: shared/realdata/crystal-series-through/README (CC-BY-SA-4.0, Sultanovic & Osmic):

@@ -38,7 +38,7 @@ def test_npl_table6c27_unloaded_q_862(realdata):
     q = q_factor(cap, "reflection-method2", fit="NLQFIT7", scale=1.0)
     assert q.converged
     assert q.q_unloaded == pytest.approx(862, abs=0.5), f"Q0 = {q.q_unloaded:.2f}"
-    assert q.q_unloaded_stderr is not None and q.q_unloaded_stderr < 5
+    assert q.q_unloaded_stderr < 5
     assert q.q_loaded < q.q_unloaded and q.coupling == pytest.approx(
         q.q_unloaded / q.q_loaded - 1)
     assert "scale-assumed:1" not in q.flags

@@ -36,6 +36,7 @@ import numpy as np
 
 from kit.match.circuit import load_grid, load_z, measured_z
 from kit.resonators.peaks import clean_trace, conductance_peak, half_power_points, q_half_power
+from kit.results import Result
 
 REF_FANO = ("R. M. Fano, J. Franklin Inst. 249 (1950); Pozar, Microwave Engineering, 4th ed., "
             "section 5.9 (from memory for the section)")
@@ -95,7 +96,7 @@ def fano_integral(f_hz, gamma, weight: str = "1") -> float:
 
 
 @dataclass(frozen=True, eq=False)
-class FanoLimit:
+class FanoLimit(Result):
     """Bode-Fano limit for a parallel RC or RLC equivalent over a band.
 
     Attributes
@@ -133,6 +134,29 @@ class FanoLimit:
     l_std_h: float = 0.0
     fit_residual: float = 0.0
     flags: tuple[str, ...] = ()
+
+    _ROWS = (("r_ohm", "R", "Ω"), ("c_f", "C", "F"), ("l_h", "L", "H"),
+             ("f_lo_hz", "band from", "Hz"), ("f_hi_hz", "band to", "Hz"),
+             ("bound_rad_s", "limit on ∫ ln(1/|Γ|) dω", "rad/s"),
+             ("bound_low_s", "limit on ∫ ω⁻² ln(1/|Γ|) dω", "s/rad"),
+             ("gamma_min", "best constant |Γ| over the band", ""),
+             ("rl_max_db", "best constant return loss", "dB"),
+             ("fit_residual", "fit residual (relative RMS)", ""))
+
+    @property
+    def title(self) -> str:
+        return f"Bode-Fano limit ({self.model})"
+
+    @property
+    def ok(self) -> bool:
+        """True when the limit is a finite positive number."""
+        return bool(np.isfinite(self.bound_rad_s) and self.bound_rad_s > 0)
+
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        return "" if self.ok else (f"the limit is not a finite positive number: R = "
+                                   f"{self.r_ohm:.4g} ohm, C = {self.c_f:.4g} F")
 
     @property
     def log_budget(self) -> float:

@@ -23,6 +23,8 @@ import numpy as np
 
 from kit.capture import Capture, CaptureError
 from kit.network.coerce import is_network, network_of, sweep
+from kit.results import Result, plain
+from kit.units import eng as _eng
 
 PART_KINDS = ("L", "C", "T")
 PLACEMENTS = ("series", "shunt", "transformer")
@@ -234,8 +236,24 @@ def load_z(load, f_hz) -> np.ndarray:
 # ----------------------------------------------------------------------------- the design
 
 
+class _Field:
+    """Lets a dataclass field keep a name that :class:`kit.results.Result` also uses.
+
+    ``MatchDesign.title`` and ``StressReport.rows`` are fields; ``Result`` has a ``title``
+    property and a ``rows()`` method. This non-data descriptor hides the inherited name: on
+    the class it reads as absent (so the field has no default), on an instance the stored
+    field value is found first.
+    """
+
+    def __set_name__(self, owner, name):
+        self.name = name
+
+    def __get__(self, obj, owner=None):
+        raise AttributeError(self.name)
+
+
 @dataclass(frozen=True, eq=False)
-class MatchDesign:
+class MatchDesign(Result):
     """A matching circuit designed for one load, with where it came from.
 
     Attributes
@@ -263,6 +281,10 @@ class MatchDesign:
         Frequency grid of the load capture, if the design came from one.
     info : dict
         Extra numbers (for example the optimiser's result of a band design).
+
+    A :class:`kit.results.Result`: ``to_dict()``/``from_dict()``, ``report()`` (parts with
+    their values, then the notes) and an escaped HTML view; :meth:`summary` is the shorter
+    text with the part labels.
     """
 
     kind: str
@@ -276,6 +298,39 @@ class MatchDesign:
     notes: tuple[str, ...] = ()
     f_grid_hz: np.ndarray | None = None
     info: dict[str, Any] = field(default_factory=dict)
+
+    title = _Field()  # noqa: F811  (the field above is the heading, see _Field)
+
+    #: a design, stress table or part row is always computed (bad input raises instead)
+    ok = True
+    reason = ""
+    _ROWS = (("r_source_ohm", "source resistance", "Ω"), ("f_design_hz", "design frequency", "Hz"))
+
+    def rows(self) -> list[tuple[str, str]]:
+        """Source and design frequency ("not used" when NaN), then one row per part."""
+        rows = [(k, "not used" if v == "not found" else v) for k, v in super().rows()]
+        return rows + [
+            (f"{p.name} ({p.placement})",
+             _eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {p.value:.4g}")
+            for p in self.parts]
+
+    def _footer(self) -> list[str]:
+        return super()._footer() + [f"note: {n}" for n in self.notes]
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON data of every field (parts as dicts, the grid as a list or None)."""
+        d = {k: plain(getattr(self, k)) for k in self.__dataclass_fields__ if k != "parts"}
+        d["parts"] = [plain(dataclasses.asdict(p)) for p in self.parts]
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> "MatchDesign":
+        """The design back from :meth:`to_dict`."""
+        parts = tuple(Part(**{**p, "turns": None if p.get("turns") is None else tuple(p["turns"])})
+                      for p in d.get("parts", ()))
+        out = super().from_dict({k: v for k, v in d.items() if k != "parts"} | {"parts": ()})
+        grid = None if out.f_grid_hz is None else np.asarray(out.f_grid_hz, dtype=float)
+        return dataclasses.replace(out, parts=parts, f_grid_hz=grid)
 
     @property
     def values(self) -> dict[str, float]:

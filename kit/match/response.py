@@ -13,6 +13,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,6 +26,8 @@ from kit.network.reflection import (  # noqa: F401
     return_loss_db,
     vswr,
 )
+from kit.results import Result
+from kit.units import scale_for
 
 
 def ladder_waves(design: MatchDesign | None, z_load, f_hz, v_source=1.0, r_source_ohm=50.0,
@@ -79,7 +82,7 @@ def ladder_waves(design: MatchDesign | None, z_load, f_hz, v_source=1.0, r_sourc
 
 
 @dataclass(frozen=True, eq=False)
-class Bandwidth:
+class Bandwidth(Result):
     """Band where the return loss meets a level, around the best-matched point.
 
     Attributes
@@ -109,6 +112,24 @@ class Bandwidth:
     fractional: float
     found: bool
     message: str
+
+    _ROWS = (("rl_db", "required return loss", "dB"), ("f_lo_hz", "lower edge", "Hz"),
+             ("f_hi_hz", "upper edge", "Hz"), ("f_best_hz", "best match at", "Hz"),
+             ("width_hz", "width", "Hz"), ("fractional", "fractional width", ""))
+
+    @property
+    def ok(self) -> bool:
+        """True when a band meeting the level was found."""
+        return bool(self.found)
+
+    @property
+    def reason(self) -> str:
+        """Why no band was found ("" when found)."""
+        return "" if self.found else self.message
+
+    @property
+    def title(self) -> str:
+        return f"Bandwidth at {self.rl_db:g} dB return loss"
 
     def __str__(self) -> str:
         return self.message
@@ -166,7 +187,7 @@ def bandwidth(f_hz, rl_db_values, rl_db: float = 10.0) -> Bandwidth:
 
 
 @dataclass(frozen=True, eq=False)
-class MatchResponse:
+class MatchResponse(Result):
     """Response of a load through a matching circuit (or directly) from a source R0.
 
     Attributes
@@ -199,6 +220,77 @@ class MatchResponse:
     design: MatchDesign | None
     q_inductor: float | None = None
     q_capacitor: float | None = None
+
+    _ROWS = (("r_source_ohm", "source resistance", "Ω"), ("best_rl_db", "best return loss", "dB"),
+             ("f_best_hz", "best match at", "Hz"), ("q_inductor", "inductor Q", ""),
+             ("q_capacitor", "capacitor Q", ""))
+
+    def __post_init__(self):
+        for k in ("f_hz", "delivered"):
+            object.__setattr__(self, k, np.asarray(getattr(self, k), dtype=float))
+        for k in ("z_load", "z_in", "gamma"):
+            object.__setattr__(self, k, np.asarray(getattr(self, k), dtype=complex))
+        for k in ("q_inductor", "q_capacitor"):  # None (lossless) is kept: it is not missing
+            v = getattr(self, k)
+            object.__setattr__(self, k, None if v is None else float(v))
+
+    @property
+    def ok(self) -> bool:
+        """True when the reflection could be computed at some frequency."""
+        return bool(np.any(np.isfinite(self.gamma)))
+
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        return "" if self.ok else "the reflection is not finite at any frequency"
+
+    @property
+    def title(self) -> str:
+        what = "unmatched element" if self.design is None else self.design.title or self.design.kind
+        return f"MatchResponse: {what} ({self.f_hz.size} points)"
+
+    @property
+    def best_rl_db(self) -> float:
+        """Best return loss over the frequencies [dB] (NaN when none could be computed)."""
+        rl = self.return_loss_db
+        return float(np.nanmax(rl)) if np.any(np.isfinite(rl)) else float("nan")
+
+    @property
+    def f_best_hz(self) -> float:
+        """Frequency of the best return loss [Hz]."""
+        rl = self.return_loss_db
+        ok = np.isfinite(rl)
+        return float(self.f_hz[np.nanargmax(np.where(ok, rl, -np.inf))]) if ok.any() else np.nan
+
+    def rows(self) -> list[tuple[str, str]]:
+        """The rows of ``_ROWS`` (lossless parts read "lossless") and the 10 dB band."""
+        rows = [(k, "lossless" if v == "not found" and "Q" in k else v)
+                for k, v in super().rows()]
+        return rows + [("band at 10 dB return loss", self.bandwidth(10.0).message)]
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "MatchResponse":
+        """The response back from :meth:`to_dict` (the design too)."""
+        design = d.get("design")
+        out = super().from_dict({**d, "design": None})
+        if design is not None:
+            out = dataclasses.replace(out, design=MatchDesign.from_dict(design))
+        return out
+
+    def plot(self, ax=None):
+        """Return loss over frequency [dB]; returns the axes."""
+        import matplotlib.pyplot as plt
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 4))
+        factor, unit = scale_for(self.f_hz, "Hz")
+        label = "unmatched" if self.design is None else (self.design.title or self.design.kind)
+        ax.plot(self.f_hz * factor, self.return_loss_db, "-", label=label)
+        ax.set_xlabel(f"frequency [{unit}]")
+        ax.set_ylabel("return loss [dB]")
+        ax.set_title(f"return loss from {self.r_source_ohm:g} Ω", fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
     @property
     def return_loss_db(self) -> np.ndarray:

@@ -19,12 +19,16 @@ References
 
 from __future__ import annotations
 
+import html
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from kit.match.circuit import MatchDesign, eng, load_z
+from kit._text import html_rows
+from kit.match.circuit import MatchDesign, _Field, eng, load_z
 from kit.match.response import gamma_from_z, ladder_waves
+from kit.results import Result
+from kit.units import scale_for
 
 
 def assumption_text(drive_w: float, r_source_ohm: float) -> str:
@@ -37,7 +41,7 @@ def assumption_text(drive_w: float, r_source_ohm: float) -> str:
 
 
 @dataclass(frozen=True)
-class PartStress:
+class PartStress(Result):
     """Stress on one item, at the frequency where its voltage is largest.
 
     Attributes
@@ -67,6 +71,18 @@ class PartStress:
     f_at_v_hz: float
     f_at_i_hz: float
 
+    _ROWS = (("v_rms", "largest voltage (RMS)", "V"), ("v_peak", "largest voltage (peak)", "V"),
+             ("i_rms", "largest current (RMS)", "A"), ("p_w", "largest power", "W"),
+             ("f_at_v_hz", "largest voltage at", "Hz"), ("f_at_i_hz", "largest current at", "Hz"))
+
+    @property
+    def title(self) -> str:
+        return f"Stress on {self.name} ({self.what})"
+
+    #: a design, stress table or part row is always computed (bad input raises instead)
+    ok = True
+    reason = ""
+
     @property
     def v_peak(self) -> float:
         """Peak voltage of the sine [V]."""
@@ -74,7 +90,7 @@ class PartStress:
 
 
 @dataclass(frozen=True, eq=False)
-class StressReport:
+class StressReport(Result):
     """Stress table at one drive power, with the assumption it rests on.
 
     Attributes
@@ -103,6 +119,61 @@ class StressReport:
     gamma: np.ndarray
     assumptions: str
     waves: dict = field(default_factory=dict, repr=False)
+
+    _ROWS = (("drive_w", "available drive power", "W"), ("r_source_ohm", "source resistance", "Ω"))
+
+    @property
+    def title(self) -> str:
+        return f"StressReport at {eng(self.drive_w, 'W')} available drive"
+
+    #: a design, stress table or part row is always computed (bad input raises instead)
+    ok = True
+    reason = ""
+    rows = _Field()  # noqa: F811  (the field above; Result.rows() is table_rows() here)
+
+    def table_rows(self) -> list[tuple[str, str]]:
+        """Drive and source, then per item its largest RMS voltage, current and power."""
+        return Result.rows(self) + [
+            (r.name, f"{eng(r.v_rms, 'V')} RMS ({eng(r.v_peak, 'V')} peak), "
+                     f"{eng(r.i_rms, 'A')} RMS, {eng(r.p_w, 'W')} at {eng(r.f_at_v_hz, 'Hz')}")
+            for r in self.rows]
+
+    def report(self) -> str:
+        """Text view: drive, one line per item, the assumption (:meth:`summary`: a table)."""
+        return "\n".join([self.title] + [f"  {k}: {v}" for k, v in self.table_rows()]
+                         + [f"  {self.assumptions}"])
+
+    def _repr_html_(self) -> str:
+        return (f"<div><b>{html.escape(self.title)}</b><table>{html_rows(self.table_rows())}"
+                f"</table><div>{html.escape(self.assumptions)}</div></div>")
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "StressReport":
+        """The report back from :meth:`to_dict` (rows, arrays and waves)."""
+        def arr(v):
+            if isinstance(v, dict) and set(v) == {"re", "im"}:
+                return np.asarray(v["re"], float) + 1j * np.asarray(v["im"], float)
+            return np.asarray(v, dtype=float)
+
+        return cls(rows=tuple(PartStress.from_dict(r) for r in d["rows"]),
+                   drive_w=float(d["drive_w"]), r_source_ohm=float(d["r_source_ohm"]),
+                   f_hz=arr(d["f_hz"]), delivered_w=arr(d["delivered_w"]), gamma=arr(d["gamma"]),
+                   assumptions=d["assumptions"],
+                   waves={k: arr(v) for k, v in d.get("waves", {}).items()})
+
+    def plot(self, ax=None):
+        """Power delivered to the element over frequency [W]; returns the axes."""
+        import matplotlib.pyplot as plt
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 4))
+        factor, unit = scale_for(self.f_hz, "Hz")
+        ax.plot(self.f_hz * factor, self.delivered_w, "-", label="delivered to the element")
+        ax.set_xlabel(f"frequency [{unit}]")
+        ax.set_ylabel("power [W]")
+        ax.set_title(self.title, fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
     def row(self, name: str) -> PartStress:
         """The row called ``name``."""

@@ -12,26 +12,34 @@ References
 
 from __future__ import annotations
 
-import html
 import math
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
+from kit._text import fmt_value
 from kit.capture import CaptureError
 from kit.network.coerce import sweep
 from kit.resonators.peaks import crossing, sort_merge, vertex_min
+from kit.results import Result, nan_if_none, plain
+from kit.units import eng, scale_for, unit_of
 
 __all__ = ["ComponentFigures", "component_figures"]
 
 
-from kit._text import fmt_value as _fmt  # noqa: E402
-from kit._text import html_rows as _esc_rows
+
+_COMPONENT_VALUES = ("srf_hz", "f_extremum_hz", "z_extremum_ohm", "q_max", "f_q_max_hz",
+                     "estimate_residual_rel")
+_ARRAYS = ("f_hz", "r_ohm", "x_ohm", "q", "value")
+
+
+def _empty() -> np.ndarray:
+    return np.empty(0)
 
 
 @dataclass(frozen=True, eq=False)
-class ComponentFigures:
+class ComponentFigures(Result):
     """Self-resonance, Q and effective value of a real inductor or capacitor.
 
     Attributes
@@ -39,80 +47,133 @@ class ComponentFigures:
     kind : str
         "inductor" or "capacitor" (from the sign of the reactance at the lowest frequencies
         unless given).
-    srf_hz : float or None
-        Self-resonant frequency: where the reactance first changes sign [Hz].
-    f_extremum_hz, z_extremum_ohm : float or None
+    srf_hz : float
+        Self-resonant frequency: where the reactance first changes sign [Hz]; NaN when it
+        is not inside the span.
+    f_extremum_hz, z_extremum_ohm : float
         Frequency and value of max \\|Z\\| (inductor) or min \\|Z\\| (capacitor) near the
         SRF, parabola-refined.
-    q_max, f_q_max_hz : float or None
+    q_max, f_q_max_hz : float
         Highest Q = \\|X\\|/R below the SRF and where it occurs.
     estimate : dict
         Closed-form estimate of the circuit (inductor "L", "Rs", "Cp"; capacitor "C",
         "ESR", "ESL") [SI units]; not a fit, no uncertainties.
-    estimate_residual_rel : float or None
+    estimate_residual_rel : float
         RMS of \\|Z_estimate - Z\\| / \\|Z\\|: how well the estimate describes the data.
     fit : FitResult or None
         The fitted real-component model from :func:`kit.fit` (only with ``fit_model=True``).
     f_hz, r_ohm, x_ohm, q, value : numpy.ndarray
         Frequency [Hz], resistance and reactance [ohm], Q = \\|X\\|/R [1] (NaN where R <= 0)
         and the effective value: L = X/omega [H] for an inductor, C = -1/(omega X) [F] for a
-        capacitor.
+        capacitor (empty when built from a dict without arrays).
     flags : tuple of str
     name, method : str
+
+    Figures not found are NaN. ``ok`` is True when the self-resonance and the highest Q
+    were found; otherwise ``reason`` says which not and why (the estimate may still hold).
     """
 
     kind: str
-    srf_hz: float | None
-    f_extremum_hz: float | None
-    z_extremum_ohm: float | None
-    q_max: float | None
-    f_q_max_hz: float | None
+    srf_hz: float
+    f_extremum_hz: float
+    z_extremum_ohm: float
+    q_max: float
+    f_q_max_hz: float
     estimate: dict[str, float]
-    estimate_residual_rel: float | None
+    estimate_residual_rel: float
     fit: Any
-    f_hz: np.ndarray = field(repr=False)
-    r_ohm: np.ndarray = field(repr=False)
-    x_ohm: np.ndarray = field(repr=False)
-    q: np.ndarray = field(repr=False)
-    value: np.ndarray = field(repr=False)
+    f_hz: np.ndarray = field(default_factory=_empty, repr=False)
+    r_ohm: np.ndarray = field(default_factory=_empty, repr=False)
+    x_ohm: np.ndarray = field(default_factory=_empty, repr=False)
+    q: np.ndarray = field(default_factory=_empty, repr=False)
+    value: np.ndarray = field(default_factory=_empty, repr=False)
     flags: tuple[str, ...] = ()
     name: str = "capture"
     method: str = "series-through"
 
+    _ROWS = (("srf_hz", "self-resonance", "Hz"), ("f_extremum_hz", "|Z| extremum at", "Hz"),
+             ("z_extremum_ohm", "|Z| extremum", unit_of("z_extremum_ohm")),
+             ("q_max", "highest Q", ""), ("f_q_max_hz", "highest Q at", "Hz"),
+             ("estimate_residual_rel", "estimate residual", ""))
+
+    def __post_init__(self):
+        for key in _COMPONENT_VALUES:
+            object.__setattr__(self, key, nan_if_none(getattr(self, key)))
+        for key in _ARRAYS:
+            object.__setattr__(self, key, np.asarray(getattr(self, key), dtype=float))
+        object.__setattr__(self, "estimate", {k: nan_if_none(v) for k, v in self.estimate.items()})
+        object.__setattr__(self, "flags", tuple(self.flags))
+
+    @property
+    def ok(self) -> bool:
+        """True when the self-resonance and the highest Q below it were found."""
+        return math.isfinite(self.srf_hz) and math.isfinite(self.q_max)
+
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        why = []
+        if not math.isfinite(self.srf_hz):
+            why.append("no self-resonance inside the span (the reactance does not change sign)")
+        if not math.isfinite(self.q_max):
+            why.append("no point with R > 0 below the self-resonance for the highest Q")
+        return "; ".join(why)
+
+    @property
+    def title(self) -> str:
+        return (f"Component figures of {self.name!r} ({self.kind}, {self.method}, "
+                f"{len(self.f_hz)} points)")
+
+    def rows(self) -> list[tuple[str, str]]:
+        """The rows of ``_ROWS`` and one per estimated circuit value."""
+        return super().rows() + [(f"{k} (estimate)", fmt_value(v, unit_of(k)))
+                                 for k, v in self.estimate.items()]
+
     def to_dict(self, arrays: bool = False) -> dict[str, Any]:
         """Plain dict; the per-frequency arrays only with ``arrays=True`` (as lists)."""
-        d = {k: getattr(self, k) for k in ("kind", "srf_hz", "f_extremum_hz", "z_extremum_ohm",
-                                           "q_max", "f_q_max_hz", "estimate_residual_rel",
-                                           "name", "method")}
-        d["estimate"] = dict(self.estimate)
-        d["flags"] = list(self.flags)
+        d = {k: plain(getattr(self, k)) for k in self.__dataclass_fields__
+             if k not in _ARRAYS and k != "fit"}
         d["fit"] = None if self.fit is None else self.fit.to_dict()
         if arrays:
-            for k in ("f_hz", "r_ohm", "x_ohm", "q", "value"):
+            for k in _ARRAYS:
                 d[k] = [None if not np.isfinite(v) else float(v) for v in getattr(self, k)]
         return d
 
-    def _rows(self) -> list[tuple[str, str]]:
-        units = {"L": "H", "Cp": "F", "Rs": "ohm", "C": "F", "ESL": "H", "ESR": "ohm"}
-        rows = [("kind", self.kind), ("self-resonance", _fmt(self.srf_hz, "Hz")),
-                ("max |Z|" if self.kind == "inductor" else "min |Z|",
-                 _fmt(self.z_extremum_ohm, "ohm") + " at " + _fmt(self.f_extremum_hz, "Hz")),
-                ("highest Q", _fmt(self.q_max) + " at " + _fmt(self.f_q_max_hz, "Hz"))]
-        rows += [(f"{k} (estimate)", _fmt(v, units.get(k, ""))) for k, v in self.estimate.items()]
-        rows.append(("estimate residual", _fmt(self.estimate_residual_rel)))
-        return rows
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> "ComponentFigures":
+        """The figures back from :meth:`to_dict` (arrays too when they were included)."""
+        from kit.resonators.fitting import FitResult
+
+        kw = {k: d[k] for k in cls.__dataclass_fields__ if k in d}
+        kw["fit"] = None if d.get("fit") is None else FitResult.from_dict(d["fit"])
+        for k in _ARRAYS:
+            if k in kw:
+                kw[k] = [np.nan if v is None else v for v in kw[k]]
+        kw["flags"] = tuple(kw.get("flags", ()))
+        return cls(**kw)
 
     def __repr__(self) -> str:
-        lines = [f"Component figures of {self.name!r} ({self.method}, {len(self.f_hz)} points)"]
-        lines += [f"  {k:<22} {v}" for k, v in self._rows()]
-        lines.append(f"  flags: {', '.join(self.flags) if self.flags else 'none'}")
-        return "\n".join(lines)
+        return self.report()
 
-    def _repr_html_(self) -> str:
-        flags = html.escape(", ".join(self.flags)) if self.flags else "none"
-        return (f"<div><b>Component figures of {html.escape(self.name)}</b> "
-                f"({html.escape(self.method)})<table>{_esc_rows(self._rows())}</table>"
-                f"<div>flags: {flags}</div></div>")
+    def plot(self, ax=None):
+        """Q = \\|X\\|/R over frequency, the self-resonance marked; returns the axes."""
+        import matplotlib.pyplot as plt
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 4))
+        factor, unit = scale_for(self.f_hz, "Hz")
+        ax.plot(self.f_hz * factor, self.q, "-", label="Q = |X|/R")
+        if math.isfinite(self.srf_hz):
+            ax.axvline(self.srf_hz * factor, ls=":", color="C1",
+                       label=f"self-resonance {eng(self.srf_hz, 'Hz')}")
+        if math.isfinite(self.q_max):
+            ax.plot([self.f_q_max_hz * factor], [self.q_max], "o", color="C2",
+                    label=f"highest Q {fmt_value(self.q_max, '', '.4g')}")
+        ax.set_xlabel(f"frequency [{unit}]")
+        ax.set_ylabel("Q [1]")
+        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
 
 def _series_rl(f, z, cp):

@@ -26,20 +26,17 @@ References
 
 from __future__ import annotations
 
-import dataclasses
-import html
 import math
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 
-from kit._text import fmt_value as _fmt
-from kit._text import html_rows as _esc_rows
 from kit.capture import CaptureError
 from kit.network.coerce import name_of, network_of
 from kit.parts.components import ComponentFigures, component_figures  # noqa: F401  (re-export)
 from kit.resonators.peaks import crossing, drop_nonfinite, sort_merge, vertex_min
+from kit.results import Result, nan_if_none
+from kit.units import eng, scale_for
 
 __all__ = ["FilterFigures", "ComponentFigures", "filter_figures", "component_figures",
            "FILTER_KINDS", "HALF_POWER_DB"]
@@ -55,8 +52,15 @@ HALF_POWER_DB: float = -10.0 * math.log10(2.0)
 
 # =========================================================================== filters
 
+_FILTER_VALUES = ("f_low_hz", "f_high_hz", "center_hz", "bandwidth_hz", "q_loaded", "f_peak_hz",
+                  "rejection_db")
+#: the figures a response of each kind must have to be analysed
+_NEEDED = {"low-pass": ("f_high_hz",), "high-pass": ("f_low_hz",),
+           "band-pass": ("f_low_hz", "f_high_hz"), "notch": ("f_low_hz", "f_high_hz")}
+
+
 @dataclass(frozen=True)
-class FilterFigures:
+class FilterFigures(Result):
     """Figures of merit of one filter response.
 
     Attributes
@@ -67,19 +71,19 @@ class FilterFigures:
         Edge level relative to the pass-band maximum [dB] (negative).
     insertion_loss_db : float
         Minus the pass-band maximum of \\|S21\\| [dB].
-    f_low_hz, f_high_hz : float or None
+    f_low_hz, f_high_hz : float
         Lower and upper band edges at ``level_db`` [Hz] (a low-pass has only f_high, a
-        high-pass only f_low; for a notch they bound the stop band).
-    center_hz : float or None
+        high-pass only f_low; for a notch they bound the stop band); NaN when not found.
+    center_hz : float
         sqrt(f_low f_high) [Hz] (band-pass and notch).
-    bandwidth_hz : float or None
+    bandwidth_hz : float
         f_high - f_low; for a low-pass, f_high (from DC) [Hz].
-    q_loaded : float or None
+    q_loaded : float
         center / bandwidth [1] (band-pass and notch).
-    f_peak_hz : float or None
+    f_peak_hz : float
         Frequency of maximum \\|S21\\| (band-pass) or of minimum \\|S21\\| (notch),
         parabola-refined [Hz].
-    rejection_db : float or None
+    rejection_db : float
         Pass-band maximum minus the highest \\|S21\\| in the stop band [dB]; for a notch,
         the notch depth.
     stopband_hz : tuple of (float, float)
@@ -92,53 +96,99 @@ class FilterFigures:
         Capture name and the S-parameter used.
     points : int
         Number of samples used.
+
+    Figures not found are NaN. ``ok`` is True when the band edges of the kind were found
+    (f_high for a low-pass, f_low for a high-pass, both otherwise); else ``reason`` says why.
     """
 
     kind: str
     level_db: float
     insertion_loss_db: float
-    f_low_hz: float | None
-    f_high_hz: float | None
-    center_hz: float | None
-    bandwidth_hz: float | None
-    q_loaded: float | None
-    f_peak_hz: float | None
-    rejection_db: float | None
+    f_low_hz: float
+    f_high_hz: float
+    center_hz: float
+    bandwidth_hz: float
+    q_loaded: float
+    f_peak_hz: float
+    rejection_db: float
     stopband_hz: tuple[tuple[float, float], ...]
     flags: tuple[str, ...]
     name: str
     trace: str
     points: int
 
-    def to_dict(self) -> dict[str, Any]:
-        """Plain dict (JSON-friendly)."""
-        d = dataclasses.asdict(self)
-        d["flags"] = list(self.flags)
-        d["stopband_hz"] = [list(r) for r in self.stopband_hz]
-        return d
+    _ROWS = (("insertion_loss_db", "insertion loss", "dB"), ("level_db", "edge level", "dB"),
+             ("f_low_hz", "lower edge", "Hz"), ("f_high_hz", "upper edge", "Hz"),
+             ("center_hz", "centre", "Hz"), ("bandwidth_hz", "bandwidth", "Hz"),
+             ("q_loaded", "loaded Q", ""), ("f_peak_hz", "peak (band-pass) or notch", "Hz"),
+             ("rejection_db", "stop-band rejection or notch depth", "dB"))
 
-    def _rows(self) -> list[tuple[str, str]]:
-        return [("kind", self.kind), ("insertion loss", _fmt(self.insertion_loss_db, "dB", ".4f")),
-                (f"lower edge ({self.level_db:g} dB)", _fmt(self.f_low_hz, "Hz")),
-                (f"upper edge ({self.level_db:g} dB)", _fmt(self.f_high_hz, "Hz")),
-                ("centre", _fmt(self.center_hz, "Hz")),
-                ("bandwidth", _fmt(self.bandwidth_hz, "Hz")),
-                ("loaded Q", _fmt(self.q_loaded)),
-                ("notch" if self.kind == "notch" else "peak", _fmt(self.f_peak_hz, "Hz")),
-                ("notch depth" if self.kind == "notch" else "stop-band rejection",
-                 _fmt(self.rejection_db, "dB", ".4g"))]
+    def __post_init__(self):
+        for key in _FILTER_VALUES:
+            object.__setattr__(self, key, nan_if_none(getattr(self, key)))
+        object.__setattr__(self, "flags", tuple(self.flags))
+        object.__setattr__(self, "stopband_hz",
+                           tuple((float(lo), float(hi)) for lo, hi in self.stopband_hz))
+
+    @property
+    def ok(self) -> bool:
+        """True when the band edges of the response's kind were found."""
+        need = _NEEDED.get(self.kind)
+        return need is not None and all(math.isfinite(getattr(self, k)) for k in need)
+
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        if self.kind not in _NEEDED:
+            return "the kind of response could not be determined: no edge in the span"
+        missing = [k.removesuffix("_hz").replace("_", " ") for k in _NEEDED[self.kind]
+                   if not math.isfinite(getattr(self, k))]
+        return (f"{' and '.join(missing)} edge not found at {self.level_db:g} dB inside the "
+                f"span ({self.kind})") if missing else ""
+
+    @property
+    def title(self) -> str:
+        return (f"Filter figures of {self.name!r} ({self.kind}, {self.trace}, "
+                f"{self.points} points)")
 
     def __repr__(self) -> str:
-        lines = [f"Filter figures of {self.name!r} ({self.trace}, {self.points} points)"]
-        lines += [f"  {k:<22} {v}" for k, v in self._rows()]
-        lines.append(f"  flags: {', '.join(self.flags) if self.flags else 'none'}")
-        return "\n".join(lines)
+        return self.report()
 
-    def _repr_html_(self) -> str:
-        flags = html.escape(", ".join(self.flags)) if self.flags else "none"
-        return (f"<div><b>Filter figures of {html.escape(self.name)}</b> "
-                f"({html.escape(self.trace)})<table>{_esc_rows(self._rows())}</table>"
-                f"<div>flags: {flags}</div></div>")
+    def plot(self, ax=None, capture=None):
+        r"""\|S21\| [dB] with the band edges and the edge level marked; returns the axes.
+
+        Parameters
+        ----------
+        ax : matplotlib Axes, optional
+            Where to draw (a new figure when None).
+        capture : Capture or skrf.Network, optional
+            The measurement analysed, for the curve (trace ``self.trace``); without it only
+            the edges and the levels are drawn.
+        """
+        import matplotlib.pyplot as plt
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 4))
+        marks = [v for v in (self.f_low_hz, self.f_high_hz, self.f_peak_hz) if math.isfinite(v)]
+        f = s = None
+        if capture is not None:
+            f, s, *_ = _s_trace(capture, "S21" if self.trace == "one-port trace" else self.trace)
+        factor, unit = scale_for(marks if f is None else f, "Hz")
+        if f is not None:
+            with np.errstate(divide="ignore"):
+                ax.plot(f * factor, 20 * np.log10(np.abs(s)), "-", lw=1, label=f"|{self.trace}|")
+        ax.axhline(-self.insertion_loss_db + self.level_db, ls="--", lw=1, color="0.5",
+                   label=f"edge level ({self.level_db:g} dB)")
+        for key, label, color in (("f_low_hz", "lower edge", "C1"), ("f_high_hz", "upper edge", "C2"),
+                                  ("f_peak_hz", "notch" if self.kind == "notch" else "peak", "C3")):
+            v = getattr(self, key)
+            if math.isfinite(v):
+                ax.axvline(v * factor, ls=":", lw=1, color=color, label=f"{label} {eng(v, 'Hz')}")
+        ax.set_xlabel(f"frequency [{unit}]")
+        ax.set_ylabel(f"|{self.trace}| [dB]")
+        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
 
 def _s_trace(capture, trace: str):

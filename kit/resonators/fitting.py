@@ -46,6 +46,8 @@ import numpy as np
 from kit.network.coerce import sweep
 from kit.resonators.models import StartError, clean_fz
 from kit.resonators.registry import MODEL_NAMES, get_model
+from kit.results import Result
+from kit.units import unit_of
 
 __all__ = ["fit", "FitResult", "WEIGHTINGS", "SEVERE_FLAGS"]
 
@@ -83,24 +85,14 @@ def _unjson(v, nan=True):
     return v
 
 
-_DIMENSIONLESS = {"kt", "k31", "k33", "k_eff", "qm", "tan_delta"}
-
-
 def param_unit(name: str) -> str:
-    """SI unit of a fit parameter or derived figure by its name ("" for dimensionless)."""
-    if name.endswith("_hz"):
-        return "Hz"
-    if name in _DIMENSIONLESS:
-        return ""
-    if name.startswith("ESR"):
-        return "ohm"
-    if name.startswith("ESL"):
-        return "H"
-    return {"R": "ohm", "L": "H", "C": "F"}.get(name[:1], "")
+    """Unit of a fit parameter or derived figure (:func:`kit.units.unit_of`), ohm as "ohm"."""
+    unit = unit_of(name)
+    return "ohm" if unit == "Ω" else unit
 
 
 @dataclass(frozen=True)
-class FitResult:
+class FitResult(Result):
     """Outcome of one fit: parameters with uncertainties, derived figures and flags.
 
     Attributes
@@ -122,6 +114,9 @@ class FitResult:
         e.g. "at-bound:R2", "not-converged", "poor-fit", "span-too-narrow".
     reason : str
         Why ``ok`` is False (empty when ok).
+
+    A :class:`kit.results.Result` whose ``to_dict()`` is strict JSON (NaN and inf become None,
+    read back as NaN by ``from_dict``), as fits are written with ``allow_nan=False``.
     """
 
     model: str
@@ -146,6 +141,14 @@ class FitResult:
     start: dict = field(default_factory=dict)
     f_hz: Any = field(default=None, repr=False, compare=False)
     z: Any = field(default=None, repr=False, compare=False)
+
+    _ROWS = (("fs_hz", "fs_hz", "Hz"), ("fp_hz", "fp_hz", "Hz"), ("k_eff", "k_eff", ""),
+             ("qm", "qm", ""), ("residual_rel", "residual (normalised RMS)", ""))
+
+    @property
+    def title(self) -> str:
+        return f"fit of {self.name or '<arrays>'} with model {self.model}" + (
+            f" ({self.modes} modes)" if self.modes > 1 else "")
 
     # -- derived figures of the fitted circuit
     @property
@@ -195,10 +198,7 @@ class FitResult:
 
     def report(self) -> str:
         """Plain-text summary: values with standard errors, derived figures, flags."""
-        head = f"fit of {self.name or '<arrays>'} with model {self.model}"
-        if self.modes > 1:
-            head += f" ({self.modes} modes)"
-        lines = [head, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
+        lines = [self.title, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
                  f"flags: {', '.join(self.flags) or 'none'}",
                  f"residual (normalised RMS): {self.residual_rel:.3g}; points: {self.n_points}; "
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]

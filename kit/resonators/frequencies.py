@@ -27,7 +27,7 @@ Bode-Fano series branch and the match panel read the same fs from the same point
   samples, solved inside the bracketing interval (linear interpolation as a fall-back); for
   the half-power points the quadratic is fitted to 1/G, which is quadratic in the motional
   reactance.
-* An extremum at the edge of the span, or a crossing that does not occur, gives ``None`` and
+* An extremum at the edge of the span, or a crossing that does not occur, gives NaN and
   a flag; nothing is extrapolated.
 
 References
@@ -40,8 +40,6 @@ References
 
 from __future__ import annotations
 
-import dataclasses
-import html
 import math
 from dataclasses import dataclass
 from typing import Any
@@ -60,6 +58,8 @@ from kit.resonators.peaks import (
     resistance_peak,
     vertex_min,
 )
+from kit.results import Result, nan_if_none
+from kit.units import eng, scale_for, unit_of
 
 __all__ = ["Resonance", "resonance", "INTERPOLATION"]
 
@@ -69,30 +69,44 @@ INTERPOLATION = "parabolic-3pt (|Z|^2, |Y|^2, 1/G, 1/R); quadratic-3pt crossings
 _MIN_POINTS = 7
 
 
+#: Result fields that are numbers (NaN when not found).
+_VALUES = ("fm_hz", "fn_hz", "fs_hz", "fp_hz", "fr_hz", "fa_hz", "zm_ohm", "zn_ohm", "g_max_s",
+           "r_max_ohm", "f1_hz", "f2_hz", "k_eff", "qm")
+#: flag -> why a figure needed by ``ok`` is missing
+_WHY = {"no-peak:fs": "no conductance peak inside the span",
+        "no-peak:fp": "no resistance peak above fs inside the span",
+        "fp-not-above-fs": "fp is not above fs",
+        "half-power-outside-span": "a half-power point of the conductance is outside the span"}
+
+
+def _row(key: str, label: str, unit: str | None = None) -> tuple[str, str, str]:
+    return key, label, unit_of(key) if unit is None else unit
+
+
 @dataclass(frozen=True)
-class Resonance:
+class Resonance(Result):
     """Characteristic frequencies of one resonance, with what could not be found.
 
     Attributes
     ----------
-    fm_hz, fn_hz : float or None
+    fm_hz, fn_hz : float
         Frequencies of minimum and maximum \\|Z\\| [Hz].
-    fs_hz, fp_hz : float or None
+    fs_hz, fp_hz : float
         Frequencies of maximum conductance and of maximum resistance [Hz].
-    fr_hz, fa_hz : float or None
-        Lower and upper zero-reactance frequencies [Hz]; None where X does not cross zero
+    fr_hz, fa_hz : float
+        Lower and upper zero-reactance frequencies [Hz]; NaN where X does not cross zero
         (a resonance with a figure of merit M = Qm C1/C0 below about 2).
-    zm_ohm, zn_ohm : float or None
+    zm_ohm, zn_ohm : float
         \\|Z\\| at fm and at fn [ohm] (from the parabola).
-    g_max_s : float or None
+    g_max_s : float
         Conductance at fs [S].
-    r_max_ohm : float or None
+    r_max_ohm : float
         Resistance at fp [ohm].
-    f1_hz, f2_hz : float or None
+    f1_hz, f2_hz : float
         Lower and upper half-power points of the conductance, G = G(fs)/2 [Hz].
-    k_eff : float or None
+    k_eff : float
         Effective coupling factor from fs and fp [1].
-    qm : float or None
+    qm : float
         Mechanical quality factor fs/(f2 - f1) [1].
     flags : tuple of str
         What could not be computed or looks doubtful, e.g. ``"no-peak:fs"``,
@@ -112,22 +126,26 @@ class Resonance:
         How Z was obtained ("reflection", "series-through", ... or "arrays").
     interpolation : str
         How extrema and crossings were refined.
+
+    Every value that was not found is NaN (a None given is stored as NaN). ``ok`` is True
+    when fs, fp, k_eff and qm are all finite; otherwise ``reason`` says which are missing
+    and why. ``to_dict()`` adds ``ok`` and ``reason`` to the fields.
     """
 
-    fm_hz: float | None
-    fn_hz: float | None
-    fs_hz: float | None
-    fp_hz: float | None
-    fr_hz: float | None
-    fa_hz: float | None
-    zm_ohm: float | None
-    zn_ohm: float | None
-    g_max_s: float | None
-    r_max_ohm: float | None
-    f1_hz: float | None
-    f2_hz: float | None
-    k_eff: float | None
-    qm: float | None
+    fm_hz: float
+    fn_hz: float
+    fs_hz: float
+    fp_hz: float
+    fr_hz: float
+    fa_hz: float
+    zm_ohm: float
+    zn_ohm: float
+    g_max_s: float
+    r_max_ohm: float
+    f1_hz: float
+    f2_hz: float
+    k_eff: float
+    qm: float
     flags: tuple[str, ...]
     span_hz: tuple[float, float]
     points: int
@@ -136,53 +154,87 @@ class Resonance:
     method: str = "arrays"
     interpolation: str = INTERPOLATION
 
+    _ROWS = (_row("fm_hz", "fm (min |Z|)"), _row("fs_hz", "fs (max G)"),
+             _row("fr_hz", "fr (X = 0, lower)"), _row("fa_hz", "fa (X = 0, upper)"),
+             _row("fp_hz", "fp (max R)"), _row("fn_hz", "fn (max |Z|)"),
+             _row("zm_ohm", "|Z| at fm"), _row("zn_ohm", "|Z| at fn"),
+             _row("g_max_s", "G at fs", "S"),  # the field holds siemens (not seconds)
+             _row("r_max_ohm", "R at fp"), _row("f1_hz", "half-power f1"),
+             _row("f2_hz", "half-power f2"), _row("k_eff", "k_eff"),
+             _row("qm", "Qm (half-power)"))
+
+    def __post_init__(self):
+        for key in _VALUES:
+            object.__setattr__(self, key, nan_if_none(getattr(self, key)))
+        object.__setattr__(self, "flags", tuple(self.flags))
+        object.__setattr__(self, "span_hz", tuple(float(v) for v in self.span_hz))
+
     @property
     def ok(self) -> bool:
-        """True when fs, fp, k_eff and qm were all found."""
-        return None not in (self.fs_hz, self.fp_hz, self.k_eff, self.qm)
+        """True when fs, fp, k_eff and qm were all found (finite)."""
+        return all(math.isfinite(getattr(self, k)) for k in ("fs_hz", "fp_hz", "k_eff", "qm"))
+
+    @property
+    def reason(self) -> str:
+        """Which of fs, fp, k_eff and qm were not found and why ("" when ok)."""
+        missing = [k.removesuffix("_hz") for k in ("fs_hz", "fp_hz", "k_eff", "qm")
+                   if not math.isfinite(getattr(self, k))]
+        if not missing:
+            return ""
+        why = [_WHY[fl] for fl in self.flags if fl in _WHY]
+        return f"{', '.join(missing)} not found" + (f": {'; '.join(why)}" if why else "")
+
+    @property
+    def title(self) -> str:
+        lo, hi = self.span_hz
+        return (f"Resonance of {self.name!r} ({self.method}, {self.points} points, "
+                f"{eng(lo, 'Hz', 7)}..{eng(hi, 'Hz', 7)})")
 
     def to_dict(self) -> dict[str, Any]:
-        """Plain dict (JSON-friendly: tuples become lists)."""
-        d = dataclasses.asdict(self)
-        d["flags"] = list(self.flags)
-        d["span_hz"] = list(self.span_hz)
-        return d
+        """Plain JSON data: every field (NaN where not found), plus ``ok`` and ``reason``."""
+        return {**super().to_dict(), "ok": self.ok, "reason": self.reason}
 
-    _ROWS = (("fm_hz", "fm (min |Z|)", "Hz"), ("fs_hz", "fs (max G)", "Hz"),
-             ("fr_hz", "fr (X = 0, lower)", "Hz"), ("fa_hz", "fa (X = 0, upper)", "Hz"),
-             ("fp_hz", "fp (max R)", "Hz"), ("fn_hz", "fn (max |Z|)", "Hz"),
-             ("zm_ohm", "|Z| at fm", "ohm"), ("zn_ohm", "|Z| at fn", "ohm"),
-             ("g_max_s", "G at fs", "S"), ("r_max_ohm", "R at fp", "ohm"),
-             ("f1_hz", "half-power f1", "Hz"), ("f2_hz", "half-power f2", "Hz"),
-             ("k_eff", "k_eff", ""), ("qm", "Qm (half-power)", ""))
-
-    @staticmethod
-    def _fmt(v: float | None, unit: str) -> str:
-        if v is None:
-            return "not found"
-        if unit == "Hz":
-            return f"{v:,.2f} Hz"
-        return f"{v:.6g} {unit}".rstrip()
+    def _footer(self) -> list[str]:
+        return super()._footer() + [f"interpolation: {self.interpolation}"]
 
     def __repr__(self) -> str:
-        lines = [f"Resonance of {self.name!r} ({self.method}, {self.points} points, "
-                 f"{self.span_hz[0]:,.6g}..{self.span_hz[1]:,.6g} Hz)"]
-        for key, label, unit in self._ROWS:
-            lines.append(f"  {label:<20} {self._fmt(getattr(self, key), unit)}")
-        lines.append(f"  flags: {', '.join(self.flags) if self.flags else 'none'}")
-        return "\n".join(lines)
+        return self.report()
 
-    def _repr_html_(self) -> str:
-        e = html.escape
-        rows = "".join(
-            f"<tr><td>{e(label)}</td><td style='text-align:right'>"
-            f"{e(self._fmt(getattr(self, key), unit))}</td></tr>"
-            for key, label, unit in self._ROWS)
-        flags = e(", ".join(self.flags)) if self.flags else "none"
-        return (f"<div><b>Resonance of {e(self.name)}</b> ({e(self.method)}, {self.points} "
-                f"points)<table>{rows}</table><div>flags: {flags}</div>"
-                f"<div style='font-size:smaller'>interpolation: {e(self.interpolation)}</div>"
-                "</div>")
+    def plot(self, ax=None, data=None):
+        """\\|Z\\| over the span with the characteristic frequencies marked; returns the axes.
+
+        Parameters
+        ----------
+        ax : matplotlib Axes, optional
+            Where to draw (a new figure when None).
+        data : Capture, skrf.Network or (f_hz, z_ohm), optional
+            The measurement analysed, for the \\|Z\\| curve (its impedance by ``method``);
+            without it only the marked frequencies are drawn.
+        """
+        import matplotlib.pyplot as plt
+
+        from kit.network.coerce import sweep
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 4))
+        lo, hi = self.span_hz
+        factor, unit = scale_for(self.span_hz, "Hz")
+        if data is not None:
+            method = "reflection" if self.method == "arrays" else self.method
+            sw = sweep(data, method=method, what="Resonance.plot")
+            sel = (sw.f_hz >= lo) & (sw.f_hz <= hi)
+            ax.semilogy(sw.f_hz[sel] * factor, np.abs(sw.z_ohm[sel]), "-", lw=1, label="|Z|")
+        for i, (key, label, _) in enumerate(r for r in self._ROWS if r[0].endswith("_hz")):
+            v = getattr(self, key)
+            if math.isfinite(v):
+                ax.axvline(v * factor, ls=":", lw=1, color=f"C{(i + 1) % 10}",
+                           label=f"{label} {eng(v, 'Hz', 7)}")
+        ax.set_xlim(lo * factor, hi * factor)
+        ax.set_xlabel(f"frequency [{unit}]")
+        ax.set_ylabel(f"|Z| [{unit_of('z_ohm')}]")
+        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
 
 # --------------------------------------------------------------------------- main

@@ -20,17 +20,17 @@ References
 
 from __future__ import annotations
 
-import dataclasses
-import html
 import math
 import warnings
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 
+from kit._text import fmt_value
 from kit.capture import CaptureError
 from kit.network.coerce import name_of, network_of
+from kit.results import Result, nan_if_none
+from kit.units import eng, unit_of
 
 __all__ = ["QFactor", "q_factor", "KINDS"]
 
@@ -44,31 +44,36 @@ KINDS: dict[str, str] = {
 _FITS = ("NLQFIT6", "NLQFIT7", "NLQFIT8")
 
 
+_VALUES = ("q_loaded", "q_loaded_stderr", "q_unloaded", "q_unloaded_stderr", "f_hz",
+           "f_hz_stderr", "coupling", "coupling_stderr", "diameter", "bandwidth_hz", "scale",
+           "rms_error")
+
+
 @dataclass(frozen=True)
-class QFactor:
+class QFactor(Result):
     """Result of a Q-factor fit.
 
     Attributes
     ----------
-    q_loaded, q_loaded_stderr : float or None
+    q_loaded, q_loaded_stderr : float
         Loaded Q and its standard error [1].
-    q_unloaded, q_unloaded_stderr : float or None
-        Unloaded Q and its standard error [1]; None when it cannot be computed (flagged).
-    f_hz, f_hz_stderr : float or None
+    q_unloaded, q_unloaded_stderr : float
+        Unloaded Q and its standard error [1]; NaN when it cannot be computed (flagged).
+    f_hz, f_hz_stderr : float
         Loaded resonant frequency and its standard error [Hz].
-    coupling, coupling_stderr : float or None
+    coupling, coupling_stderr : float
         beta = Q0/QL - 1 [1] (sum of the port couplings for a transmission resonator).
-    diameter : float or None
+    diameter : float
         Q-circle diameter after scaling [1].
-    bandwidth_hz : float or None
+    bandwidth_hz : float
         f_L / Q_L [Hz].
     kind : str
         "reflection", "reflection-method2", "transmission" or "absorption".
     fit : str
         "NLQFIT6", "NLQFIT7" or "NLQFIT8" (MAT 58 algorithm names).
-    scale : float or None
-        The scaling factor A used (None: taken from the fitted detuned S, |S_V| -> 1).
-    rms_error : float or None
+    scale : float
+        The scaling factor A used (NaN: taken from the fitted detuned S, |S_V| -> 1).
+    rms_error : float
         Weighted RMS of the complex residual [1].
     iterations : int
         Gauss-Newton iterations.
@@ -82,67 +87,127 @@ class QFactor:
         The capture's name and the S-parameter used (e.g. "S21").
     points : int
         Number of frequency points fitted.
+    coefficients : tuple of float
+        The fitted MAT 58 coefficients m1..m6 (m7 for NLQFIT7), for :meth:`plot`.
+    f_low_hz : float
+        Lowest frequency fitted [Hz] (the frequency scale of ``coefficients``).
+
+    Missing values (and standard errors that could not be computed) are NaN; ``ok`` is
+    True when the fit converged with finite Q_L and Q_0, else ``reason`` says why.
     """
 
-    q_loaded: float | None
-    q_loaded_stderr: float | None
-    q_unloaded: float | None
-    q_unloaded_stderr: float | None
-    f_hz: float | None
-    f_hz_stderr: float | None
-    coupling: float | None
-    coupling_stderr: float | None
-    diameter: float | None
-    bandwidth_hz: float | None
+    q_loaded: float
+    q_loaded_stderr: float
+    q_unloaded: float
+    q_unloaded_stderr: float
+    f_hz: float
+    f_hz_stderr: float
+    coupling: float
+    coupling_stderr: float
+    diameter: float
+    bandwidth_hz: float
     kind: str
     fit: str
-    scale: float | None
-    rms_error: float | None
+    scale: float
+    rms_error: float
     iterations: int
     converged: bool
     flags: tuple[str, ...]
     name: str
     trace: str
     points: int
+    coefficients: tuple[float, ...] = ()
+    f_low_hz: float = math.nan
+
+    _ROWS = (("q_loaded", "loaded Q", ""), ("q_unloaded", "unloaded Q", ""),
+             ("f_hz", "f_L", unit_of("f_hz")), ("coupling", "coupling beta", ""),
+             ("bandwidth_hz", "bandwidth f_L/Q_L", unit_of("bandwidth_hz")),
+             ("diameter", "Q-circle diameter", ""), ("rms_error", "RMS residual", ""))
+
+    def __post_init__(self):
+        for key in _VALUES + ("f_low_hz",):
+            object.__setattr__(self, key, nan_if_none(getattr(self, key)))
+        object.__setattr__(self, "flags", tuple(self.flags))
+        object.__setattr__(self, "coefficients", tuple(float(c) for c in self.coefficients))
 
     @property
     def ok(self) -> bool:
-        """Converged, with Q_L and Q_0 both computed."""
-        return self.converged and self.q_loaded is not None and self.q_unloaded is not None
+        """Converged, with Q_L and Q_0 both computed (finite)."""
+        return (self.converged and math.isfinite(self.q_loaded)
+                and math.isfinite(self.q_unloaded))
 
-    def to_dict(self) -> dict[str, Any]:
-        """Plain dict (JSON-friendly)."""
-        d = dataclasses.asdict(self)
-        d["flags"] = list(self.flags)
-        return d
+    @property
+    def reason(self) -> str:
+        """Why ``ok`` is False ("" when ok)."""
+        why = []
+        if not self.converged:
+            why.append(f"the {self.fit} fit did not converge in {self.iterations} iterations")
+        if not math.isfinite(self.q_loaded):
+            why.append("the loaded Q was not computed")
+        if not math.isfinite(self.q_unloaded):
+            why.append("the unloaded Q could not be computed from the fitted circle"
+                       + (" (negative loaded Q)" if "negative-q" in self.flags else ""))
+        return "; ".join(why)
 
-    def _rows(self) -> list[tuple[str, str]]:
-        def pm(v, s, fmt):
-            if v is None:
-                return "not computed"
-            txt = format(v, fmt)
-            return txt + (f" ± {format(s, fmt)}" if s is not None else " (no uncertainty)")
+    @property
+    def title(self) -> str:
+        return (f"Q factor of {self.name!r} ({self.kind}, {self.trace}, {self.points} points, "
+                f"{self.fit}, {self.iterations} iterations, "
+                f"{'converged' if self.converged else 'NOT converged'})")
 
-        return [("loaded Q", pm(self.q_loaded, self.q_loaded_stderr, ".6g")),
-                ("unloaded Q", pm(self.q_unloaded, self.q_unloaded_stderr, ".6g")),
-                ("f_L", pm(self.f_hz, self.f_hz_stderr, ",.1f") + " Hz"),
-                ("coupling beta", pm(self.coupling, self.coupling_stderr, ".4g")),
-                ("Q-circle diameter", "—" if self.diameter is None else f"{self.diameter:.4f}"),
-                ("fit", f"{self.fit}, {self.iterations} iterations, "
-                        f"{'converged' if self.converged else 'NOT converged'}")]
+    def rows(self) -> list[tuple[str, str]]:
+        """Rows of ``_ROWS``, each value with its standard error where there is one."""
+        out = []
+        for (key, _, unit), (label, text) in zip(self._ROWS, super().rows()):
+            se = getattr(self, f"{key}_stderr", None)
+            if se is not None and math.isfinite(getattr(self, key)):
+                text += (f" ± {fmt_value(se, unit, '.3g')}" if math.isfinite(se)
+                         else " (no uncertainty)")
+            out.append((label, text))
+        return out
 
     def __repr__(self) -> str:
-        lines = [f"Q factor of {self.name!r} ({self.kind}, {self.trace}, {self.points} points)"]
-        lines += [f"  {k:<18} {v}" for k, v in self._rows()]
-        lines.append(f"  flags: {', '.join(self.flags) if self.flags else 'none'}")
-        return "\n".join(lines)
+        return self.report()
 
-    def _repr_html_(self) -> str:
-        e = html.escape
-        rows = "".join(f"<tr><td>{e(k)}</td><td>{e(v)}</td></tr>" for k, v in self._rows())
-        flags = e(", ".join(self.flags)) if self.flags else "none"
-        return (f"<div><b>Q factor of {e(self.name)}</b> ({e(self.kind)}, {e(self.trace)})"
-                f"<table>{rows}</table><div>flags: {flags}</div></div>")
+    def model_s(self, f_hz) -> np.ndarray:
+        """The fitted S (MAT 58 eq. (21)) at ``f_hz`` [Hz]; NaN without coefficients."""
+        f = np.asarray(f_hz, dtype=float)
+        if len(self.coefficients) < 6:
+            return np.full(f.shape, complex(math.nan, math.nan))
+        return _model(np.asarray(self.coefficients), f, self.f_low_hz)
+
+    def plot(self, ax=None, capture=None):
+        """The fitted Q circle in the complex S plane (and the measured trace); returns ax.
+
+        Parameters
+        ----------
+        ax : matplotlib Axes, optional
+            Where to draw (a new figure when None).
+        capture : Capture or skrf.Network, optional
+            The measurement fitted; its trace (``self.trace``) is drawn as points.
+        """
+        import matplotlib.pyplot as plt
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(5, 5))
+        if capture is not None:
+            ntwk, _ = _trace(capture, self.kind, None if self.trace == "one-port trace"
+                             else self.trace)
+            s = ntwk.s[:, 0, 0]
+            ax.plot(s.real, s.imag, ".", ms=3, label=f"measured {self.trace}")
+        if math.isfinite(self.bandwidth_hz):
+            f = self.f_hz + np.linspace(-8, 8, 801) * self.bandwidth_hz
+            sm = self.model_s(f[f > 0])
+            ax.plot(sm.real, sm.imag, "-", label=f"fitted circle ({self.fit})")
+            s0 = self.model_s([self.f_hz])[0]
+            ax.plot([s0.real], [s0.imag], "o", label=f"f_L {eng(self.f_hz, 'Hz', 7)}")
+        ax.set_aspect("equal", adjustable="datalim")
+        ax.set_xlabel("Re S")
+        ax.set_ylabel("Im S")
+        ax.set_title(f"Q_L {eng(self.q_loaded, '')}, Q_0 {eng(self.q_unloaded, '')}"
+                     + ("" if self.ok else f"\n{self.reason}"), fontsize="small")
+        ax.legend(loc="best", fontsize="x-small")
+        return ax
 
 
 # --------------------------------------------------------------------------- model
@@ -371,4 +436,4 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
                    diameter=diam, bandwidth_hz=bw, kind=kind, fit=fit, scale=a,
                    rms_error=rms, iterations=int(np.squeeze(res["number_iterations"])),
                    converged=converged, flags=tuple(flags), name=name, trace=trace,
-                   points=len(f))
+                   points=len(f), coefficients=tuple(p), f_low_hz=f_low)
