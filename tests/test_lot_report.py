@@ -16,7 +16,8 @@ import pytest
 import skrf
 
 import kit
-from kit.outputs.dataset import ExportError, summary
+from kit.io.writer import ExportError
+from kit.outputs.summary import summary
 from kit.outputs.lot_report import report
 from kit.review.limits import parse_limits
 from kit.review.log import ReviewLog

@@ -75,9 +75,9 @@ class ReviewPanel:
         import ipywidgets as w
 
         from kit.capture import Capture
-        from kit.outputs.dataset import _as_list
+        from kit.outputs.entries import as_list
 
-        self.captures = [c for c in _as_list(captures) if isinstance(c, Capture)]
+        self.captures = [c for c in as_list(captures) if isinstance(c, Capture)]
         if not self.captures:
             raise ValueError("the review panel needs at least one loadable capture")
         self.log = log if isinstance(log, ReviewLog) else ReviewLog(log)
