@@ -12,17 +12,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from kit.capture import from_network
-from kit.review.limits import (
-    Limits,
-    LimitsError,
-    Mask,
-    QuantityLimit,
-    check_mask,
-    draw_limits,
-    load_limits,
-    parse_limits,
-    verdict,
-)
+from kit.review.drawing import draw_limits
+from kit.review.limits import Limits, LimitsError, Mask, QuantityLimit, load_limits, parse_limits
+from kit.review.verdicts import Check, Verdict, check_mask, verdict
 
 EXAMPLE = """\
 # acceptance limits for a lot of 2 MHz discs (invented example)
