@@ -14,10 +14,10 @@ from kit.batch.procedure import Procedure
 from kit.io.cache import CaptureCache
 
 KEY = ["capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f",
-       "c0_f_stderr", "fit_ok", "verdict"]
+       "c0_stderr_f", "fit_ok", "verdict"]
 REQUIRED = ["capture", "path", "sha256", "status", "error", "fs_hz", "fp_hz", "fm_hz", "fn_hz",
-            "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f", "c0_f_stderr", "r1_ohm_stderr",
-            "l1_h_stderr", "c1_f_stderr", "fit_ok", "verdict", "verdict_reasons"]
+            "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f", "c0_stderr_f", "r1_stderr_ohm",
+            "l1_stderr_h", "c1_stderr_f", "fit_ok", "verdict", "verdict_reasons"]
 
 
 @pytest.fixture
@@ -62,7 +62,7 @@ def test_bad_file_is_an_error_row_and_the_rest_completes(lot):
     # the cracked (04) and de-poled (07) parts fail their limits; 01 and 02 pass
     verdict = dict(zip(good["capture"], good["verdict"]))
     assert verdict == {"pzd7-01": "pass", "pzd7-02": "pass", "pzd7-04": "fail", "pzd7-07": "fail"}
-    assert good["c0_f_stderr"].gt(0).all() and good["serial"].tolist() == [1, 2, 4, 7]
+    assert good["c0_stderr_f"].gt(0).all() and good["serial"].tolist() == [1, 2, 4, 7]
 
 
 def test_summary_only_runs_keep_no_captures(lot):
