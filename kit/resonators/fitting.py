@@ -82,20 +82,14 @@ def _unjson(v, nan=True):
     return v
 
 
-_DIMENSIONLESS = {"kt", "k31", "k33", "k_eff", "qm", "tan_delta"}
-
-
 def param_unit(name: str) -> str:
-    """SI unit of a fit parameter or derived figure by its name ("" for dimensionless)."""
-    if name.endswith("_hz"):
-        return "Hz"
-    if name in _DIMENSIONLESS:
-        return ""
-    if name.startswith("ESR"):
-        return "ohm"
-    if name.startswith("ESL"):
-        return "H"
-    return {"R": "ohm", "L": "H", "C": "F"}.get(name[:1], "")
+    """SI unit of a fit parameter or derived figure by its name ("" for dimensionless).
+
+    The kit's one unit look-up, :func:`kit.units.unit_of`.
+    """
+    from kit.units import unit_of
+
+    return unit_of(name)
 
 
 @dataclass(frozen=True)

@@ -71,7 +71,7 @@ class Resonance:
         (a resonance with a figure of merit M = Qm C1/C0 below about 2).
     zm_ohm, zn_ohm : float or None
         \\|Z\\| at fm and at fn [ohm] (from the parabola).
-    g_max_s : float or None
+    g_max_siemens : float or None
         Conductance at fs [S].
     r_max_ohm : float or None
         Resistance at fp [ohm].
@@ -109,7 +109,7 @@ class Resonance:
     fa_hz: float | None
     zm_ohm: float | None
     zn_ohm: float | None
-    g_max_s: float | None
+    g_max_siemens: float | None
     r_max_ohm: float | None
     f1_hz: float | None
     f2_hz: float | None
@@ -139,7 +139,7 @@ class Resonance:
              ("fr_hz", "fr (X = 0, lower)", "Hz"), ("fa_hz", "fa (X = 0, upper)", "Hz"),
              ("fp_hz", "fp (max R)", "Hz"), ("fn_hz", "fn (max |Z|)", "Hz"),
              ("zm_ohm", "|Z| at fm", "ohm"), ("zn_ohm", "|Z| at fn", "ohm"),
-             ("g_max_s", "G at fs", "S"), ("r_max_ohm", "R at fp", "ohm"),
+             ("g_max_siemens", "G at fs", "S"), ("r_max_ohm", "R at fp", "ohm"),
              ("f1_hz", "half-power f1", "Hz"), ("f2_hz", "half-power f2", "Hz"),
              ("k_eff", "k_eff", ""), ("qm", "Qm (half-power)", ""))
 
@@ -481,6 +481,6 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
         flags.append("unexpected-order:fa<fp<fn")
 
     return Resonance(fm_hz=fm, fn_hz=fn, fs_hz=fs, fp_hz=fp, fr_hz=fr, fa_hz=fa, zm_ohm=zm,
-                     zn_ohm=zn, g_max_s=g_max, r_max_ohm=r_max, f1_hz=f1, f2_hz=f2, k_eff=k,
+                     zn_ohm=zn, g_max_siemens=g_max, r_max_ohm=r_max, f1_hz=f1, f2_hz=f2, k_eff=k,
                      qm=qm, flags=tuple(flags), span_hz=span, points=n, step_hz=step,
                      name=name, method=meth)
