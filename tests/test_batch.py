@@ -164,3 +164,30 @@ def test_procedure_saved_from_python_runs_the_same(lot, tmp_path):
     a = run(p, d, workers=1, use_cache=False).summary
     b = run(saved, d, workers=1, use_cache=False).summary
     pd.testing.assert_frame_equal(a[KEY], b[KEY])
+
+
+def test_a_failed_step_is_a_failure_record_and_survives_the_cache(lot, tmp_path, monkeypatch):
+    """A fit that raises gives a Failure record (step, reason), 'fit failed: ...' in fit_flags
+    and fit_ok False; the record is stored in the results cache and read back as the same
+    record, so the second (cached) run gives the same summary (no sentinel dicts)."""
+    from kit.outputs.entries import Failure
+    from kit.resonators import fitting
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("solver exploded (simulated)")
+
+    monkeypatch.setattr(fitting, "fit", broken)
+    root, d, proc = lot
+    first = run(proc, d, workers=1, cache_dir=tmp_path / "cache")
+    good = first.summary[first.summary["status"] == "ok"]
+    assert len(good) == 4 and not good["fit_ok"].any()
+    assert good["fit_flags"].eq("fit failed: RuntimeError: solver exploded (simulated)").all()
+    fails = [f for f in first.fits if f is not None]
+    assert all(isinstance(f, Failure) and f.step == "fit" and not f.ok for f in fails)
+    assert len(fails) == 4 and Failure.from_dict(fails[0].to_dict()) == fails[0]
+    second = run(proc, d, workers=1, cache_dir=tmp_path / "cache")
+    assert second.stats["results_reused"] == 4
+    assert [f for f in second.fits if f is not None] == fails
+    pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
+    bad = first.summary[first.summary["status"] == "error"].iloc[0]
+    assert "truncated" in bad["error"] and isinstance(first.captures[-1], Exception)

@@ -84,10 +84,10 @@ def fixture_abcd(f_hz: np.ndarray, series_r_ohm: float, series_l_h: float,
     return a
 
 
-def zin_through(abcd: np.ndarray, z_load: np.ndarray) -> np.ndarray:
-    """Input impedance of a two-port (ABCD) terminated by z_load; inf load = open."""
+def zin_through(abcd: np.ndarray, z_load_ohm: np.ndarray) -> np.ndarray:
+    """Input impedance [ohm] of a two-port (ABCD) terminated by z_load_ohm; inf load = open."""
     a, b, c, d = abcd[:, 0, 0], abcd[:, 0, 1], abcd[:, 1, 0], abcd[:, 1, 1]
-    zl = np.asarray(z_load, complex)
+    zl = np.asarray(z_load_ohm, complex)
     out = np.empty_like(a)
     opn = ~np.isfinite(zl)
     out[opn] = a[opn] / c[opn]
@@ -96,10 +96,10 @@ def zin_through(abcd: np.ndarray, z_load: np.ndarray) -> np.ndarray:
     return out
 
 
-def measured_s11(f_hz: np.ndarray, z_dut: np.ndarray) -> np.ndarray:
-    """S11 at the analyser port for a DUT in the fixture at the end of the cable."""
+def measured_s11(f_hz: np.ndarray, z_dut_ohm: np.ndarray) -> np.ndarray:
+    """S11 at the analyser port for a DUT (impedance [ohm]) in the fixture at the end of the cable."""
     chain = np.einsum("nij,njk->nik", cable_abcd(f_hz, **CABLE), fixture_abcd(f_hz, **FIXTURE))
-    zin = zin_through(chain, z_dut)
+    zin = zin_through(chain, z_dut_ohm)
     return (zin - Z0) / (zin + Z0)
 
 
