@@ -148,6 +148,12 @@ class Limits:
         return draw_limits(ax, self, curve=curve, f_scale=f_scale, quantities=quantities, **style)
 
 
+def s_ports(curve: str) -> tuple[int, int] | None:
+    """0-based (i, j) of an ``sIJ_db`` curve name (``"s21_db"`` -> (1, 0)); None otherwise."""
+    m = _S_DB.match(curve)
+    return None if m is None else (int(m.group(1)) - 1, int(m.group(2)) - 1)
+
+
 def curve_unit(curve: str) -> str:
     """Unit of a mask curve name ("Ω" or "dB", by :func:`kit.units.unit_of`).
 

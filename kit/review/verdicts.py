@@ -21,7 +21,7 @@ from typing import Any
 import numpy as np
 
 from kit.results import Result
-from kit.review.limits import _S_DB, SPAN_TOL, Limits, Mask, QuantityLimit
+from kit.review.limits import SPAN_TOL, Limits, Mask, QuantityLimit, s_ports
 from kit.units import eng, scale_for, unit_of
 
 __all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict"]
@@ -186,11 +186,13 @@ def check_quantity(q: QuantityLimit, row: Any) -> Check:
 
 def curve_values(capture: Any, mask: Mask) -> tuple[np.ndarray, np.ndarray]:
     """The frequencies [Hz] and the values of the mask's curve (|Z| [ohm] or |Sij| [dB])."""
-    net = getattr(capture, "network", capture)
+    from kit.network.coerce import network_of
+
+    net = network_of(capture, "a limit mask")
     f = np.asarray(net.frequency.f, float)
-    m = _S_DB.match(mask.curve)
-    if m:
-        i, j = int(m.group(1)) - 1, int(m.group(2)) - 1
+    ij = s_ports(mask.curve)
+    if ij is not None:
+        i, j = ij
         if max(i, j) >= net.nports:
             raise ValueError(f"the capture has {net.nports} port(s); {mask.curve} needs more")
         from kit.network.reflection import db20
