@@ -17,8 +17,8 @@ import skrf
 
 import kit
 from kit.io.writer import ExportError
-from kit.outputs.summary import summary
 from kit.outputs.lot_report import report
+from kit.outputs.summary import summary
 from kit.review.limits import parse_limits
 from kit.review.log import ReviewLog
 
