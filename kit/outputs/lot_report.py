@@ -76,9 +76,18 @@ def _table(df, columns) -> str:
 
 
 def figure_png(capture: Capture, limits: Any = None, dpi: int = 80) -> bytes:
-    """PNG of a capture's main curve: |Z| [ohm] for a one-port, |S21| and |S11| [dB] else.
+    """PNG of a capture's main curve (see :func:`lot_figure`)."""
+    buf = io.BytesIO()
+    lot_figure(capture, limits, dpi).savefig(buf, format="png")
+    return buf.getvalue()
 
-    Uses matplotlib's Agg canvas directly (no pyplot state, no display needed).
+
+def lot_figure(capture: Capture, limits: Any = None, dpi: int = 80):
+    """Figure of a capture's main curve: |Z| [Ω] for a one-port, |S21| and |S11| [dB] else.
+
+    Frequency in the SI prefix that suits the sweep (:func:`kit.units.scale_for`); |Z| by
+    :func:`kit.network.coerce.sweep`, dB by :func:`kit.network.reflection.db20`. Uses
+    matplotlib's Agg canvas directly (no pyplot state, no display needed).
     """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
@@ -111,9 +120,7 @@ def figure_png(capture: Capture, limits: Any = None, dpi: int = 80) -> bytes:
     ax.set_xlabel(f"frequency [{f_unit}]")
     ax.grid(True, alpha=0.3)
     ax.legend(fontsize=7, loc="best")
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png")
-    return buf.getvalue()
+    return fig
 
 
 def _history(events) -> str:
