@@ -19,8 +19,8 @@ from kit.capture import Capture, CaptureError
 from kit.results import Result
 from kit.units import SUFFIXES
 
-__all__ = ["Failure", "as_list", "lookup", "failure_reason", "result_dict", "num", "flags_text",
-           "safe_name", "split_unit", "suffix_of_unit", "unit_column"]
+__all__ = ["Failure", "as_list", "key_candidates", "lookup", "failure_reason", "result_dict",
+           "num", "flags_text", "safe_name", "split_unit", "suffix_of_unit", "unit_column"]
 
 
 @dataclass(frozen=True)

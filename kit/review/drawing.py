@@ -1,4 +1,8 @@
-"""Limits drawn on axes: mask bounds as lines, frequency bounds as vertical lines."""
+"""Limits drawn on axes: mask bounds as lines, frequency bounds as vertical lines.
+
+Reached through :meth:`kit.Limits.draw` or directly; it reads a :class:`kit.Limits` by its
+attributes and does not import its module (no import cycle).
+"""
 
 from __future__ import annotations
 
@@ -6,13 +10,12 @@ from typing import Any
 
 import numpy as np
 
-from kit.review.limits import Limits
 from kit.units import unit_of
 
 __all__ = ["draw_limits"]
 
 
-def draw_limits(ax, limits: Limits, curve: str = "z_mag_ohm", f_scale: float = 1.0,
+def draw_limits(ax, limits: Any, curve: str = "z_mag_ohm", f_scale: float = 1.0,
                 quantities: bool = True, **style: Any) -> list:
     """Draw the limits of ``curve`` on matplotlib axes whose x axis is frequency.
 
@@ -21,7 +24,8 @@ def draw_limits(ax, limits: Limits, curve: str = "z_mag_ohm", f_scale: float = 1
     ax : matplotlib.axes.Axes
         x in hertz divided by ``f_scale`` (e.g. ``f_scale=1e6`` for an axis in MHz: the
         inverse of the factor :func:`kit.units.scale_for` gives).
-    limits : Limits
+    limits : kit.Limits
+        (Not imported here: :meth:`kit.Limits.draw` calls this function.)
     curve : str
         Masks on this curve are drawn as lines (lower and upper bounds).
     f_scale : float
