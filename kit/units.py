@@ -25,7 +25,7 @@ SUFFIXES: tuple[tuple[str, str], ...] = (
     ("_hz", "Hz"), ("_ohm", "Ω"), ("_siemens", "S"), ("_f", "F"), ("_h", "H"),
     ("_s", "s"), ("_m", "m"), ("_db", "dB"), ("_deg", "°"), ("_degc", "°C"),
     ("_v", "V"), ("_a", "A"), ("_w", "W"), ("_ppm", "ppm"), ("_pct", "%"),
-    ("_m2_per_n", "m²/N"),
+    ("_m2_per_n", "m²/N"), ("_db_per_m", "dB/m"),
 )
 
 #: Decimal prefixes by power of ten (BIPM SI brochure, Table 7); "µ" is the micro sign.

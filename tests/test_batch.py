@@ -14,10 +14,10 @@ from kit.batch.procedure import Procedure
 from kit.io.cache import CaptureCache
 
 KEY = ["capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f",
-       "c0_f_stderr", "fit_ok", "verdict"]
+       "c0_stderr_f", "fit_ok", "verdict"]
 REQUIRED = ["capture", "path", "sha256", "status", "error", "fs_hz", "fp_hz", "fm_hz", "fn_hz",
-            "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f", "c0_f_stderr", "r1_ohm_stderr",
-            "l1_h_stderr", "c1_f_stderr", "fit_ok", "verdict", "verdict_reasons"]
+            "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f", "c0_stderr_f", "r1_stderr_ohm",
+            "l1_stderr_h", "c1_stderr_f", "fit_ok", "verdict", "verdict_reasons"]
 
 
 @pytest.fixture
@@ -62,7 +62,7 @@ def test_bad_file_is_an_error_row_and_the_rest_completes(lot):
     # the cracked (04) and de-poled (07) parts fail their limits; 01 and 02 pass
     verdict = dict(zip(good["capture"], good["verdict"]))
     assert verdict == {"pzd7-01": "pass", "pzd7-02": "pass", "pzd7-04": "fail", "pzd7-07": "fail"}
-    assert good["c0_f_stderr"].gt(0).all() and good["serial"].tolist() == [1, 2, 4, 7]
+    assert good["c0_stderr_f"].gt(0).all() and good["serial"].tolist() == [1, 2, 4, 7]
 
 
 def test_summary_only_runs_keep_no_captures(lot):
@@ -164,3 +164,30 @@ def test_procedure_saved_from_python_runs_the_same(lot, tmp_path):
     a = run(p, d, workers=1, use_cache=False).summary
     b = run(saved, d, workers=1, use_cache=False).summary
     pd.testing.assert_frame_equal(a[KEY], b[KEY])
+
+
+def test_a_failed_step_is_a_failure_record_and_survives_the_cache(lot, tmp_path, monkeypatch):
+    """A fit that raises gives a Failure record (step, reason), 'fit failed: ...' in fit_flags
+    and fit_ok False; the record is stored in the results cache and read back as the same
+    record, so the second (cached) run gives the same summary (no sentinel dicts)."""
+    from kit.outputs.entries import Failure
+    from kit.resonators import fitting
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("solver exploded (simulated)")
+
+    monkeypatch.setattr(fitting, "fit", broken)
+    root, d, proc = lot
+    first = run(proc, d, workers=1, cache_dir=tmp_path / "cache")
+    good = first.summary[first.summary["status"] == "ok"]
+    assert len(good) == 4 and not good["fit_ok"].any()
+    assert good["fit_flags"].eq("fit failed: RuntimeError: solver exploded (simulated)").all()
+    fails = [f for f in first.fits if f is not None]
+    assert all(isinstance(f, Failure) and f.step == "fit" and not f.ok for f in fails)
+    assert len(fails) == 4 and Failure.from_dict(fails[0].to_dict()) == fails[0]
+    second = run(proc, d, workers=1, cache_dir=tmp_path / "cache")
+    assert second.stats["results_reused"] == 4
+    assert [f for f in second.fits if f is not None] == fails
+    pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
+    bad = first.summary[first.summary["status"] == "error"].iloc[0]
+    assert "truncated" in bad["error"] and isinstance(first.captures[-1], Exception)

@@ -244,7 +244,7 @@ def _write_long_lot(folder: Path, n: int = LONG_POINTS) -> None:
     import skrf
 
     from kit.capture import from_network
-    from kit.outputs.dataset import write_touchstone
+    from kit.io.writer import write_touchstone
     from kit.resonators.registry import get_model
 
     folder.mkdir()

@@ -20,11 +20,15 @@ import skrf
 
 import kit
 from kit.capture import from_network
-from kit.outputs.dataset import ExportError, export, summary, tidy, to_network, write_touchstone
+from kit.io.writer import ExportError, write_touchstone
+from kit.outputs.handover import export
+from kit.outputs.summary import summary
+from kit.outputs.tidy import tidy, to_network
 from kit.review.limits import parse_limits
 from kit.review.log import ReviewLog
 
-ex = importlib.import_module("kit.outputs.dataset")
+ex = importlib.import_module("kit.outputs.handover")
+sm = importlib.import_module("kit.outputs.summary")
 
 
 def _net(ports=1, n=7, z0=50.0, seed=0, name="dut"):
@@ -45,7 +49,8 @@ def _lot(tmp_path, k=3):
 
 def test_callable_module():
     """kit.export is the export function, also after its module was imported."""
-    assert kit.export is export and ex.tidy is tidy
+    assert kit.export is export and kit.tidy is tidy and kit.summary is summary
+    assert kit.write_touchstone is write_touchstone
 
 
 def test_tidy_columns_and_units():
@@ -177,13 +182,13 @@ def test_summary_columns_fits_resonances_limits_review(tmp_path):
            caps[1].sha256: {"fs_hz": 3.7e6, "k_eff": 0.35}}
     fits = [_Fit(), RuntimeError("did not converge"), None]
     df = summary(caps, fits=fits, resonances=res, limits=lim, review_log=log)
-    for col in ex.SUMMARY_BASE + ["lot", "serial", "review_verdict", "fs_hz_margin",
-                                  "k_eff_margin_rel"]:
+    for col in sm.SUMMARY_BASE + ["lot", "serial", "review_verdict", "fs_margin_hz",
+                                  "fs_margin_rel", "k_eff_margin", "k_eff_margin_rel"]:
         assert col in df, col
     r0, r1, r2 = (df.iloc[i] for i in range(3))
-    assert r0["c0_f"] == 1e-9 and r0["r1_ohm_stderr"] == 0.1 and r0["fit_ok"]
+    assert r0["c0_f"] == 1e-9 and r0["r1_stderr_ohm"] == 0.1 and r0["fit_ok"]
     assert r0["fs_hz"] == 3.55e6 and r0["fit_flags"] == "edge-of-span"
-    assert r0["verdict"] == "pass" and r0["fs_hz_margin"] == pytest.approx(0.05e6)
+    assert r0["verdict"] == "pass" and r0["fs_margin_hz"] == pytest.approx(0.05e6)
     assert r1["verdict"] == "fail" and "above the maximum" in r1["verdict_reasons"]
     assert "did not converge" in r1["fit_flags"] and not r1["fit_ok"]
     assert r1["review_verdict"] == "reject" and r1["review_notes"] == 1
@@ -198,7 +203,7 @@ def test_summary_error_rows_and_fit_fallback():
     df = summary([cap, err], fits=[_Fit(), None])
     assert list(df["status"]) == ["ok", "error"]
     assert "truncated" in df.loc[1, "error"] and df.loc[1, "capture"] == "bad"
-    assert df.loc[0, "fs_hz"] == 3.56e6 and df.loc[0, "fit_fs_hz_stderr"] == 10.0
+    assert df.loc[0, "fs_hz"] == 3.56e6 and df.loc[0, "fit_fs_stderr_hz"] == 10.0
 
 
 def test_export_files_and_provenance(tmp_path):

@@ -347,11 +347,12 @@ def test_demo_lot_recovers_truth(demo_dir):
 
 
 def test_report_gives_every_number_its_unit():
-    """The text report prints each value and standard error with its SI unit (F, H, ohm, Hz)."""
+    """The text report prints each value and standard error with its SI unit (F, H, Ω, Hz:
+    BIPM SI brochure, 9th ed., Table 4), looked up by kit.units.unit_of."""
     from kit.resonators.fitting import param_unit
 
     assert [param_unit(p) for p in ("C0", "R1", "L1", "fs_hz", "k_eff", "ESR", "ESL", "Cp")] == \
-        ["F", "ohm", "H", "Hz", "", "ohm", "H", "F"]
+        ["F", "Ω", "H", "Hz", "", "Ω", "H", "F"]
     f = np.linspace(0.9e6, 1.2e6, 801)
     c0, c1, fs, qm = 1e-9, 0.2e-9, 1e6, 100.0
     l1 = 1 / ((2 * np.pi * fs) ** 2 * c1)
@@ -359,7 +360,7 @@ def test_report_gives_every_number_its_unit():
     w = 2 * np.pi * f
     z = 1 / (1j * w * c0 + 1 / (r1 + 1j * w * l1 + 1 / (1j * w * c1)))
     text = kit.fit(f, z=z * (1 + 1e-4 * np.cos(37 * w / w[0])), model="bvd").report()
-    assert " F +/- " in text and " H +/- " in text and " ohm +/- " in text and " Hz +/- " in text
+    assert " F +/- " in text and " H +/- " in text and " Ω +/- " in text and " Hz +/- " in text
 
 
 def test_fit_uses_the_captures_own_reference_impedance():

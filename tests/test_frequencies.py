@@ -54,7 +54,7 @@ def test_fixture_a_values_at_the_extrema(fixture_a):
     # Source: methods sheet section 1.2 fixture A table, |Z| column and R = 2652.637648 ohm.
     assert fixture_a.zm_ohm == pytest.approx(7.937961, abs=2e-6)
     assert fixture_a.zn_ohm == pytest.approx(2659.304807, rel=1e-6)
-    assert fixture_a.g_max_s == pytest.approx(0.1256637061, rel=1e-8)
+    assert fixture_a.g_max_siemens == pytest.approx(0.1256637061, rel=1e-8)
     assert fixture_a.r_max_ohm == pytest.approx(2652.637648, rel=1e-6)
 
 

@@ -12,17 +12,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from kit.capture import from_network
-from kit.review.limits import (
-    Limits,
-    LimitsError,
-    Mask,
-    QuantityLimit,
-    check_mask,
-    draw_limits,
-    load_limits,
-    parse_limits,
-    verdict,
-)
+from kit.review.drawing import draw_limits
+from kit.review.limits import Limits, LimitsError, Mask, QuantityLimit, load_limits, parse_limits
+from kit.review.verdicts import Check, Verdict, check_mask, verdict
 
 EXAMPLE = """\
 # acceptance limits for a lot of 2 MHz discs (invented example)
@@ -237,3 +229,38 @@ def test_limits_from_dict_same_checks():
     assert lim.masks[0].name == "mask1" and lim.masks[0].upper == (0.0, -1.0)
     with pytest.raises(LimitsError, match="proc.toml: .*neither min nor max"):
         limits_from_dict({"quantity": {"qm": {"label": "x"}}}, "proc.toml")
+
+
+def test_verdict_and_checks_follow_the_result_protocol():
+    """Check and Verdict round-trip through to_dict/from_dict and JSON text (Python's json
+    module writes NaN as the token NaN and reads it back, per its documentation), show a
+    text report and escaped HTML (html.escape); missing values are NaN."""
+    import json
+
+    lim = parse_limits(EXAMPLE)
+    v = verdict({"fs_hz": 2.04e6, "k_eff": float("nan")}, lim, capture=_resistor(25))
+    back = Verdict.from_dict(json.loads(json.dumps(v.to_dict())))
+    assert back.status == v.status and len(back.checks) == len(v.checks)
+    for a, b in zip(v.checks, back.checks):
+        assert isinstance(b, Check) and a.name == b.name and a.reason == b.reason
+        for key in ("value", "bound", "margin", "margin_rel", "f_hz"):
+            x, y = getattr(a, key), getattr(b, key)
+            assert (math.isnan(x) and math.isnan(y)) or x == y, key
+    k = next(c for c in v.checks if c.name == "k_eff")
+    assert math.isnan(k.value) and math.isnan(k.margin) and math.isnan(k.f_hz)
+    assert v.to_dict()["reasons"] == v.reasons
+    assert "Verdict: incomplete" in v.report() and "fs_hz" in v.report()
+    fs = next(c for c in v.checks if c.name == "fs_hz")
+    assert "10 kHz" in fs.report()  # margin 2.05 MHz - 2.04 MHz, printed with an SI prefix
+    hostile = Check("<script>", "quantity", "pass", "a < b & c")
+    assert "<script>" not in hostile._repr_html_() and "&lt;script&gt;" in hostile._repr_html_()
+
+
+def test_check_units_come_from_the_suffix_rule():
+    """The unit of a check is that of its column or curve by kit.units.unit_of: Hz for fs_hz,
+    ohm (symbol from the SI brochure, 9th ed., Table 4) for |Z|, dB for |S11|."""
+    lim = parse_limits(EXAMPLE)
+    v = verdict({"fs_hz": 2.04e6, "k_eff": 0.45}, lim, capture=_resistor(25))
+    assert {c.name: c.unit for c in v.checks}["fs_hz"] == "Hz"
+    cap = _resistor(25, f0=1e6, f1=2e6, n=11)
+    assert check_mask(Mask("z", "z_mag_ohm", 1e6, 2e6, lower=20.0), cap).unit == "Ω"

@@ -16,8 +16,9 @@ import pytest
 import skrf
 
 import kit
-from kit.outputs.dataset import ExportError, summary
+from kit.io.writer import ExportError
 from kit.outputs.lot_report import report
+from kit.outputs.summary import summary
 from kit.review.limits import parse_limits
 from kit.review.log import ReviewLog
 
@@ -127,3 +128,25 @@ def test_report_refuses_input_folder_and_writes_atomically(tmp_path):
 def test_kit_report_callable():
     """kit.report is the report function, also after its module was imported."""
     assert kit.report is report
+
+
+def test_figure_curves_against_skrf():
+    """The report's figure draws |Z| of a one-port and |S21|, |S11| in dB of a two-port as
+    scikit-rf 2.2.0 computes them (Network.z, Network.s_db), over frequency in MHz."""
+    from kit.capture import from_network
+    from kit.outputs.lot_report import lot_figure
+
+    freq = skrf.Frequency(1, 3, 21, unit="MHz")
+    rng = np.random.default_rng(3)
+    z = 20 + 30 * rng.random(21) + 1j * (rng.random(21) - 0.5) * 40
+    one = skrf.Network(frequency=freq, z=z.reshape(-1, 1, 1), z0=50, name="one")
+    ax = lot_figure(from_network(one)).axes[0]
+    x, y = ax.lines[0].get_data()
+    np.testing.assert_allclose(x, freq.f / 1e6)
+    np.testing.assert_allclose(y, np.abs(one.z[:, 0, 0]), rtol=1e-12)
+    assert ax.get_xlabel() == "frequency [MHz]"
+    s = 0.5 * (rng.normal(size=(21, 2, 2)) + 1j * rng.normal(size=(21, 2, 2)))
+    two = skrf.Network(frequency=freq, s=s, z0=50, name="two")
+    ax = lot_figure(from_network(two)).axes[0]
+    np.testing.assert_allclose(ax.lines[0].get_data()[1], two.s_db[:, 1, 0], rtol=1e-12)
+    np.testing.assert_allclose(ax.lines[1].get_data()[1], two.s_db[:, 0, 0], rtol=1e-12)

@@ -26,6 +26,7 @@ from pathlib import Path
 
 import numpy as np
 
+from kit.io.atomic import write_text
 from kit.resonators.plate import free_plate_z
 
 SEED = 20261118
@@ -84,10 +85,10 @@ def fixture_abcd(f_hz: np.ndarray, series_r_ohm: float, series_l_h: float,
     return a
 
 
-def zin_through(abcd: np.ndarray, z_load: np.ndarray) -> np.ndarray:
-    """Input impedance of a two-port (ABCD) terminated by z_load; inf load = open."""
+def zin_through(abcd: np.ndarray, z_load_ohm: np.ndarray) -> np.ndarray:
+    """Input impedance [ohm] of a two-port (ABCD) terminated by z_load_ohm; inf load = open."""
     a, b, c, d = abcd[:, 0, 0], abcd[:, 0, 1], abcd[:, 1, 0], abcd[:, 1, 1]
-    zl = np.asarray(z_load, complex)
+    zl = np.asarray(z_load_ohm, complex)
     out = np.empty_like(a)
     opn = ~np.isfinite(zl)
     out[opn] = a[opn] / c[opn]
@@ -96,10 +97,10 @@ def zin_through(abcd: np.ndarray, z_load: np.ndarray) -> np.ndarray:
     return out
 
 
-def measured_s11(f_hz: np.ndarray, z_dut: np.ndarray) -> np.ndarray:
-    """S11 at the analyser port for a DUT in the fixture at the end of the cable."""
+def measured_s11(f_hz: np.ndarray, z_dut_ohm: np.ndarray) -> np.ndarray:
+    """S11 at the analyser port for a DUT (impedance [ohm]) in the fixture at the end of the cable."""
     chain = np.einsum("nij,njk->nik", cable_abcd(f_hz, **CABLE), fixture_abcd(f_hz, **FIXTURE))
-    zin = zin_through(chain, z_dut)
+    zin = zin_through(chain, z_dut_ohm)
     return (zin - Z0) / (zin + Z0)
 
 
@@ -172,9 +173,6 @@ def _touchstone_text(f_hz: np.ndarray, s: np.ndarray, comments: list[str]) -> st
     return "\n".join(lines) + "\n"
 
 
-from kit.io.atomic import write_text as _write  # noqa: E402
-
-
 def _header(what: str, extra: list[str] | None = None) -> list[str]:
     return [f"Demo capture (invented scenario): {what}",
             f"Date: {HEADER_DATE}",
@@ -220,20 +218,20 @@ def generate(out_dir: str | Path | None = None) -> dict:
     }
     for name, p in elements.items():
         z = element_z(f, p)
-        _write(out / "truth" / f"{name}_dut.s1p",
+        write_text(out / "truth" / f"{name}_dut.s1p",
                _touchstone_text(f, ((z - Z0) / (z + Z0)).reshape(-1, 1, 1),
                                 [f"True DUT impedance of {name} (no fixture, no cable, no noise)"]))
         s11 = measured_s11(f, z + p["contact_ohm"])
         prng = np.random.default_rng([SEED, int(name[-2:])])
         s11 = _noisy(prng, s11, p["noise_sigma"])
-        _write(out / "lot" / f"{name}.s1p",
+        write_text(out / "lot" / f"{name}.s1p",
                _touchstone_text(f, s11.reshape(-1, 1, 1), _header(f"disc element {name}")))
     # standards in the fixture
     std_rng = np.random.default_rng([SEED, 100])
     for std, zl in (("open", np.full(f.size, np.inf + 0j)), ("short", np.zeros(f.size, complex)),
                     ("load", np.full(f.size, Z0 + 0j))):
         s11 = _noisy(std_rng, measured_s11(f, zl), NOISE_SIGMA / 3)
-        _write(out / "standards" / f"{std}.s1p",
+        write_text(out / "standards" / f"{std}.s1p",
                _touchstone_text(f, s11.reshape(-1, 1, 1), _header(f"{std} standard in the fixture")))
     truth["standards"] = {"open": "ideal open", "short": "ideal short", "load_ohm": Z0,
                           "noise_sigma": NOISE_SIGMA / 3}
@@ -241,7 +239,7 @@ def generate(out_dir: str | Path | None = None) -> dict:
     res = {"r_ohm": 100.0, "l_h": 1e-9}
     zr = res["r_ohm"] + 1j * 2 * np.pi * f * res["l_h"]
     s11 = _noisy(np.random.default_rng([SEED, 200]), measured_s11(f, zr), NOISE_SIGMA)
-    _write(out / "lot" / "check_resistor.s1p",
+    write_text(out / "lot" / "check_resistor.s1p",
            _touchstone_text(f, s11.reshape(-1, 1, 1), _header("100 ohm check resistor")))
     truth["check_resistor"] = res
     # two-port parts, measured directly at the analyser ports (no cable/fixture)
@@ -252,7 +250,7 @@ def generate(out_dir: str | Path | None = None) -> dict:
     zl = 1 / (1 / (inductor["rs_ohm"] + 1j * w2 * inductor["l_h"]) + 1j * w2 * inductor["cp_f"])
     inductor["srf_hz"] = float(1 / (2 * np.pi * np.sqrt(inductor["l_h"] * inductor["cp_f"])))
     s = _noisy(np.random.default_rng([SEED, 300]), _series_two_port(zl), NOISE_SIGMA / 3)
-    _write(out / "parts" / "inductor.s2p",
+    write_text(out / "parts" / "inductor.s2p",
            _touchstone_text(f2, s, _header("10 uH inductor, series-through")))
     truth["inductor"] = inductor
     rc = {"r_ohm": 50.0, "c_f": 1e-9, "topology": "series R, shunt C", "f_start_hz": 0.1e6,
@@ -261,7 +259,7 @@ def generate(out_dir: str | Path | None = None) -> dict:
     a = np.einsum("nij,njk->nik", fixture_abcd(f3, rc["r_ohm"], 0.0, 0.0),
                   fixture_abcd(f3, 0.0, 0.0, rc["c_f"]))
     s = _noisy(np.random.default_rng([SEED, 400]), _abcd_to_s(a), NOISE_SIGMA / 3)
-    _write(out / "parts" / "rc_lowpass.s2p", _touchstone_text(f3, s, _header("RC low-pass filter")))
+    write_text(out / "parts" / "rc_lowpass.s2p", _touchstone_text(f3, s, _header("RC low-pass filter")))
     truth["rc_lowpass"] = rc
     lc = {"r_ohm": 2.0, "l_h": 10e-6, "c_f": 25.33e-12, "topology": "series RLC between ports",
           "f_start_hz": 5e6, "f_stop_hz": 15e6, "points": 1001}
@@ -271,10 +269,10 @@ def generate(out_dir: str | Path | None = None) -> dict:
     lc["f0_hz"] = float(1 / (2 * np.pi * np.sqrt(lc["l_h"] * lc["c_f"])))
     lc["q_loaded"] = float(2 * np.pi * lc["f0_hz"] * lc["l_h"] / (lc["r_ohm"] + 2 * Z0))
     s = _noisy(np.random.default_rng([SEED, 500]), _series_two_port(zs), NOISE_SIGMA / 3)
-    _write(out / "parts" / "lc_bandpass.s2p", _touchstone_text(f4, s, _header("LC band-pass filter")))
+    write_text(out / "parts" / "lc_bandpass.s2p", _touchstone_text(f4, s, _header("LC band-pass filter")))
     truth["lc_bandpass"] = lc
-    _write(out / "truth.json", json.dumps(truth, indent=2, sort_keys=True) + "\n")
-    _write(out / "README.md", _readme())
+    write_text(out / "truth.json", json.dumps(truth, indent=2, sort_keys=True) + "\n")
+    write_text(out / "README.md", _readme())
     return truth
 
 

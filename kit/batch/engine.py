@@ -2,14 +2,17 @@
 
 Every capture goes through the same steps (:func:`process_one`): import (through the
 cache of parsed captures when one is given), the correction chain, the characteristic
-frequencies, the fit. A failure in any step becomes an error row with its message; the run
-goes on. The per-capture results are joined into the lot summary by
-:func:`kit.summary` (with the procedure's limits), exactly as in a notebook, so a
-local and a distributed run give identical tables.
+frequencies, the fit. A step that fails gives a :class:`kit.outputs.entries.Failure`
+record (step, reason, path, line) in place of its result; the summary shows it as an error
+row (import, correction) or in the step's flags (resonance, fit), and the run goes on.
+The per-capture results are joined into the lot summary by :func:`kit.summary` (with the
+procedure's limits), exactly as in a notebook, so a local and a distributed run give
+identical tables.
 """
 
 from __future__ import annotations
 
+import hashlib
 import os
 import sys
 from dataclasses import dataclass, field
@@ -18,6 +21,7 @@ from typing import Any, Iterable
 
 from kit.batch.procedure import Procedure, ProcedureError
 from kit.capture import Capture, CaptureError
+from kit.outputs.entries import Failure
 
 #: Captures per task sent to a worker (amortises process start-up and the chain build).
 CHUNK = 16
@@ -27,6 +31,9 @@ CHUNK = 16
 _CHAINS: dict[str, Any] = {}
 _LIMITS: dict[str, Any] = {}
 _CACHES: dict[str, Any] = {}
+#: Version of the stored per-capture results (resonance and fit dicts, failures); a new
+#: version keys new cache entries, so results stored by an older kit are not misread.
+RESULTS_SCHEMA = 2
 
 
 @dataclass
@@ -38,11 +45,12 @@ class BatchResult:
     summary : pandas.DataFrame
         One row per input (error rows included), from :func:`kit.summary`.
     captures : list
-        Capture, or CaptureError for inputs that could not be read.
+        Capture, or CaptureError for inputs that could not be read or corrected.
     corrected : list
         Corrected Capture per input (None where not corrected or failed).
-    fits, resonances : list of dict
-        Plain results per input (``{"__error__": msg}`` where a step failed).
+    fits, resonances : list
+        Plain result dicts per input; a :class:`kit.outputs.entries.Failure` where the
+        step failed, None where it was not run.
     stats : dict
         Counts (inputs, errors, cache hits, ...), the engine used and the procedure digest.
     """
@@ -57,7 +65,7 @@ class BatchResult:
 
     def write(self, out_dir: str | Path, report: bool = True) -> Path:
         """Write summary/sweeps (Parquet and CSV), provenance.json and report.html to ``out_dir``."""
-        from kit.outputs.dataset import export
+        from kit.outputs.handover import export
         from kit.outputs.lot_report import report as write_report
 
         ok = [c for c in self.captures if isinstance(c, Capture)]
@@ -92,32 +100,44 @@ def _cache_for(cache_dir: str):
     return _CACHES[cache_dir]
 
 
-def _error(exc: BaseException) -> dict[str, Any]:
-    return {"__error__": f"{type(exc).__name__}: {exc}" if not isinstance(exc, CaptureError)
-            else str(exc.reason)}
+def _result_key(digest: str) -> str:
+    """Cache key of the stored results: the procedure digest and :data:`RESULTS_SCHEMA`."""
+    return hashlib.sha256(f"{digest}:results-{RESULTS_SCHEMA}".encode()).hexdigest()
+
+
+def _stored(d: Any, step: str) -> Any:
+    """A stored result back: a failure's dict becomes its Failure record again."""
+    if isinstance(d, dict) and d.get("ok") is False and d.get("step") == step and \
+            set(d) <= {"step", "reason", "path", "line", "ok"}:
+        return Failure.from_dict(d)
+    return d
+
+
+def _to_store(v: Any) -> Any:
+    return v.to_dict() if isinstance(v, Failure) else v
 
 
 def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
                 keep_captures: bool = True) -> dict[str, Any]:
     """Run the procedure on one input (a path or a Capture); never raises for bad data.
 
-    Returns a dict with ``capture`` (Capture, or an error dict with path, reason, line),
-    ``corrected``, ``resonance`` and ``fit`` (plain dicts), ``cache`` ("hit", "miss",
-    "rebuilt" or None) and ``row``, the input's summary row (:func:`kit.outputs.dataset.summary_rows`,
-    with the procedure's limits), built here so that workers share that work too. With
-    ``keep_captures=False`` the captures are dropped once the row is made (large runs).
+    Returns a dict with ``capture`` (Capture, or a :class:`kit.outputs.entries.Failure`
+    of the import or correction step), ``corrected``, ``resonance`` and ``fit`` (plain
+    dicts, a Failure, or None), ``cache`` ("hit", "miss", "rebuilt" or None) and ``row``,
+    the input's summary row (:func:`kit.outputs.summary.summary_rows`, with the procedure's
+    limits), built here so that workers share that work too. With ``keep_captures=False``
+    the captures are dropped once the row is made (large runs); failures are kept.
     """
-    from kit.outputs.dataset import summary_rows
+    from kit.outputs.summary import summary_rows
 
     out = _analyse(item, proc, digest, cache_dir)
-    c = out["capture"]
-    cap = CaptureError(c["reason"], c["path"], c.get("line")) if isinstance(c, dict) else c
     if digest not in _LIMITS:
         _LIMITS[digest] = proc.limits_object()
-    out["row"] = summary_rows([cap], fits=[out["fit"]], resonances=[out["resonance"]],
-                              limits=_LIMITS[digest])[0]
+    out["row"] = summary_rows([out["capture"]], fits=[out["fit"]],
+                              resonances=[out["resonance"]], limits=_LIMITS[digest])[0]
     if not keep_captures:
-        out["capture"] = c if isinstance(c, dict) else None
+        if not isinstance(out["capture"], Failure):
+            out["capture"] = None
         out["corrected"] = None
     return out
 
@@ -135,24 +155,21 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
             cap, out["cache"] = _cache_for(cache_dir).load(item, pattern)
         else:
             cap = load(item, pattern)
-    except CaptureError as exc:
-        out["capture"] = {"path": exc.path or str(item), "reason": exc.reason, "line": exc.line}
-        return out
     except Exception as exc:  # noqa: BLE001 - one input never stops the run
-        out["capture"] = {"path": str(item), "reason": f"{type(exc).__name__}: {exc}", "line": None}
+        out["capture"] = Failure.of("import", exc, path=item)
         return out
     out["capture"] = cap
     store = None
     if cache_dir is not None and not isinstance(item, Capture) and cap.sha256:
         store = _cache_for(cache_dir)
-        done = store.get_result(cap.sha256, digest)
+        done = store.get_result(cap.sha256, _result_key(digest))
     else:
         done = None
     status, chain = _chain_for(proc, digest)
     if status == "error":
-        msg = f"correction could not be set up: {chain}"
-        out["resonance"] = out["fit"] = {"__error__": msg}
-        out["capture"] = {"path": str(cap.path), "reason": msg, "line": None, "capture": cap}
+        failed = Failure("correction", f"correction could not be set up: {chain}",
+                         None if cap.path is None else str(cap.path))
+        out["capture"] = out["resonance"] = out["fit"] = failed
         return out
     work = cap
     if chain is not None:
@@ -161,10 +178,11 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
             out["corrected"] = work
         except Exception as exc:  # noqa: BLE001
             msg = f"correction failed: {exc.reason if isinstance(exc, CaptureError) else exc}"
-            out["capture"] = {"path": str(cap.path), "reason": msg, "line": None, "capture": cap}
+            out["capture"] = Failure("correction", msg, None if cap.path is None else str(cap.path))
             return out
     if done is not None:  # same bytes, same procedure: the analysis is not repeated
-        out["resonance"], out["fit"] = done["resonance"], done["fit"]
+        out["resonance"] = _stored(done["resonance"], "resonance")
+        out["fit"] = _stored(done["fit"], "fit")
         out["result_cache"] = "hit"
         return out
     method = proc.import_.get("method", "reflection")
@@ -175,7 +193,7 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
 
         out["resonance"] = resonance(work, span_hz=span, method=method, port=port).to_dict()
     except Exception as exc:  # noqa: BLE001
-        out["resonance"] = _error(exc)
+        out["resonance"] = Failure.of("resonance", exc)
     if proc.fit:
         try:
             from kit.resonators.fitting import fit
@@ -184,9 +202,10 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
             res = fit(work, method=method, port=port, keep_data=False, **opts)
             out["fit"] = res.to_dict()
         except Exception as exc:  # noqa: BLE001
-            out["fit"] = _error(exc)
+            out["fit"] = Failure.of("fit", exc)
     if store is not None:
-        store.put_result(cap.sha256, digest, {"resonance": out["resonance"], "fit": out["fit"]})
+        store.put_result(cap.sha256, _result_key(digest),
+                         {"resonance": _to_store(out["resonance"]), "fit": _to_store(out["fit"])})
     return out
 
 
@@ -264,7 +283,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
     -------
     BatchResult
     """
-    from kit.outputs.dataset import summary_frame
+    from kit.outputs.summary import summary_frame
 
     proc = procedure if isinstance(procedure, Procedure) else Procedure.from_file(procedure)
     items = expand_inputs(inputs)
@@ -328,8 +347,8 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
     cache_counts = {"hit": 0, "miss": 0, "rebuilt": 0, "results_reused": 0}
     for r in results:
         c = r["capture"]
-        if isinstance(c, dict):
-            captures.append(CaptureError(c["reason"], c["path"], c.get("line")))
+        if isinstance(c, Failure):
+            captures.append(c.error())
         elif c is not None:
             captures.append(c)
         if keep_captures:

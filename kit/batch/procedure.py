@@ -45,6 +45,8 @@ from pathlib import Path
 from typing import Any
 
 from kit.capture import CaptureError
+from kit.io.atomic import write_text
+from kit.review.limits import toml_key, toml_str
 
 FORMAT_VERSION = 1
 IMPORT_METHODS = ("reflection", "series-through", "shunt-through")
@@ -178,7 +180,7 @@ class Procedure:
             for key in CORRECTION_KINDS[c["kind"]][1]:
                 if isinstance(c.get(key), str):
                     c[key] = _relative(self.resolve(c[key]), path.parent)
-        _atomic_write(path, dumps_toml(doc))
+        write_text(path, dumps_toml(doc))
         return path
 
     def digest(self) -> str:
@@ -268,9 +270,6 @@ def _relative(p: Path, folder: Path) -> str:
         return str(p.resolve())
 
 
-from kit.io.atomic import write_text as _atomic_write  # noqa: E402
-
-
 # ---------------------------------------------------------------------- a small TOML writer
 # The standard library reads TOML (tomllib) but does not write it; procedures hold only
 # strings, numbers, booleans, lists and tables, which this writer covers.
@@ -286,16 +285,12 @@ def _value(v: Any) -> str:
             return "inf" if v > 0 else "-inf"
         return repr(v)
     if isinstance(v, (str, Path)):
-        return json.dumps(str(v), ensure_ascii=False)  # a JSON string is a valid TOML basic string
+        return toml_str(str(v))
     if isinstance(v, (list, tuple)):
         return "[" + ", ".join(_value(x) for x in v) + "]"
     if isinstance(v, dict):
-        return "{ " + ", ".join(f"{_key(k)} = {_value(x)}" for k, x in v.items()) + " }"
+        return "{ " + ", ".join(f"{toml_key(k)} = {_value(x)}" for k, x in v.items()) + " }"
     raise TypeError(f"cannot write {type(v).__name__} to TOML")
-
-
-def _key(k: str) -> str:
-    return k if k.replace("_", "").replace("-", "").isalnum() else json.dumps(k)
 
 
 def dumps_toml(doc: dict[str, Any]) -> str:
@@ -303,22 +298,22 @@ def dumps_toml(doc: dict[str, Any]) -> str:
     lines = ["# sweepbook procedure (format_version 1); see kit/procedure.py for the keys"]
     for k, v in doc.items():
         if not isinstance(v, dict) and not (isinstance(v, list) and v and isinstance(v[0], dict)):
-            lines.append(f"{_key(k)} = {_value(v)}")
+            lines.append(f"{toml_key(k)} = {_value(v)}")
     for k, v in doc.items():
         if isinstance(v, dict):
-            lines += ["", f"[{_key(k)}]"]
+            lines += ["", f"[{toml_key(k)}]"]
             sub_arrays = []
             for kk, vv in v.items():
                 if isinstance(vv, list) and vv and isinstance(vv[0], dict):
                     sub_arrays.append((kk, vv))
                 else:
-                    lines.append(f"{_key(kk)} = {_value(vv)}")
+                    lines.append(f"{toml_key(kk)} = {_value(vv)}")
             for kk, arr in sub_arrays:
                 for item in arr:
-                    lines += ["", f"[[{_key(k)}.{_key(kk)}]]"]
-                    lines += [f"{_key(a)} = {_value(b)}" for a, b in item.items()]
+                    lines += ["", f"[[{toml_key(k)}.{toml_key(kk)}]]"]
+                    lines += [f"{toml_key(a)} = {_value(b)}" for a, b in item.items()]
         elif isinstance(v, list) and v and isinstance(v[0], dict):
             for item in v:
-                lines += ["", f"[[{_key(k)}]]"]
-                lines += [f"{_key(a)} = {_value(b)}" for a, b in item.items()]
+                lines += ["", f"[[{toml_key(k)}]]"]
+                lines += [f"{toml_key(a)} = {_value(b)}" for a, b in item.items()]
     return "\n".join(lines) + "\n"

@@ -1,1 +1,10 @@
-"""Hand-over stage: tidy tables, the summary, the export folder and the lot report."""
+"""Hand-over stage: what leaves the kit for other people and programs.
+
+* :mod:`kit.outputs.entries` - the entries of a lot (captures or failures) and results by capture;
+* :mod:`kit.outputs.tidy` - the sweeps as one long table (:func:`kit.tidy`);
+* :mod:`kit.outputs.summary` - one row per capture (:func:`kit.summary`);
+* :mod:`kit.outputs.handover` - the export folder with provenance (:func:`kit.export`);
+* :mod:`kit.outputs.lot_report` - the self-contained HTML lot report (:func:`kit.report`).
+
+Touchstone files are written by :mod:`kit.io.writer` (:func:`kit.write_touchstone`).
+"""

@@ -30,7 +30,10 @@ from typing import Any
 import numpy as np
 
 from kit.capture import Capture
-from kit.outputs.dataset import _as_list, atomic_write_bytes, build_summary, refuse_input_folder
+from kit.io.atomic import write_bytes
+from kit.io.writer import refuse_input_folder
+from kit.outputs.entries import as_list
+from kit.outputs.summary import summary as lot_summary
 
 #: Summary columns shown in the lot table (those present), in this order.
 TABLE_COLUMNS = ("capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "r1_ohm",
@@ -73,42 +76,51 @@ def _table(df, columns) -> str:
 
 
 def figure_png(capture: Capture, limits: Any = None, dpi: int = 80) -> bytes:
-    """PNG of a capture's main curve: |Z| [ohm] for a one-port, |S21| and |S11| [dB] else.
+    """PNG of a capture's main curve (see :func:`lot_figure`)."""
+    buf = io.BytesIO()
+    lot_figure(capture, limits, dpi).savefig(buf, format="png")
+    return buf.getvalue()
 
-    Uses matplotlib's Agg canvas directly (no pyplot state, no display needed).
+
+def lot_figure(capture: Capture, limits: Any = None, dpi: int = 80):
+    """Figure of a capture's main curve: |Z| [Ω] for a one-port, |S21| and |S11| [dB] else.
+
+    Frequency in the SI prefix that suits the sweep (:func:`kit.units.scale_for`); |Z| by
+    :func:`kit.network.coerce.sweep`, dB by :func:`kit.network.reflection.db20`. Uses
+    matplotlib's Agg canvas directly (no pyplot state, no display needed).
     """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    from kit.review.limits import draw_limits
+    from kit.network.coerce import sweep
+    from kit.network.reflection import db20
+    from kit.review.drawing import draw_limits
+    from kit.units import scale_for
 
     fig = Figure(figsize=(6.4, 2.8), dpi=dpi, layout="constrained")
     FigureCanvasAgg(fig)
     ax = fig.add_subplot()
-    f_mhz = capture.f_hz / 1e6
+    k, f_unit = scale_for(capture.f_hz, "Hz")
+    f_axis = capture.f_hz * k
     if capture.ports == 1:
-        from kit.network.immittance import impedance
-
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # singular points are NaN and simply not drawn
-            z = np.abs(impedance(capture))
-        ax.semilogy(f_mhz, z, lw=1.2, label="|Z|")
-        ax.set_ylabel("|Z| [ohm]")
+            z = np.abs(sweep(capture, what="the lot report").z_ohm)
+        ax.semilogy(f_axis, z, lw=1.2, label="|Z|")
+        ax.set_ylabel("|Z| [Ω]")
         curve = "z_mag_ohm"
     else:
         with np.errstate(divide="ignore"):
-            ax.plot(f_mhz, 20 * np.log10(np.abs(capture.s[:, 1, 0])), lw=1.2, label="|S21|")
-            ax.plot(f_mhz, 20 * np.log10(np.abs(capture.s[:, 0, 0])), lw=1.0, label="|S11|")
+            ax.plot(f_axis, db20(capture.s[:, 1, 0]), lw=1.2, label="|S21|")
+            ax.plot(f_axis, db20(capture.s[:, 0, 0]), lw=1.0, label="|S11|")
         ax.set_ylabel("[dB]")
         curve = "s21_db"
     if limits is not None:
-        draw_limits(ax, limits, curve=curve, f_scale=1e6)
-    ax.set_xlabel("frequency [MHz]")
+        draw_limits(ax, limits, curve=curve, f_scale=1.0 / k)
+    ax.set_xlabel(f"frequency [{f_unit}]")
     ax.grid(True, alpha=0.3)
     ax.legend(fontsize=7, loc="best")
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png")
-    return buf.getvalue()
+    return fig
 
 
 def _history(events) -> str:
@@ -133,7 +145,7 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
         ``review_log``) when absent.
     review_log : kit.ReviewLog, optional
         Its state and each capture's history are shown.
-    limits : kit.review.limits.Limits or path, optional
+    limits : kit.Limits or path, optional
         Used for the summary when it is built here, and drawn on the figures.
     title : str, optional
         Default: "Lot report" and the captures' folder name.
@@ -148,13 +160,13 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
     from kit.review.limits import Limits, load_limits
 
     out = Path(out_path)
-    caps = _as_list(captures)
+    caps = as_list(captures)
     real = [c for c in caps if isinstance(c, Capture)]
     refuse_input_folder(out, real, "the report")
     if limits is not None and not isinstance(limits, Limits):
         limits = load_limits(limits)
     if summary is None:
-        summary = build_summary(caps, limits=limits, review_log=review_log)
+        summary = lot_summary(caps, limits=limits, review_log=review_log)
     if title is None:
         folders = sorted({c.path.parent.name for c in real if c.path is not None})
         title = "Lot report" + (f": {', '.join(folders)}" if folders else "")
@@ -211,5 +223,5 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
            f"<title>{esc(title)}</title><style>{STYLE}</style></head><body>\n"
            + "\n".join(parts) + "\n</body></html>\n")
     out.parent.mkdir(parents=True, exist_ok=True)
-    atomic_write_bytes(out, doc.encode("utf-8"))
+    write_bytes(out, doc.encode("utf-8"))
     return out

@@ -86,9 +86,8 @@ def _unjson(v, nan=True):
 
 
 def param_unit(name: str) -> str:
-    """Unit of a fit parameter or derived figure (:func:`kit.units.unit_of`), ohm as "ohm"."""
-    unit = unit_of(name)
-    return "ohm" if unit == "Ω" else unit
+    """Unit of a fit parameter or derived figure: the kit's one look-up, :func:`kit.units.unit_of`."""
+    return unit_of(name)
 
 
 @dataclass(frozen=True)

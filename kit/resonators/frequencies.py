@@ -70,7 +70,7 @@ _MIN_POINTS = 7
 
 
 #: Result fields that are numbers (NaN when not found).
-_VALUES = ("fm_hz", "fn_hz", "fs_hz", "fp_hz", "fr_hz", "fa_hz", "zm_ohm", "zn_ohm", "g_max_s",
+_VALUES = ("fm_hz", "fn_hz", "fs_hz", "fp_hz", "fr_hz", "fa_hz", "zm_ohm", "zn_ohm", "g_max_siemens",
            "r_max_ohm", "f1_hz", "f2_hz", "k_eff", "qm")
 #: flag -> why a figure needed by ``ok`` is missing
 _WHY = {"no-peak:fs": "no conductance peak inside the span",
@@ -98,7 +98,7 @@ class Resonance(Result):
         (a resonance with a figure of merit M = Qm C1/C0 below about 2).
     zm_ohm, zn_ohm : float
         \\|Z\\| at fm and at fn [ohm] (from the parabola).
-    g_max_s : float
+    g_max_siemens : float
         Conductance at fs [S].
     r_max_ohm : float
         Resistance at fp [ohm].
@@ -140,7 +140,7 @@ class Resonance(Result):
     fa_hz: float
     zm_ohm: float
     zn_ohm: float
-    g_max_s: float
+    g_max_siemens: float
     r_max_ohm: float
     f1_hz: float
     f2_hz: float
@@ -158,7 +158,7 @@ class Resonance(Result):
              _row("fr_hz", "fr (X = 0, lower)"), _row("fa_hz", "fa (X = 0, upper)"),
              _row("fp_hz", "fp (max R)"), _row("fn_hz", "fn (max |Z|)"),
              _row("zm_ohm", "|Z| at fm"), _row("zn_ohm", "|Z| at fn"),
-             _row("g_max_s", "G at fs", "S"),  # the field holds siemens (not seconds)
+             _row("g_max_siemens", "G at fs"),
              _row("r_max_ohm", "R at fp"), _row("f1_hz", "half-power f1"),
              _row("f2_hz", "half-power f2"), _row("k_eff", "k_eff"),
              _row("qm", "Qm (half-power)"))
@@ -382,6 +382,6 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
         flags.append("unexpected-order:fa<fp<fn")
 
     return Resonance(fm_hz=fm, fn_hz=fn, fs_hz=fs, fp_hz=fp, fr_hz=fr, fa_hz=fa, zm_ohm=zm,
-                     zn_ohm=zn, g_max_s=g_max, r_max_ohm=r_max, f1_hz=f1, f2_hz=f2, k_eff=k,
+                     zn_ohm=zn, g_max_siemens=g_max, r_max_ohm=r_max, f1_hz=f1, f2_hz=f2, k_eff=k,
                      qm=qm, flags=tuple(flags), span_hz=span, points=n, step_hz=step,
                      name=name, method=meth)

@@ -1,16 +1,16 @@
-"""Limits and verdicts: does a capture meet its acceptance limits, and by how much.
+"""The limits file: acceptance limits of a lot, read, checked and written as TOML.
 
 A limits file is TOML in a format of our own (see docs/limits.md): bounds on any summary
 column (``[quantity.fs_hz]`` with ``min`` and/or ``max``) and masks on a curve
 (``[[mask]]``: |Z| in ohm or |Sij| in dB between a lower and an upper bound over a
-frequency span). :func:`verdict` says "pass", "fail" or "incomplete", gives the reasons in
-words and the margin of every check: how far the value is inside (positive) or outside
-(negative) its nearest bound, in the quantity's unit and relative to the bound.
+frequency span). :func:`load_limits` and :func:`parse_limits` read and validate one (a
+bad file raises :class:`LimitsError` naming the file, line and fix); :meth:`Limits.to_toml`
+and :meth:`Limits.save` write one. Verdicts and margins are in :mod:`kit.review.verdicts`,
+the drawing of limits on axes in :mod:`kit.review.drawing`.
 
 References
 ----------
 .. [1] TOML v1.0.0 specification (toml.io), read with Python's standard ``tomllib``.
-.. [2] |S| in dB = 20 log10 |S|; methods sheet section 8.3 (return loss, ECSS glossary).
 """
 
 from __future__ import annotations
@@ -19,16 +19,21 @@ import math
 import os
 import re
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from kit.capture import CaptureError
+from kit.io.atomic import write_text
+from kit.units import unit_of
+
 FORMAT = "sweepbook-limits"
 FORMAT_VERSION = 1
-#: Curves a mask can bound, with their unit. ``sIJ_db`` for any port pair is accepted too.
-CURVES = {"z_mag_ohm": "ohm", "s11_db": "dB"}
+#: Curves a mask can bound (their unit is that of the name's suffix). ``sIJ_db`` for any
+#: port pair is accepted too.
+CURVES = ("z_mag_ohm", "s11_db")
 _S_DB = re.compile(r"^s([1-9])([1-9])_db$")
 _BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
 _Q_KEYS = {"min", "max", "label", "required"}
@@ -38,7 +43,7 @@ _M_KEYS = {"name", "curve", "f_min_hz", "f_max_hz", "lower", "upper", "z_method"
 SPAN_TOL = 1e-9
 
 
-class LimitsError(ValueError):
+class LimitsError(CaptureError):
     """A limits file cannot be used; the message names the file, line and the fix."""
 
 
@@ -102,56 +107,70 @@ class Limits:
     def to_toml(self) -> str:
         """The limits as TOML text in the documented format (readable by :func:`load_limits`)."""
         out = [f"# sweepbook limits file (format {FORMAT} {FORMAT_VERSION}, see docs/limits.md)",
-               f"format = {_toml_str(FORMAT)}", f"version = {FORMAT_VERSION}"]
+               f"format = {toml_str(FORMAT)}", f"version = {FORMAT_VERSION}"]
         if self.name:
-            out.append(f"name = {_toml_str(self.name)}")
+            out.append(f"name = {toml_str(self.name)}")
         for q in self.quantities:
-            out += ["", f"[quantity.{_toml_key(q.name)}]"]
+            out += ["", f"[quantity.{toml_key(q.name)}]"]
             if q.min is not None:
-                out.append(f"min = {_toml_num(q.min)}")
+                out.append(f"min = {toml_num(q.min)}")
             if q.max is not None:
-                out.append(f"max = {_toml_num(q.max)}")
+                out.append(f"max = {toml_num(q.max)}")
             if q.label:
-                out.append(f"label = {_toml_str(q.label)}")
+                out.append(f"label = {toml_str(q.label)}")
             if not q.required:
                 out.append("required = false")
         for m in self.masks:
-            out += ["", "[[mask]]", f"name = {_toml_str(m.name)}", f"curve = {_toml_str(m.curve)}",
-                    f"f_min_hz = {_toml_num(m.f_min_hz)}", f"f_max_hz = {_toml_num(m.f_max_hz)}"]
+            out += ["", "[[mask]]", f"name = {toml_str(m.name)}", f"curve = {toml_str(m.curve)}",
+                    f"f_min_hz = {toml_num(m.f_min_hz)}", f"f_max_hz = {toml_num(m.f_max_hz)}"]
             for key in ("lower", "upper"):
                 b = getattr(m, key)
                 if isinstance(b, tuple):
-                    out.append(f"{key} = [{_toml_num(b[0])}, {_toml_num(b[1])}]")
+                    out.append(f"{key} = [{toml_num(b[0])}, {toml_num(b[1])}]")
                 elif b is not None:
-                    out.append(f"{key} = {_toml_num(b)}")
+                    out.append(f"{key} = {toml_num(b)}")
             if m.curve == "z_mag_ohm":
-                out.append(f"z_method = {_toml_str(m.z_method)}")
+                out.append(f"z_method = {toml_str(m.z_method)}")
                 out.append(f"port = {int(m.port)}")
         return "\n".join(out) + "\n"
 
     def save(self, path: str | os.PathLike) -> Path:
         """Write :meth:`to_toml` to ``path`` atomically (temporary file, then rename)."""
         path = Path(path)
-        atomic_write_text(path, self.to_toml())
+        write_text(path, self.to_toml())
         return path
 
     def draw(self, ax, curve: str = "z_mag_ohm", f_scale: float = 1.0, quantities: bool = True,
              **style: Any) -> list:
-        """Draw the limits on matplotlib axes; see :func:`draw_limits`."""
+        """Draw the limits on matplotlib axes; see :func:`kit.review.drawing.draw_limits`."""
+        from kit.review.drawing import draw_limits
+
         return draw_limits(ax, self, curve=curve, f_scale=f_scale, quantities=quantities, **style)
 
 
+def s_ports(curve: str) -> tuple[int, int] | None:
+    """0-based (i, j) of an ``sIJ_db`` curve name (``"s21_db"`` -> (1, 0)); None otherwise."""
+    m = _S_DB.match(curve)
+    return None if m is None else (int(m.group(1)) - 1, int(m.group(2)) - 1)
+
+
 def curve_unit(curve: str) -> str:
-    """Unit of a mask curve name ("ohm" or "dB"); raises ValueError for an unknown one."""
-    if curve in CURVES:
-        return CURVES[curve]
-    if _S_DB.match(curve):
-        return "dB"
+    """Unit of a mask curve name ("Ω" or "dB", by :func:`kit.units.unit_of`).
+
+    Raises
+    ------
+    ValueError
+        For a curve a mask cannot bound.
+    """
+    if curve in CURVES or _S_DB.match(curve):
+        return unit_of(curve)
     raise ValueError(f"unknown curve {curve!r}; use z_mag_ohm or sIJ_db (e.g. s11_db, s21_db)")
 
 
 # --------------------------------------------------------------------------- TOML writing
-def _toml_str(s: str) -> str:
+# The standard library reads TOML (tomllib) but does not write it: these scalar writers are
+# the kit's one home for it (limits files here, procedure files in kit.batch.procedure).
+def toml_str(s: str) -> str:
     """A TOML basic string with every special character escaped (TOML 1.0, "String")."""
     out = ['"']
     for ch in str(s):
@@ -174,19 +193,16 @@ def _toml_str(s: str) -> str:
     return "".join(out)
 
 
-def _toml_key(k: str) -> str:
-    return k if _BARE_KEY.match(k) else _toml_str(k)
+def toml_key(k: str) -> str:
+    return k if _BARE_KEY.match(k) else toml_str(k)
 
 
-def _toml_num(x: float) -> str:
+def toml_num(x: float) -> str:
     x = float(x)
     if not math.isfinite(x):
         raise LimitsError(f"a limit must be a finite number, got {x!r}")
     r = repr(x)
     return r if ("." in r or "e" in r or "E" in r) else r + ".0"
-
-
-from kit.io.atomic import write_text as atomic_write_text  # noqa: E402  (kept for callers)
 
 
 # --------------------------------------------------------------------------- reading
@@ -339,290 +355,3 @@ def load_limits(path: str | os.PathLike) -> Limits:
     except OSError as exc:
         raise LimitsError(f"{path}: cannot read the limits file: {exc.strerror or exc}") from None
     return parse_limits(text, str(path))
-
-
-# --------------------------------------------------------------------------- checking
-@dataclass(frozen=True)
-class Check:
-    """The outcome of one limit check.
-
-    ``margin`` is the signed distance to the nearest bound in the check's unit (positive
-    inside, negative outside); ``margin_rel`` is that distance divided by the magnitude of
-    that bound (NaN where the bound is zero). Both are NaN when the check is incomplete.
-    """
-
-    name: str
-    kind: str  # "quantity" or "mask"
-    status: str  # "pass", "fail" or "incomplete"
-    reason: str
-    value: float = math.nan
-    bound: float = math.nan
-    margin: float = math.nan
-    margin_rel: float = math.nan
-    unit: str = ""
-    f_hz: float = math.nan  # where a mask is tightest
-
-    def to_dict(self) -> dict[str, Any]:
-        return dict(self.__dict__)
-
-
-@dataclass(frozen=True)
-class Verdict:
-    """Overall "pass", "fail" or "incomplete", with every check and reasons in words.
-
-    Unpacks as ``status, reasons = verdict(...)``.
-    """
-
-    status: str
-    checks: tuple[Check, ...] = field(default_factory=tuple)
-
-    @property
-    def reasons(self) -> list[str]:
-        """Words for every check that did not pass (all checks when everything passed)."""
-        bad = [c.reason for c in self.checks if c.status != "pass"]
-        return bad or [c.reason for c in self.checks]
-
-    @property
-    def margins(self) -> dict[str, float]:
-        """Check name -> margin (in the check's unit)."""
-        return {c.name: c.margin for c in self.checks}
-
-    @property
-    def worst(self) -> Check | None:
-        """The check with the smallest relative margin (or absolute where none)."""
-        done = [c for c in self.checks if c.status != "incomplete"]
-        if not done:
-            return None
-        return min(done, key=lambda c: c.margin_rel if math.isfinite(c.margin_rel) else c.margin)
-
-    def __iter__(self):
-        return iter((self.status, self.reasons))
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"status": self.status, "reasons": self.reasons,
-                "checks": [c.to_dict() for c in self.checks]}
-
-    def table(self):
-        """The checks as a DataFrame."""
-        import pandas as pd
-
-        return pd.DataFrame([c.to_dict() for c in self.checks],
-                            columns=list(Check.__dataclass_fields__))
-
-
-def _unit_of(name: str) -> str:
-    for suffix, unit in (("_hz", "Hz"), ("_ohm", "ohm"), ("_f", "F"), ("_h", "H"),
-                         ("_db", "dB"), ("_s", "s"), ("_c", "degC"), ("_v", "V")):
-        if name.endswith(suffix):
-            return unit
-    return ""
-
-
-def _fmt(x: float, unit: str) -> str:
-    return f"{x:.6g} {unit}".strip()
-
-
-def _rel(margin: float, bound: float) -> float:
-    return margin / abs(bound) if bound != 0 else math.nan
-
-
-def _get(row: Any, name: str) -> Any:
-    if isinstance(row, dict):
-        return row.get(name)
-    try:
-        return row[name]
-    except (KeyError, IndexError, TypeError):
-        return getattr(row, name, None)
-
-
-def check_quantity(q: QuantityLimit, row: Any) -> Check:
-    """Check one quantity bound against a summary row (dict, Series or object)."""
-    unit = _unit_of(q.name)
-    label = q.label or q.name
-    v = _get(row, q.name)
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        x = math.nan
-    if v is None or not math.isfinite(x):
-        why = "is missing" if v is None else f"could not be computed ({v!r})"
-        status = "incomplete" if q.required else "pass"
-        return Check(q.name, "quantity", status, f"{label}: {why}; no check possible", unit=unit)
-    cands = []
-    if q.min is not None:
-        cands.append((x - q.min, q.min, "min"))
-    if q.max is not None:
-        cands.append((q.max - x, q.max, "max"))
-    margin, bound, which = min(cands, key=lambda c: c[0])
-    rel = _rel(margin, bound)
-    rel_txt = f" ({abs(rel):.3g} of the bound)" if math.isfinite(rel) else ""
-    if margin >= 0:
-        status = "pass"
-        reason = (f"{label} = {_fmt(x, unit)} is within limits; nearest bound {which} "
-                  f"{_fmt(bound, unit)}, margin {_fmt(margin, unit)}{rel_txt}")
-    else:
-        status = "fail"
-        word = "below the minimum" if which == "min" else "above the maximum"
-        reason = (f"{label} = {_fmt(x, unit)} is {word} {_fmt(bound, unit)} by "
-                  f"{_fmt(-margin, unit)}{rel_txt}")
-    return Check(q.name, "quantity", status, reason, x, bound, margin, rel, unit)
-
-
-def curve_values(capture: Any, mask: Mask) -> tuple[np.ndarray, np.ndarray]:
-    """The frequencies [Hz] and the values of the mask's curve (|Z| [ohm] or |Sij| [dB])."""
-    net = getattr(capture, "network", capture)
-    f = np.asarray(net.frequency.f, float)
-    m = _S_DB.match(mask.curve)
-    if m:
-        i, j = int(m.group(1)) - 1, int(m.group(2)) - 1
-        if max(i, j) >= net.nports:
-            raise ValueError(f"the capture has {net.nports} port(s); {mask.curve} needs more")
-        with np.errstate(divide="ignore"):
-            return f, 20.0 * np.log10(np.abs(net.s[:, i, j]))
-    import warnings
-
-    from kit.network.immittance import impedance
-
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # singular points become NaN and are reported below
-        z = impedance(capture, method=mask.z_method, port=mask.port)
-    return f, np.abs(z)
-
-
-def check_mask(mask: Mask, capture: Any) -> Check:
-    """Check one curve mask on a capture (Capture or skrf Network)."""
-    unit = mask.unit
-    span = f"{mask.f_min_hz / 1e6:.6g}..{mask.f_max_hz / 1e6:.6g} MHz"
-    what = f"mask {mask.name!r} ({mask.curve} over {span})"
-    if capture is None:
-        return Check(mask.name, "mask", "incomplete", f"{what}: no capture given", unit=unit)
-    try:
-        f, y = curve_values(capture, mask)
-    except Exception as exc:  # noqa: BLE001 - a curve that cannot be computed is reported
-        return Check(mask.name, "mask", "incomplete", f"{what}: the curve could not be computed "
-                     f"({exc})", unit=unit)
-    tol = SPAN_TOL * (mask.f_max_hz - mask.f_min_hz)
-    if f.size == 0 or f[0] > mask.f_min_hz + tol or f[-1] < mask.f_max_hz - tol:
-        have = f"{f[0] / 1e6:.6g}..{f[-1] / 1e6:.6g} MHz" if f.size else "no points"
-        return Check(mask.name, "mask", "incomplete",
-                     f"{what}: the capture covers {have}, not the whole span", unit=unit)
-    sel = (f >= mask.f_min_hz - tol) & (f <= mask.f_max_hz + tol)
-    fs, ys = f[sel], y[sel]
-    if fs.size == 0:
-        return Check(mask.name, "mask", "incomplete", f"{what}: no measured point in the span",
-                     unit=unit)
-    if not np.all(np.isfinite(ys)):
-        bad = fs[~np.isfinite(ys)]
-        return Check(mask.name, "mask", "incomplete", f"{what}: {bad.size} point(s) could not be "
-                     f"computed (first at {bad[0] / 1e6:.6g} MHz)", unit=unit)
-    cands = []
-    lo = mask.bound("lower", fs)
-    hi = mask.bound("upper", fs)
-    if lo is not None:
-        d = ys - lo
-        k = int(np.argmin(d))
-        cands.append((float(d[k]), float(lo[k]), k, "lower"))
-    if hi is not None:
-        d = hi - ys
-        k = int(np.argmin(d))
-        cands.append((float(d[k]), float(hi[k]), k, "upper"))
-    margin, bound, k, which = min(cands, key=lambda c: c[0])
-    rel = _rel(margin, bound)
-    at = f"{fs[k] / 1e6:.6g} MHz"
-    if margin >= 0:
-        status = "pass"
-        reason = (f"{what}: inside; tightest at {at}, {_fmt(margin, unit)} from the {which} bound "
-                  f"{_fmt(bound, unit)}")
-    else:
-        status = "fail"
-        n_out = int(np.sum(((ys < lo) if lo is not None else False)
-                           | ((ys > hi) if hi is not None else False)))
-        word = "below the lower" if which == "lower" else "above the upper"
-        reason = (f"{what}: {_fmt(float(ys[k]), unit)} at {at} is {word} bound "
-                  f"{_fmt(bound, unit)} by {_fmt(-margin, unit)}; {n_out} of {fs.size} points "
-                  "outside")
-    return Check(mask.name, "mask", status, reason, float(ys[k]), bound, margin, rel, unit,
-                 float(fs[k]))
-
-
-def verdict(summary_row: Any, limits: Limits, capture: Any = None) -> Verdict:
-    """Pass, fail or incomplete for one capture, with reasons and margins.
-
-    Parameters
-    ----------
-    summary_row : dict, pandas Series or object
-        Values by summary column name (e.g. a row of :func:`kit.summary`). Missing or NaN
-        values make their check incomplete (unless the limit says ``required = false``).
-    limits : Limits
-        From :func:`load_limits`.
-    capture : Capture or skrf.Network, optional
-        Needed for the masks; without it every mask check is incomplete.
-
-    Returns
-    -------
-    Verdict
-        ``status``: "fail" if any check fails, else "incomplete" if any could not be made,
-        else "pass" (also "incomplete" for limits with no checks). ``reasons`` in words,
-        ``checks`` with the margin of each (see :class:`Check`). Unpacks as
-        ``status, reasons``.
-
-    References
-    ----------
-    .. [1] Margin as signed distance to the nearest bound: common practice, no source.
-    """
-    if not isinstance(limits, Limits):
-        raise TypeError(f"limits must be a kit Limits (from load_limits), got "
-                        f"{type(limits).__name__}")
-    checks = [check_quantity(q, summary_row) for q in limits.quantities]
-    checks += [check_mask(m, capture) for m in limits.masks]
-    if not checks:
-        return Verdict("incomplete", (Check("limits", "quantity", "incomplete",
-                                            "the limits define no check"),))
-    states = {c.status for c in checks}
-    status = "fail" if "fail" in states else ("incomplete" if "incomplete" in states else "pass")
-    return Verdict(status, tuple(checks))
-
-
-# --------------------------------------------------------------------------- drawing
-def draw_limits(ax, limits: Limits, curve: str = "z_mag_ohm", f_scale: float = 1.0,
-                quantities: bool = True, **style: Any) -> list:
-    """Draw the limits of ``curve`` on matplotlib axes whose x axis is frequency.
-
-    Parameters
-    ----------
-    ax : matplotlib.axes.Axes
-        x in hertz divided by ``f_scale`` (e.g. ``f_scale=1e6`` for an axis in MHz).
-    limits : Limits
-    curve : str
-        Masks on this curve are drawn as lines (lower and upper bounds).
-    quantities : bool
-        Also mark bounds of frequency quantities (names ending ``_hz``) as vertical dashed
-        lines.
-
-    Returns
-    -------
-    list of matplotlib artists
-    """
-    artists = []
-    colour = style.pop("color", "tab:red")
-    for m in limits.masks:
-        if m.curve != curve:
-            continue
-        f = np.array([m.f_min_hz, m.f_max_hz])
-        for which, ls in (("lower", "--"), ("upper", "-")):
-            b = m.bound(which, f)
-            if b is None:
-                continue
-            (line,) = ax.plot(f / f_scale, b, ls, color=colour, lw=1.5, alpha=0.8,
-                              label=f"{m.name} {which}", **style)
-            artists.append(line)
-    if quantities:
-        for q in limits.quantities:
-            if not q.name.endswith("_hz"):
-                continue
-            bounds = [b for b in (q.min, q.max) if b is not None]
-            for k, b in enumerate(bounds):
-                label = f"{q.label or q.name} limit" if k == 0 else "_nolegend_"
-                artists.append(ax.axvline(b / f_scale, color=colour, ls=":", lw=1.0,
-                                          alpha=0.7, label=label))
-    return artists

@@ -37,8 +37,8 @@ DEFAULT_NAME = "review.sqlite"
 SCHEMA_VERSION = 1
 #: Longest text kept in one event (characters); longer text is refused, not cut.
 MAX_TEXT = 20000
-#: How long a writer waits for another one [ms].
-BUSY_TIMEOUT_MS = 30000
+#: How long a writer waits for another one [s].
+BUSY_TIMEOUT_S = 30.0
 
 EVENT_COLUMNS = ["event_id", "utc", "capture", "sha256", "path", "kind", "value",
                  "value_num", "text", "author", "kit_version"]
@@ -212,9 +212,10 @@ class ReviewLog:
         if self._conn is not None and self._pid == os.getpid():
             return self._conn
         try:
-            conn = sqlite3.connect(str(self.path), timeout=BUSY_TIMEOUT_MS / 1000,
+            conn = sqlite3.connect(str(self.path), timeout=BUSY_TIMEOUT_S,
                                    isolation_level=None, check_same_thread=False)
-            conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+            # SQLite's busy_timeout pragma takes milliseconds (sqlite.org, pragma.html)
+            conn.execute(f"PRAGMA busy_timeout = {round(BUSY_TIMEOUT_S * 1000)}")
             mode = conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]
             conn.execute("PRAGMA synchronous = FULL")
             migrate(conn, str(self.path))

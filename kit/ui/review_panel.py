@@ -77,13 +77,9 @@ class ReviewPanel:
         import ipywidgets as w
 
         from kit.capture import Capture
-        from kit.io.folder import captures_of
+        from kit.outputs.entries import as_list
 
-        if isinstance(captures, Capture):
-            captures = [captures]
-        elif hasattr(captures, "columns"):  # a kit.load_folder table: its loadable rows
-            captures = captures_of(captures)
-        self.captures = [c for c in captures if isinstance(c, Capture)]
+        self.captures = [c for c in as_list(captures) if isinstance(c, Capture)]
         if not self.captures:
             raise ValueError("the review panel needs at least one loadable capture")
         self.log = log if isinstance(log, ReviewLog) else ReviewLog(log)
