@@ -20,7 +20,7 @@ from kit.units import unit_of
 DOC = Path(__file__).resolve().parents[1] / "docs" / "nomenclature.md"
 #: Names outside the review, output and batch stages that break the suffix rule; listed
 #: under "Known exceptions" in the docs and reported, not renamed here.
-EXCEPTIONS = {"capture_or_f", "load_ohms", "expected_ohms", "z"}
+EXCEPTIONS = {"capture_or_f", "load_ohms", "z"}
 _NO_UNIT = {"–", "1", ""}
 
 
@@ -162,7 +162,7 @@ def test_known_exceptions_are_documented_and_still_exceptions():
         assert f"`{name}`" in section, name
         assert name in params, f"{name} is no longer a public parameter: drop it from the list"
     # what makes each an exception (suffix rule of kit.units)
-    assert unit_of("load_ohms") == "" and unit_of("expected_ohms") == ""
+    assert unit_of("load_ohms") == ""
     assert unit_of("capture_or_f") == "F" and unit_of("z") == ""
 
 
