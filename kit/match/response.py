@@ -113,9 +113,14 @@ class Bandwidth(Result):
     found: bool
     message: str
 
-    _ROWS = (("rl_db", "required return loss", "dB"), ("f_lo_hz", "lower edge", "Hz"),
-             ("f_hi_hz", "upper edge", "Hz"), ("f_best_hz", "best match at", "Hz"),
-             ("width_hz", "width", "Hz"), ("fractional", "fractional width", ""))
+    _ROWS = (
+        ("rl_db", "required return loss", "dB"),
+        ("f_lo_hz", "lower edge", "Hz"),
+        ("f_hi_hz", "upper edge", "Hz"),
+        ("f_best_hz", "best match at", "Hz"),
+        ("width_hz", "width", "Hz"),
+        ("fractional", "fractional width", ""),
+    )
 
     @property
     def ok(self) -> bool:

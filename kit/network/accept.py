@@ -11,9 +11,9 @@ from __future__ import annotations
 
 from typing import Any
 
-from kit.capture import Capture
+from kit.capture import Capture, CaptureError
 
-__all__ = ["is_network", "name_of", "network_of"]
+__all__ = ["is_network", "name_of", "network_of", "s_term"]
 
 
 def is_network(obj: Any) -> bool:
@@ -41,3 +41,24 @@ def name_of(obj: Any, default: str = "network") -> str:
     if isinstance(obj, Capture):
         return obj.name
     return str(getattr(obj, "name", None) or default)
+
+
+def s_term(obj: Any, trace: str, what: str = "this function") -> tuple[int, int, str]:
+    """0-based indexes (i, j) of the S-parameter named ``trace`` ("S21") of a Capture or Network.
+
+    Returns ``(i, j, name)`` with the name in upper case.
+
+    Raises
+    ------
+    kit.CaptureError
+        When the name is not of the form "Sij" or the term does not exist (names the file).
+    """
+    n = network_of(obj, what).nports
+    path = getattr(obj, "path", None)
+    t = str(trace).upper()
+    if not (len(t) == 3 and t[0] == "S" and t[1:].isdigit()):
+        raise CaptureError(f"trace must look like 'S21', got {trace!r}", path)
+    i, j = int(t[1]) - 1, int(t[2]) - 1
+    if not (0 <= i < n and 0 <= j < n):
+        raise CaptureError(f"trace {t} does not exist: the capture has {n} port(s)", path)
+    return i, j, t

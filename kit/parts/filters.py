@@ -32,9 +32,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from kit.capture import CaptureError
+from kit.network.accept import s_term
 from kit.network.coerce import name_of, network_of
 from kit.parts.components import ComponentFigures, component_figures  # noqa: F401  (re-export)
-from kit.resonators.peaks import crossing, drop_nonfinite, sort_merge, vertex_min
+from kit.resonators.peaks import clean_trace, crossing, vertex_min
 from kit.results import Result, nan_if_none
 from kit.units import eng, scale_for
 
@@ -198,12 +199,7 @@ def _s_trace(capture, trace: str):
     n = ntwk.nports
     if n == 1:
         return ntwk.frequency.f, ntwk.s[:, 0, 0], name, "one-port trace", path
-    t = str(trace).upper()
-    if not (len(t) == 3 and t[0] == "S" and t[1:].isdigit()):
-        raise CaptureError(f"trace must look like 'S21', got {trace!r}", path)
-    i, j = int(t[1]) - 1, int(t[2]) - 1
-    if not (0 <= i < n and 0 <= j < n):
-        raise CaptureError(f"trace {t} does not exist: the capture has {n} port(s)", path)
+    i, j, t = s_term(capture, trace, "filter_figures()")
     return ntwk.frequency.f, ntwk.s[:, i, j], name, t, path
 
 
@@ -260,17 +256,7 @@ def filter_figures(capture, level_db: float = -3.0, kind: str | None = None, *,
         raise CaptureError(f"level_db must be a negative number of dB, got {level_db!r}", path)
     if kind is not None and kind not in FILTER_KINDS:
         raise CaptureError(f"unknown kind {kind!r}; choose one of {', '.join(FILTER_KINDS)}", path)
-    flags: list[str] = []
-    f = np.asarray(f, float)
-    s = np.asarray(s, complex)
-    f, s, n_bad = drop_nonfinite(f, s)
-    if n_bad:
-        flags.append(f"nan-points:{n_bad}")
-    f, s, n_rep = sort_merge(f, s)
-    if n_rep:
-        flags.append(f"repeated-frequencies:{n_rep}")
-    if len(f) < 5:
-        raise CaptureError(f"only {len(f)} usable point(s); at least 5 are needed", path)
+    f, s, flags, _ = clean_trace(f, np.asarray(s, complex), min_points=5, path=path)
     p = np.maximum(np.abs(s) ** 2, 1e-300)
     db = 10 * np.log10(p)
     inv_p = 1.0 / p

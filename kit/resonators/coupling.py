@@ -120,36 +120,26 @@ def kt(fs_hz, fp_hz):
     .. [1] ANSI/IEEE Std 176-1987, thickness-extensional plate ("stiffened" mode) (clause
        and equation number from memory).
     """
-    fs, fp = _pair(fs_hz, fp_hz, "kt")
-    k2 = (np.pi / 2) * (fs / fp) * np.tan((np.pi / 2) * (fp - fs) / fp)
-    return _out(np.sqrt(k2))
+    return _stiffened(*_pair(fs_hz, fp_hz, "kt"))
 
 
 def k33(fs_hz, fp_hz):
-    r"""Longitudinal coupling factor of a bar poled along its length (tan form).
+    r"""Longitudinal coupling factor k33 [1] of a bar poled and electroded on its ends.
 
-    .. math:: k_{33}^2 = \frac{\pi}{2}\frac{f_s}{f_p}
-              \tan\left[\frac{\pi}{2}\frac{f_p - f_s}{f_p}\right]
-
-    Same "stiffened" form as :func:`kt`, with the resonance pair of the length mode of a
-    long bar poled and electroded on its ends.
-
-    Parameters
-    ----------
-    fs_hz, fp_hz : float or array_like
-        Series and parallel resonance [Hz], 0 < fs < fp.
-
-    Returns
-    -------
-    float or numpy.ndarray
-        k33 [1].
+    The same "stiffened" tan form as :func:`kt`, applied to the series and parallel
+    resonance ``fs_hz`` < ``fp_hz`` [Hz] (floats or arrays) of the bar's length mode:
+    :math:`k_{33}^2 = (\pi/2)(f_s/f_p)\tan[(\pi/2)(f_p - f_s)/f_p]`.
 
     References
     ----------
     .. [1] ANSI/IEEE Std 176-1987, length-extensional bar, stiffened mode (clause from
        memory).
     """
-    fs, fp = _pair(fs_hz, fp_hz, "k33")
+    return _stiffened(*_pair(fs_hz, fp_hz, "k33"))
+
+
+def _stiffened(fs, fp):
+    """The tan form shared by :func:`kt` and :func:`k33` (same equation, other mode)."""
     k2 = (np.pi / 2) * (fs / fp) * np.tan((np.pi / 2) * (fp - fs) / fp)
     return _out(np.sqrt(k2))
 
@@ -160,18 +150,9 @@ def k31(fs_hz, fp_hz):
     .. math:: \frac{k_{31}^2}{1 - k_{31}^2} = \frac{\pi}{2}\frac{f_p}{f_s}
               \tan\left[\frac{\pi}{2}\frac{f_p - f_s}{f_s}\right]
 
-    For a bar poled through its thickness and vibrating along its length. Valid for
-    fs < fp < 2 fs.
-
-    Parameters
-    ----------
-    fs_hz, fp_hz : float or array_like
-        Series and parallel resonance [Hz].
-
-    Returns
-    -------
-    float or numpy.ndarray
-        k31 [1].
+    For a bar poled through its thickness and vibrating along its length, from the series
+    and parallel resonance ``fs_hz``, ``fp_hz`` [Hz] (floats or arrays) of that mode; valid
+    for fs < fp < 2 fs. Returns k31 [1].
 
     References
     ----------
@@ -250,43 +231,21 @@ def fs_from_kt(kt_value: float, fp_hz: float) -> float:
 
 
 def fp_from_kt(kt_value: float, fs_hz: float) -> float:
-    """Parallel resonance of a thickness mode with coupling ``kt`` and series resonance ``fs_hz``.
-
-    The inverse of :func:`kt` for fp; see :func:`fs_from_kt`.
-
-    Parameters
-    ----------
-    kt_value : float
-        Thickness coupling factor, 0 < kt < 1 [1].
-    fs_hz : float
-        Series resonance [Hz].
-
-    Returns
-    -------
-    float
-        fp [Hz].
+    """Parallel resonance fp [Hz] from the thickness coupling ``kt_value`` (0 < kt < 1) [1] and
+    the series resonance ``fs_hz`` [Hz]: the inverse of :func:`kt` for fp, fp = fs / (fs/fp),
+    with the ratio fs/fp from the same root as :func:`fs_from_kt`.
 
     References
     ----------
-    .. [1] ANSI/IEEE Std 176-1987, thickness-extensional plate (clause from memory).
+    .. [1] ANSI/IEEE Std 176-1987, as for :func:`fs_from_kt` (clause from memory).
     """
     return float(fs_hz) / _thickness_ratio(_check_k(kt_value, "fp_from_kt"))
 
 
 def fp_from_k31(k31_value: float, fs_hz: float) -> float:
-    """Parallel resonance of a length-extensional bar with coupling ``k31``; inverse of k31().
-
-    Parameters
-    ----------
-    k31_value : float
-        Transverse coupling factor, 0 < k31 < 1 [1].
-    fs_hz : float
-        Series resonance [Hz].
-
-    Returns
-    -------
-    float
-        fp [Hz].
+    """Parallel resonance fp [Hz] of a length-extensional bar from its transverse coupling
+    ``k31_value`` (0 < k31 < 1) [1] and series resonance ``fs_hz`` [Hz]: the inverse of
+    :func:`k31` for fp.
 
     References
     ----------
@@ -392,17 +351,8 @@ def kp_approx(fs_hz, fp_hz, factor: float = 2.51):
     The factor 2.51 belongs to a Poisson ratio near 0.31; the result tracks :func:`kp`
     within about 0.5 % there.
 
-    Parameters
-    ----------
-    fs_hz, fp_hz : float or array_like
-        Series and parallel resonance [Hz].
-    factor : float
-        The slope factor [1].
-
-    Returns
-    -------
-    float or numpy.ndarray
-        kp [1].
+    ``fs_hz``, ``fp_hz`` are the radial-mode resonance pair [Hz] (floats or arrays) and
+    ``factor`` the slope [1]; returns the approximate kp [1].
 
     References
     ----------

@@ -90,6 +90,11 @@ def param_unit(name: str) -> str:
     return unit_of(name)
 
 
+
+def _derived(key: str, doc: str) -> property:
+    """A read-only figure of ``FitResult.derived`` (NaN when the model has none)."""
+    return property(lambda self: float(self.derived.get(key, np.nan)), doc=doc)
+
 @dataclass(frozen=True)
 class FitResult(Result):
     """Outcome of one fit: parameters with uncertainties, derived figures and flags.
@@ -150,25 +155,10 @@ class FitResult(Result):
             f" ({self.modes} modes)" if self.modes > 1 else "")
 
     # -- derived figures of the fitted circuit
-    @property
-    def fs_hz(self) -> float:
-        """Series (motional) resonance of the fitted model [Hz]."""
-        return float(self.derived.get("fs_hz", np.nan))
-
-    @property
-    def fp_hz(self) -> float:
-        """Parallel resonance of the fitted model [Hz]."""
-        return float(self.derived.get("fp_hz", np.nan))
-
-    @property
-    def k_eff(self) -> float:
-        """Effective coupling sqrt((fp^2 - fs^2)/fp^2) of the fitted model [1]."""
-        return float(self.derived.get("k_eff", np.nan))
-
-    @property
-    def qm(self) -> float:
-        """Mechanical Q of the fitted model [1]."""
-        return float(self.derived.get("qm", np.nan))
+    fs_hz = _derived("fs_hz", "Series (motional) resonance of the fitted model [Hz].")
+    fp_hz = _derived("fp_hz", "Parallel resonance of the fitted model [Hz].")
+    k_eff = _derived("k_eff", "Effective coupling sqrt((fp^2 - fs^2)/fp^2) of the fitted model [1].")
+    qm = _derived("qm", "Mechanical Q of the fitted model [1].")
 
     def model_z(self, f_hz) -> np.ndarray:
         """Impedance [ohm] of the fitted model at ``f_hz`` [Hz].

@@ -239,6 +239,16 @@ class Resonance(Result):
 
 # --------------------------------------------------------------------------- main
 
+def _taken(pk, key: str, flags: list[str]) -> tuple[int | None, float | None, float | None]:
+    """(index, frequency, value) of a peak of the reader, flagging a missing or unrefined one."""
+    if pk is None:
+        flags.append(f"no-peak:{key}")
+        return None, None, None
+    if not pk.refined:
+        flags.append(f"not-interpolated:{key}")
+    return pk[0], pk[1], pk[2]
+
+
 def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
               port: int = 1) -> Resonance:
     """Characteristic frequencies, k_eff and Qm of the main resonance in a capture.
@@ -301,24 +311,9 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
         return vertex_min(f, t, i) if 0 < i < n - 1 else (float(f[i]), float(t[i]))
 
     # fs: most prominent conductance peak, refined on 1/G (the one peak reader)
-    fs = g_max = i_s = None
-    pk_s = conductance_peak(f, zz)
-    if pk_s is None:
-        flags.append("no-peak:fs")
-    else:
-        i_s, fs, g_max, _ = pk_s
-        if not pk_s.refined:
-            flags.append("not-interpolated:fs")
-
+    i_s, fs, g_max = _taken(conductance_peak(f, zz), "fs", flags)
     # fp: most prominent resistance peak above fs (anywhere if fs is missing)
-    fp = r_max = i_p = None
-    pk_p = resistance_peak(f, zz, after=i_s)
-    if pk_p is None:
-        flags.append("no-peak:fp")
-    else:
-        i_p, fp, r_max, _ = pk_p
-        if not pk_p.refined:
-            flags.append("not-interpolated:fp")
+    i_p, fp, r_max = _taken(resistance_peak(f, zz, after=i_s), "fp", flags)
 
     # fm, fn: |Z| extrema nearest to fs and fp
     fm = zm = fn = zn = None

@@ -78,7 +78,7 @@ def plate_z(f_hz, kt, fp_hz: float, c0_f: float, qm: float = np.inf, tan_delta: 
     Returns
     -------
     numpy.ndarray of complex
-        Z [ohm].
+        Electrical impedance of the plate with its face loads [ohm].
 
     References
     ----------

@@ -28,6 +28,7 @@ import numpy as np
 
 from kit._text import fmt_value
 from kit.capture import CaptureError
+from kit.network.accept import s_term
 from kit.network.coerce import name_of, network_of
 from kit.results import Result, nan_if_none
 from kit.units import eng, unit_of
@@ -262,18 +263,12 @@ def _trace(capture, kind: str, trace: str | None):
     import skrf as rf
 
     ntwk = network_of(capture, "q_factor()")
-    path = getattr(capture, "path", None)
     n = ntwk.nports
     if n == 1 and trace is None:
         return ntwk, "one-port trace"
     if trace is None:
         trace = "S11" if kind.startswith("reflection") else "S21"
-    t = str(trace).upper()
-    if not (len(t) == 3 and t[0] == "S" and t[1:].isdigit()):
-        raise CaptureError(f"trace must look like 'S21', got {trace!r}", path)
-    i, j = int(t[1]) - 1, int(t[2]) - 1
-    if not (0 <= i < n and 0 <= j < n):
-        raise CaptureError(f"trace {t} does not exist: the capture has {n} port(s)", path)
+    i, j, t = s_term(capture, trace, "q_factor()")
     one = rf.Network(frequency=ntwk.frequency, s=ntwk.s[:, i, j].reshape(-1, 1, 1),
                      z0=np.asarray(ntwk.z0)[:, j], name=ntwk.name)
     return one, t
