@@ -13,7 +13,6 @@ identical tables.
 from __future__ import annotations
 
 import hashlib
-import os
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -209,13 +208,6 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
     return out
 
 
-def _one_blas_thread() -> None:
-    """Worker start-up: the BLAS library runs one thread per worker process."""
-    from threadpoolctl import threadpool_limits
-
-    threadpool_limits(limits=1)
-
-
 def _process_chunk(items: list, proc_doc: dict, base_dir: str, source: str | None,
                    digest: str, cache_dir: str | None, keep_captures: bool = True,
                    one_thread: bool = False) -> list[dict[str, Any]]:
@@ -263,7 +255,8 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         The pipeline (see :mod:`kit.batch.procedure`).
     inputs : path, folder, Capture or an iterable of them
     workers : int, optional
-        Local worker processes; default: the machine's cores. ``1`` runs in this process.
+        Local worker processes; default: the usable CPUs (:mod:`kit.io.pool`). ``1`` runs
+        in this process.
     client : dask.distributed.Client, optional
         Run on this Dask cluster instead of local processes.
     scheduler : str, optional
@@ -295,13 +288,8 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         from kit.io.cache import default_cache_dir
 
         cdir = str(Path(cache_dir) if cache_dir is not None else default_cache_dir())
-    workers = workers or (os.cpu_count() or 1)
     show = sys.stderr.isatty() if progress is None else progress
     bar = None
-    if show:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=len(items), desc="captures", unit="capture")
     chunks = [items[i: i + CHUNK] for i in range(0, len(items), CHUNK)]
     args = (proc.to_dict(), str(proc.base_dir), proc.source, digest, cdir, keep_captures)
     results: list[dict[str, Any]] = []
@@ -316,6 +304,10 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
             from dask.distributed import as_completed
 
             engine = f"dask ({client.scheduler.address})"
+            if show:
+                from tqdm.auto import tqdm
+
+                bar = tqdm(total=len(items), desc="captures", unit="capture")
             futures = client.map(_process_chunk, chunks, *[[a] * len(chunks) for a in args],
                                  [True] * len(chunks), pure=False)
             for fut in as_completed(futures):
@@ -323,21 +315,17 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
                     bar.update(len(chunks[futures.index(fut)]))
             for part in client.gather(futures):
                 results.extend(part)
-        elif workers > 1 and len(items) > CHUNK:
-            from concurrent.futures import ProcessPoolExecutor
-
-            engine = f"{workers} local processes"
-            with ProcessPoolExecutor(max_workers=workers, initializer=_one_blas_thread) as ex:
-                for part in ex.map(_process_chunk, chunks, *[[a] * len(chunks) for a in args]):
-                    results.extend(part)
-                    if bar is not None:
-                        bar.update(len(part))
         else:
-            for chunk in chunks:
-                part = _process_chunk(chunk, *args)
-                results.extend(part)
-                if bar is not None:
-                    bar.update(len(part))
+            # local processes through the kit's one pool policy (kit.io.pool): worker count,
+            # start method, one BLAS thread per worker, results in input order
+            from kit.io.pool import default_workers, run_chunks
+
+            n = workers or default_workers(len(chunks))
+            parallel = n > 1 and len(items) > CHUNK
+            engine = f"{n} local processes" if parallel else "this process"
+            results = run_chunks(_process_chunk, items, *args, workers=n if parallel else 1,
+                                 chunk_size=CHUNK, progress=show, desc="captures",
+                                 unit="capture")
     finally:
         if bar is not None:
             bar.close()
