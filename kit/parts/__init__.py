@@ -1,1 +1,1 @@
-"""parts stage."""
+"""Parts stage: figures of merit of filters and of real inductors and capacitors."""

@@ -1,1 +1,1 @@
-"""resonators stage."""
+"""Resonator stage: the peak reader, characteristic frequencies, coupling, Q, models and fits."""
