@@ -24,7 +24,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from kit._text import fmt_value
+from kit._text import fmt_value, html_rows
 
 __all__ = ["Result", "nan_if_none", "plain"]
 
@@ -131,7 +131,6 @@ class Result:
 
     def _repr_html_(self) -> str:
         e = html.escape
-        body = "".join(f"<tr><td>{e(k)}</td><td style='text-align:right'>{e(v)}</td></tr>"
-                       for k, v in self.rows())
+        body = html_rows(self.rows())
         foot = "".join(f"<div>{e(x)}</div>" for x in self._footer())
         return f"<div><b>{e(self.title)}</b><table>{body}</table>{foot}</div>"
