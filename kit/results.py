@@ -75,8 +75,8 @@ class Result:
 
     # -- identity --------------------------------------------------------------
     @property
-    def title(self) -> str:
-        """Heading of the text and HTML views."""
+    def heading(self) -> str:
+        """Heading of the text and HTML views (a subclass may override it)."""
         name = getattr(self, "name", None)
         return f"{type(self).__name__}" + (f" of {name}" if name else "")
 
@@ -103,7 +103,7 @@ class Result:
         return cls(**kw)
 
     # -- text and HTML ------------------------------------------------------------
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """(label, formatted value with unit) for each row of ``_ROWS``."""
         out = []
         for key, label, unit in self._ROWS:
@@ -124,13 +124,13 @@ class Result:
 
     def report(self) -> str:
         """Text view: title, one row per line, flags and the reason when not ok."""
-        rows = self.rows()
+        rows = self.view_rows()
         width = max((len(k) for k, _ in rows), default=0)
-        lines = [self.title] + [f"  {k:<{width}}  {v}" for k, v in rows]
+        lines = [self.heading] + [f"  {k:<{width}}  {v}" for k, v in rows]
         return "\n".join(lines + [f"  {x}" for x in self._footer()])
 
     def _repr_html_(self) -> str:
         e = html.escape
-        body = html_rows(self.rows())
+        body = html_rows(self.view_rows())
         foot = "".join(f"<div>{e(x)}</div>" for x in self._footer())
-        return f"<div><b>{e(self.title)}</b><table>{body}</table>{foot}</div>"
+        return f"<div><b>{e(self.heading)}</b><table>{body}</table>{foot}</div>"

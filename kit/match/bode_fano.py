@@ -144,7 +144,7 @@ class FanoLimit(Result):
              ("fit_residual", "fit residual (relative RMS)", ""))
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"Bode-Fano limit ({self.model})"
 
     @property

@@ -236,22 +236,6 @@ def load_z(load, f_hz) -> np.ndarray:
 # ----------------------------------------------------------------------------- the design
 
 
-class _Field:
-    """Lets a dataclass field keep a name that :class:`kit.results.Result` also uses.
-
-    ``MatchDesign.title`` and ``StressReport.rows`` are fields; ``Result`` has a ``title``
-    property and a ``rows()`` method. This non-data descriptor hides the inherited name: on
-    the class it reads as absent (so the field has no default), on an instance the stored
-    field value is found first.
-    """
-
-    def __set_name__(self, owner, name):
-        self.name = name
-
-    def __get__(self, obj, owner=None):
-        raise AttributeError(self.name)
-
-
 @dataclass(frozen=True, eq=False)
 class MatchDesign(Result):
     """A matching circuit designed for one load, with where it came from.
@@ -299,16 +283,19 @@ class MatchDesign(Result):
     f_grid_hz: np.ndarray | None = None
     info: dict[str, Any] = field(default_factory=dict)
 
-    title = _Field()  # noqa: F811  (the field above is the heading, see _Field)
+    @property
+    def heading(self) -> str:
+        """The design's title (heading of the text and HTML views)."""
+        return self.title
 
     #: a design, stress table or part row is always computed (bad input raises instead)
     ok = True
     reason = ""
     _ROWS = (("r_source_ohm", "source resistance", "Ω"), ("f_design_hz", "design frequency", "Hz"))
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """Source and design frequency ("not used" when NaN), then one row per part."""
-        rows = [(k, "not used" if v == "not found" else v) for k, v in super().rows()]
+        rows = [(k, "not used" if v == "not found" else v) for k, v in super().view_rows()]
         return rows + [
             (f"{p.name} ({p.placement})",
              _eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {p.value:.4g}")
@@ -414,7 +401,7 @@ class MatchDesign(Result):
 
     def summary(self) -> str:
         """Plain text: title, parts (source to load), notes."""
-        lines = [self.title, f"  source {self.r_source_ohm:g} ohm -> "
+        lines = [self.heading, f"  source {self.r_source_ohm:g} ohm -> "
                  + " -> ".join(p.name for p in self.parts) + " -> load"]
         lines += ["  " + p.label() for p in self.parts]
         lines += ["  note: " + n for n in self.notes]

@@ -133,7 +133,7 @@ class Bandwidth(Result):
         return "" if self.found else self.message
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"Bandwidth at {self.rl_db:g} dB return loss"
 
     def __str__(self) -> str:
@@ -250,7 +250,7 @@ class MatchResponse(Result):
         return "" if self.ok else "the reflection is not finite at any frequency"
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         what = "unmatched element" if self.design is None else self.design.title or self.design.kind
         return f"MatchResponse: {what} ({self.f_hz.size} points)"
 
@@ -267,10 +267,10 @@ class MatchResponse(Result):
         ok = np.isfinite(rl)
         return float(self.f_hz[np.nanargmax(np.where(ok, rl, -np.inf))]) if ok.any() else np.nan
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """The rows of ``_ROWS`` (lossless parts read "lossless") and the 10 dB band."""
         rows = [(k, "lossless" if v == "not found" and "Q" in k else v)
-                for k, v in super().rows()]
+                for k, v in super().view_rows()]
         return rows + [("band at 10 dB return loss", self.bandwidth(10.0).message)]
 
     @classmethod

@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from kit._text import html_rows
-from kit.match.circuit import MatchDesign, _Field, eng, load_z
+from kit.match.circuit import MatchDesign, eng, load_z
 from kit.match.response import gamma_from_z, ladder_waves
 from kit.results import Result
 from kit.units import scale_for
@@ -76,7 +76,7 @@ class PartStress(Result):
              ("f_at_v_hz", "largest voltage at", "Hz"), ("f_at_i_hz", "largest current at", "Hz"))
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"Stress on {self.name} ({self.what})"
 
     #: a design, stress table or part row is always computed (bad input raises instead)
@@ -123,28 +123,27 @@ class StressReport(Result):
     _ROWS = (("drive_w", "available drive power", "W"), ("r_source_ohm", "source resistance", "Ω"))
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"StressReport at {eng(self.drive_w, 'W')} available drive"
 
     #: a design, stress table or part row is always computed (bad input raises instead)
     ok = True
     reason = ""
-    rows = _Field()  # noqa: F811  (the field above; Result.rows() is table_rows() here)
 
-    def table_rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """Drive and source, then per item its largest RMS voltage, current and power."""
-        return Result.rows(self) + [
+        return Result.view_rows(self) + [
             (r.name, f"{eng(r.v_rms, 'V')} RMS ({eng(r.v_peak, 'V')} peak), "
                      f"{eng(r.i_rms, 'A')} RMS, {eng(r.p_w, 'W')} at {eng(r.f_at_v_hz, 'Hz')}")
             for r in self.rows]
 
     def report(self) -> str:
         """Text view: drive, one line per item, the assumption (:meth:`summary`: a table)."""
-        return "\n".join([self.title] + [f"  {k}: {v}" for k, v in self.table_rows()]
+        return "\n".join([self.heading] + [f"  {k}: {v}" for k, v in self.view_rows()]
                          + [f"  {self.assumptions}"])
 
     def _repr_html_(self) -> str:
-        return (f"<div><b>{html.escape(self.title)}</b><table>{html_rows(self.table_rows())}"
+        return (f"<div><b>{html.escape(self.heading)}</b><table>{html_rows(self.view_rows())}"
                 f"</table><div>{html.escape(self.assumptions)}</div></div>")
 
     @classmethod
@@ -171,7 +170,7 @@ class StressReport(Result):
         ax.plot(self.f_hz * factor, self.delivered_w, "-", label="delivered to the element")
         ax.set_xlabel(f"frequency [{unit}]")
         ax.set_ylabel("power [W]")
-        ax.set_title(self.title, fontsize="small")
+        ax.set_title(self.heading, fontsize="small")
         ax.legend(loc="best", fontsize="x-small")
         return ax
 

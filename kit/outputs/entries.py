@@ -42,7 +42,7 @@ class Failure(Result):
     _ROWS = (("step", "step", ""), ("path", "file", ""), ("line", "line", ""))
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"{self.step} failed"
 
     @classmethod

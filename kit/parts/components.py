@@ -120,13 +120,13 @@ class ComponentFigures(Result):
         return "; ".join(why)
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return (f"Component figures of {self.name!r} ({self.kind}, {self.method}, "
                 f"{len(self.f_hz)} points)")
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """The rows of ``_ROWS`` and one per estimated circuit value."""
-        return super().rows() + [(f"{k} (estimate)", fmt_value(v, unit_of(k)))
+        return super().view_rows() + [(f"{k} (estimate)", fmt_value(v, unit_of(k)))
                                  for k, v in self.estimate.items()]
 
     def to_dict(self, arrays: bool = False) -> dict[str, Any]:
@@ -171,7 +171,7 @@ class ComponentFigures(Result):
                     label=f"highest Q {fmt_value(self.q_max, '', '.4g')}")
         ax.set_xlabel(f"frequency [{unit}]")
         ax.set_ylabel("Q [1]")
-        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.set_title(self.heading if self.ok else f"{self.heading}\n{self.reason}", fontsize="small")
         ax.legend(loc="best", fontsize="x-small")
         return ax
 

@@ -148,7 +148,7 @@ class FilterFigures(Result):
                 f"span ({self.kind})") if missing else ""
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return (f"Filter figures of {self.name!r} ({self.kind}, {self.trace}, "
                 f"{self.points} points)")
 
@@ -187,7 +187,7 @@ class FilterFigures(Result):
                 ax.axvline(v * factor, ls=":", lw=1, color=color, label=f"{label} {eng(v, 'Hz')}")
         ax.set_xlabel(f"frequency [{unit}]")
         ax.set_ylabel(f"|{self.trace}| [dB]")
-        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.set_title(self.heading if self.ok else f"{self.heading}\n{self.reason}", fontsize="small")
         ax.legend(loc="best", fontsize="x-small")
         return ax
 

@@ -150,7 +150,7 @@ class FitResult(Result):
              ("qm", "qm", ""), ("residual_rel", "residual (normalised RMS)", ""))
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"fit of {self.name or '<arrays>'} with model {self.model}" + (
             f" ({self.modes} modes)" if self.modes > 1 else "")
 
@@ -187,7 +187,7 @@ class FitResult(Result):
 
     def report(self) -> str:
         """Plain-text summary: values with standard errors, derived figures, flags."""
-        lines = [self.title, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
+        lines = [self.heading, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
                  f"flags: {', '.join(self.flags) or 'none'}",
                  f"residual (normalised RMS): {self.residual_rel:.3g}; points: {self.n_points}; "
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]

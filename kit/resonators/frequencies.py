@@ -185,7 +185,7 @@ class Resonance(Result):
         return f"{', '.join(missing)} not found" + (f": {'; '.join(why)}" if why else "")
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         lo, hi = self.span_hz
         return (f"Resonance of {self.name!r} ({self.method}, {self.points} points, "
                 f"{eng(lo, 'Hz', 7)}..{eng(hi, 'Hz', 7)})")
@@ -232,7 +232,7 @@ class Resonance(Result):
         ax.set_xlim(lo * factor, hi * factor)
         ax.set_xlabel(f"frequency [{unit}]")
         ax.set_ylabel(f"|Z| [{unit_of('z_ohm')}]")
-        ax.set_title(self.title if self.ok else f"{self.title}\n{self.reason}", fontsize="small")
+        ax.set_title(self.heading if self.ok else f"{self.heading}\n{self.reason}", fontsize="small")
         ax.legend(loc="best", fontsize="x-small")
         return ax
 

@@ -151,15 +151,15 @@ class QFactor(Result):
         return "; ".join(why)
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return (f"Q factor of {self.name!r} ({self.kind}, {self.trace}, {self.points} points, "
                 f"{self.fit}, {self.iterations} iterations, "
                 f"{'converged' if self.converged else 'NOT converged'})")
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """Rows of ``_ROWS``, each value with its standard error where there is one."""
         out = []
-        for (key, _, unit), (label, text) in zip(self._ROWS, super().rows()):
+        for (key, _, unit), (label, text) in zip(self._ROWS, super().view_rows()):
             se = getattr(self, f"{key}_stderr", None)
             if se is not None and math.isfinite(getattr(self, key)):
                 text += (f" ± {fmt_value(se, unit, '.3g')}" if math.isfinite(se)

@@ -51,10 +51,10 @@ class Check(Result):
     f_hz: float = math.nan  # where a mask is tightest
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"{self.kind} check {self.name}: {self.status}"
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """(label, value with unit) rows: the check's own unit, not a fixed one."""
         u = self.unit
         out = [(label, eng(v, unit)) for label, v, unit in (
@@ -105,14 +105,14 @@ class Verdict(Result):
         """The verdict back from :meth:`to_dict` (``reasons`` is derived, so not read)."""
         return cls(str(d["status"]), tuple(Check.from_dict(c) for c in d.get("checks", ())))
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """One row per check: its status and margin in its unit."""
         return [(c.name, c.status + (f", margin {eng(c.margin, c.unit)}"
                                      if math.isfinite(c.margin) else ""))
                 for c in self.checks]
 
     @property
-    def title(self) -> str:
+    def heading(self) -> str:
         return f"Verdict: {self.status}"
 
     def table(self):
