@@ -159,6 +159,12 @@ class Resonance(Result):
         How Z was obtained ("reflection", "series-through", ... or "arrays").
     interpolation : str
         How extrema and crossings were refined.
+    fs_stderr_hz, fp_stderr_hz, fm_stderr_hz, fn_stderr_hz, fr_stderr_hz, fa_stderr_hz : float
+        Standard errors of the frequencies [Hz] (module docstring, "Uncertainties").
+    k_eff_stderr, qm_stderr : float
+        Standard errors of k_eff and Qm [1].
+    noise_rms : float
+        Complex rms noise of the measured S-parameter, estimated from the data alone [1].
 
     Every value that was not found is NaN (a None given is stored as NaN). ``ok`` is True
     when fs, fp, k_eff and qm are all finite; otherwise ``reason`` says which are missing
@@ -323,7 +329,10 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
     Returns
     -------
     Resonance
-        Frequencies [Hz] with sub-step interpolation, k_eff, Qm and flags. The main resonance
+        Frequencies [Hz] with sub-step interpolation, k_eff, Qm, their standard errors
+        (``<figure>_stderr_hz``, ``k_eff_stderr``, ``qm_stderr``), the noise estimate
+        ``noise_rms`` and flags ("noise-limited:<figure>" where the noise is comparable
+        with the quantity read, so that its standard error is only indicative). The main resonance
         is the most prominent conductance peak; fp is the most prominent resistance peak
         above it, fm and fn the \\|Z\\| extrema nearest to fs and fp. Points with NaN are
         dropped; samples at repeated frequencies are averaged (both flagged).
@@ -347,6 +356,12 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
        Lamberti & Pappalardo, IEEE Ultrasonics Symp. 1991, doi 10.1109/ULTSYM.1991.234236.
     """
     src = sweep(capture_or_f, z, method=method, port=port, what="resonance()")
+    # another reader (e.g. from magnitudes only) can take over here, by a branch on src
+    return _read_complex(src, span_hz)
+
+
+def _read_complex(src, span_hz) -> Resonance:
+    """The readings of :func:`resonance` from the complex impedance of a coerced sweep."""
     name, meth, path = src.name, src.method, src.path
     f, zz, flags, span = clean_trace(src.f_hz, src.z_ohm, span_hz, min_points=_MIN_POINTS,
                                      path=path)
