@@ -87,6 +87,9 @@ def test_coverage_of_fs_and_fp_over_noisy_bvd_captures(record_property):
                 continue
             assert math.isfinite(err) and err > 0, r.report()
             within[(key, coarse)].append(abs(value - true) <= 2 * err)
+            # an unflagged reading is never far outside its stated error (a normal variable
+            # exceeds 5 sigma with probability 6e-7)
+            assert abs(value - true) < 5 * err, (key, value, true, err, r.report())
     for (key, coarse), hits in within.items():
         share = float(np.mean(hits))
         record_property(f"coverage_2sigma_{key}_{'coarse' if coarse else 'fine'}", share)
