@@ -43,7 +43,8 @@ PARAM_COLUMNS = {"C0": "c0_f", "R1": "r1_ohm", "L1": "l1_h", "C1": "c1_f",
                  "R0": "r0_ohm", "Rs": "rs_ohm", "rs": "rs_ohm", "r0": "r0_ohm"}
 RESONANCE_COLUMNS = ("fs_hz", "fp_hz", "fm_hz", "fn_hz", "fr_hz", "fa_hz", "k_eff", "qm")
 #: Further figures of :func:`kit.resonance` copied into the summary when present.
-RESONANCE_EXTRA = ("zm_ohm", "zn_ohm", "g_max_siemens", "r_max_ohm", "f1_hz", "f2_hz")
+RESONANCE_EXTRA = ("zm_ohm", "zn_ohm", "g_max_siemens", "r_max_ohm", "f1_hz", "f2_hz",
+                   "fs_stderr_hz", "fp_stderr_hz", "k_eff_stderr", "qm_stderr")
 SUMMARY_BASE = ["capture", "path", "sha256", "status", "error", "fs_hz", "fp_hz", "fm_hz",
                 "fn_hz", "fr_hz", "fa_hz", "k_eff", "qm", "c0_f", "r1_ohm", "l1_h", "c1_f",
                 "c0_stderr_f", "r1_stderr_ohm", "l1_stderr_h", "c1_stderr_f", "fit_ok",

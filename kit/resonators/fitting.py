@@ -376,6 +376,11 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
     # parameters at a bound are held fixed for the covariance (their error is NaN)
     at_bound = np.array([sol.active_mask[i] != 0 or th[i] - lo[i] < 1e-6 or hi[i] - th[i] < 1e-6
                          for i in range(n)])
+    # a parameter declared >= 0 (bounds (0, ...)) that the fit drove far below its start has
+    # vanished (e.g. a contact resistance that is not there): 0, held fixed, not a failure
+    gone = np.array([mdl.bounds.get(p, (None,))[0] == 0 and th[i] < theta0[i] - 9.0
+                     for i, p in enumerate(names)], dtype=bool)
+    at_bound |= gone
     free = np.nonzero(~at_bound)[0]
     dof = max(m - len(free), 1)
     s2 = float(res @ res) / dof
@@ -402,7 +407,8 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
     if not sol.success or sol.status == 0:
         flags.append("not-converged")
     # lm has no bounds: a parameter that ran beyond the box is flagged the same way
-    flags.extend(f"at-bound:{p}" for i, p in enumerate(names) if at_bound[i])
+    flags.extend(f"at-bound:{p}" for i, p in enumerate(names) if at_bound[i] and not gone[i])
+    params.update({p: 0.0 for i, p in enumerate(names) if gone[i]})
     if not np.isfinite(resid_rel) or resid_rel > poor_fit:
         flags.append("poor-fit")
     if "no-uncertainty" not in flags and not np.all(np.isfinite(sd_th[free])):
@@ -423,6 +429,8 @@ def _solve(mdl, f, z, p0, sigma_y, max_nfev, poor_fit, common) -> FitResult:
     for p, e in stderr.items():
         if np.isfinite(e) and e > 0.5 * params[p]:
             flags.append(f"large-uncertainty:{p}")
+    if hasattr(mdl, "extra_flags"):  # model-specific findings (e.g. "contact-resistance")
+        flags.extend(mdl.extra_flags(params, stderr, f, zm))
     severe = [fl for fl in flags if fl.split(":")[0] in SEVERE_FLAGS]
     reason = "; ".join(severe)
     return FitResult(model=mdl.name, params=params, stderr=stderr, correlation=correlation,

@@ -14,7 +14,7 @@ multi      C0 parallel N branches (Rn - Ln - Cn)                C0, R1, L1, C1, 
 inductor   (Rs - L) parallel Cp                                 L, Rs, Cp
 capacitor  ESR - ESL - C                                        C, ESR, ESL
 plate      thickness-mode plate, free or loaded (modes > 1:     kt, fp_hz, C0, qm, tan_delta
-           extra branches Rn-Ln-Cn in parallel)                 (+ R2, L2, C2, ...)
+           extra branches Rn-Ln-Cn in parallel), series Rs      Rs (+ R2, L2, C2, ...)
 bar        length-extensional bar (k31 mode)                    CT, fs_hz, k31, qm, tan_delta
 ========== ==================================================== ==============================
 

@@ -201,7 +201,8 @@ def parabola(x, y) -> tuple[float, float, float]:
     Parameters
     ----------
     x, y : array_like of length 3
-        Abscissae (distinct) and ordinates; x1 = x[1].
+        Abscissae (distinct) and ordinates; x1 = x[1]. Each may also be a sequence of
+        three arrays (x0, x1, x2), giving arrays of coefficients.
 
     References
     ----------
@@ -212,7 +213,7 @@ def parabola(x, y) -> tuple[float, float, float]:
     e0, e2 = y[0] - y[1], y[2] - y[1]
     a = (e2 * d0 - e0 * d2) / (d0 * d2 * (d2 - d0))
     b = (e0 - a * d0 * d0) / d0
-    return a, b, float(y[1])
+    return a, b, y[1]
 
 
 def vertex_min(f_hz, t, i: int) -> tuple[float, float]:

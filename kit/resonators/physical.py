@@ -25,14 +25,17 @@ References
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from kit.network.circuits import Block
 from kit.resonators.models import Model, StartError, clean_fz, start_peak_q
 from kit.resonators.peaks import conductance_peak, resistance_peak
+from kit.resonators.plate import free_plate_z
 
-__all__ = ["plate_z", "mason_plate_z", "klm_plate_z", "bar_y", "bar_z", "plate_fs_hz",
-           "bar_fp_hz", "plate_model", "bar_model"]
+__all__ = ["CONTACT_FRACTION", "PlateModel", "plate_z", "mason_plate_z", "klm_plate_z", "bar_y",
+           "bar_z", "plate_fs_hz", "bar_fp_hz", "plate_model", "bar_model"]
 
 
 def _lossy(f_hz, fp_hz, c0_f, qm, tan_delta):
@@ -256,7 +259,35 @@ def _plate_start(f, z):
     if not c0 > 0:
         c0 = float(y.imag[0] / (2 * np.pi * f[0]) * (1 - kt**2))
     tand = float(np.clip(y.real[0] / abs(y.imag[0]), 1e-4, 0.1))
-    return {"kt": kt, "fp_hz": fp, "C0": abs(c0), "qm": q, "tan_delta": tand}
+    p = {"kt": kt, "fp_hz": fp, "C0": abs(c0), "qm": q, "tan_delta": tand}
+    return {**p, "Rs": _contact_start(f, z, fs, p)}
+
+
+def _contact_start(f, z, fs, p) -> float:
+    r"""Start value of the series contact resistance Rs [ohm].
+
+    The minimum of Re Z within a half-power width of fs, less the plate's own minimum
+    there. The plate's own is computed with the Q read from the half-power width of the
+    resistance peak at fp, where \|Z\| is large and a contact of a few ohm does not widen
+    the peak (the Q read at fs includes the contact). Floored at 1e-3 of the plate's own
+    resistance, since the fit works on log Rs: a small positive start lets it rise to a
+    contact's value or fall to nothing.
+
+    References
+    ----------
+    .. [1] Common practice, no source: a resistance in series adds to Re Z at every
+       frequency, so the excess of the measured minimum of Re Z over the model's is its
+       estimate.
+    """
+    pk_p = resistance_peak(f, z, after=int(np.searchsorted(f, fs)))
+    q = p["qm"] if pk_p is None else start_peak_q(f, z.real, pk_p.index, default_q=p["qm"])[2]
+    near = np.abs(f - fs) <= fs / (2 * p["qm"])
+    if np.count_nonzero(near) < 3:
+        near = np.argsort(np.abs(f - fs))[:3]
+    own = float(np.min(free_plate_z(f[near], p["kt"], p["fp_hz"], p["C0"], q,
+                                    p["tan_delta"]).real))
+    floor = 1e-3 * max(own, 1e-12)
+    return float(max(float(np.min(z[near].real)) - own, floor))
 
 
 def _extra_branches(start, modes):
@@ -297,16 +328,60 @@ def _with_branches(block, names, modes):
             names + tuple(f"{s}{n}" for n in range(2, modes + 1) for s in "RLC"))
 
 
+#: A contact resistance is flagged when it exceeds this fraction of |Z| at fs (and three
+#: standard errors): below it the contact changes no figure of the element beyond the
+#: ordinary spread of a lot (common practice, no source).
+CONTACT_FRACTION = 0.05
+
+
+@dataclass(frozen=True)
+class PlateModel(Model):
+    """The plate model, which also reports a series contact resistance it finds."""
+
+    def z(self, f_hz, params) -> np.ndarray:
+        """Model impedance [ohm]; a missing "Rs" is 0 (parameter sets from before it)."""
+        return super().z(f_hz, {"Rs": 0.0, **params})
+
+    def z_and_jac(self, f_hz, params):
+        """Model impedance [ohm] and dZ/dp; a missing "Rs" is 0."""
+        return super().z_and_jac(f_hz, {"Rs": 0.0, **params})
+
+    def extra_flags(self, params: dict, stderr: dict, f_hz, z_model) -> list[str]:
+        """["contact-resistance"] when Rs > 3 stderr and Rs > CONTACT_FRACTION |Z(fs)|.
+
+        Parameters
+        ----------
+        params, stderr : dict
+            Fitted values and standard errors (Rs [ohm]).
+        f_hz, z_model : numpy.ndarray
+            Fitted frequencies [Hz] and the model impedance there [ohm] (unused here; the
+            signature of :func:`kit.resonators.fitting.fit`'s model hook).
+
+        References
+        ----------
+        .. [1] Common practice, no source: a significance test at three standard errors and
+           a relevance threshold (:data:`CONTACT_FRACTION`).
+        """
+        rs, err = params.get("Rs", 0.0), stderr.get("Rs", np.nan)
+        if not (rs > 0 and np.isfinite(err) and rs > 3 * err):
+            return []
+        fs = plate_fs_hz(params["kt"], params["fp_hz"])
+        z_fs = abs(complex(self.z(np.array([fs]), params)[0])) if np.isfinite(fs) else np.nan
+        return ["contact-resistance"] if rs > CONTACT_FRACTION * z_fs else []
+
+
 def plate_model(z_front: complex = 0.0, z_back: complex = 0.0, modes: int = 1) -> Model:
-    """Fittable thickness-mode plate: free (loads 0, via kit.resonators.plate.free_plate_z) or loaded.
+    r"""Fittable thickness-mode plate: free (loads 0, via kit.resonators.plate.free_plate_z) or loaded.
 
-    Parameters are "kt", "fp_hz", "C0", "qm", "tan_delta"; the loads are fixed options,
-    normalised to rho v^D A. With ``modes > 1`` motional branches "Rn", "Ln", "Cn"
+    Parameters are "kt", "fp_hz", "C0", "qm", "tan_delta" and "Rs", a series contact
+    resistance [ohm] (Rs >= 0; a fit that drives it to zero reports 0); the loads are fixed
+    options, normalised to rho v^D A. With ``modes > 1`` motional branches "Rn", "Ln", "Cn"
     (n = 2..modes) are added in parallel for spurious (e.g. lateral) modes, started from the
-    most prominent conductance peaks other than the main one.
+    most prominent conductance peaks other than the main one. Rs is in series with the whole
+    element (plate and extra branches). The fit flags "contact-resistance" when Rs is above
+    three standard errors and above :data:`CONTACT_FRACTION` of \|Z\| at fs
+    (:meth:`PlateModel.extra_flags`).
     """
-    from kit.resonators.plate import free_plate_z
-
     free = z_front == 0 and z_back == 0
     if free:
         def zfun(f, kt, fp_hz, C0, qm, tan_delta):
@@ -323,12 +398,18 @@ def plate_model(z_front: complex = 0.0, z_back: complex = 0.0, modes: int = 1) -
 
     opts = {} if free else {"z_front": z_front, "z_back": z_back}
     circ, allnames = _with_branches(Block(zfun, names, label="plate"), names, modes)
-    return Model("plate", circ, allnames, _extra_branches(_plate_start, modes), derived,
-                 bounds={"kt": (1e-4, 0.999), "tan_delta": (1e-7, 1.0), "qm": (1.0, 1e7)},
-                 options=opts, analytic_jacobian=False,
-                 description="thickness-mode plate, " + ("free faces" if free else
-                                                        f"loads z_F={z_front}, z_B={z_back}")
-                 + (f", {modes - 1} extra branch(es)" if modes > 1 else ""))
+    from kit.network.circuits import R, series
+
+    circ = series(R("Rs"), circ)  # the contact, in series with the whole element
+    allnames = names + ("Rs",) + allnames[len(names):]
+    return PlateModel("plate", circ, allnames, _extra_branches(_plate_start, modes), derived,
+                      bounds={"kt": (1e-4, 0.999), "tan_delta": (1e-7, 1.0), "qm": (1.0, 1e7),
+                              "Rs": (0.0, np.inf)},
+                      options=opts, analytic_jacobian=False,
+                      description="thickness-mode plate, " + ("free faces" if free else
+                                                             f"loads z_F={z_front}, z_B={z_back}")
+                      + (f", {modes - 1} extra branch(es)" if modes > 1 else "")
+                      + ", series contact Rs")
 
 
 def _bar_start(f, z):
