@@ -242,10 +242,10 @@ class Resonance(Result):
         """Plain JSON data: every field (NaN where not found), plus ``ok`` and ``reason``."""
         return {**super().to_dict(), "ok": self.ok, "reason": self.reason}
 
-    def rows(self) -> list[tuple[str, str]]:
+    def view_rows(self) -> list[tuple[str, str]]:
         """(label, value with unit) per row, with "± standard error" where there is one."""
         out = []
-        for (key, _, unit), (label, text) in zip(self._ROWS, super().rows()):
+        for (key, _, unit), (label, text) in zip(self._ROWS, super().view_rows()):
             err = getattr(self, STDERR_FIELDS.get(key, ""), math.nan)
             if math.isfinite(getattr(self, key)) and math.isfinite(err):
                 text += f" ± {eng(err, unit, 2)}"
