@@ -16,7 +16,7 @@ from __future__ import annotations
 import html
 from typing import Any
 
-from kit.review.log import ReviewLog, current_user
+from kit.review.log import ReviewLog, as_review_log, current_user
 from kit.ui.common import MessageBar, classed, show
 
 VERDICT_BUTTONS = (("accept", "Accept", "success", "check"),
@@ -82,7 +82,7 @@ class ReviewPanel:
         self.captures = [c for c in as_list(captures) if isinstance(c, Capture)]
         if not self.captures:
             raise ValueError("the review panel needs at least one loadable capture")
-        self.log = log if isinstance(log, ReviewLog) else ReviewLog(log)
+        self.log = as_review_log(log)
         self.message = MessageBar()
         g = self.message.guard
         self.selector = classed(w.Dropdown(options=[(c.name, i) for i, c in
