@@ -61,6 +61,22 @@ def pg_server():
             server.stop()
 
 
+@pytest.fixture
+def lot_capture(tmp_path):
+    """A folder ``lot`` with one one-port capture file ``pz-01.s1p``, loaded: (folder, capture)."""
+    import numpy as np
+    import skrf
+
+    import kit
+
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    f = skrf.Frequency(1, 3, 21, unit="MHz")
+    skrf.Network(frequency=f, z=(10 + 1j * np.linspace(-50, 50, 21)).reshape(-1, 1, 1),
+                 z0=50).write_touchstone(str(lot / "pz-01"))
+    return lot, kit.load(lot / "pz-01.s1p")
+
+
 @pytest.fixture(params=["sqlite", "postgresql"])
 def new_target(request, tmp_path):
     """A factory of empty review-log targets of one back end: a path, or a server URL."""

@@ -271,16 +271,11 @@ def test_writer_killed_mid_batch(new_target):
     assert len(log) == 21
 
 
-def test_note_with_markup_escaped_in_lot_report(new_target, tmp_path):
+def test_note_with_markup_escaped_in_lot_report(new_target, lot_capture, tmp_path):
     """A note with markup, read back from the log given as a path or URL string, appears
     escaped in the lot report (WHATWG HTML: '<' must be written as a character reference)."""
     target = new_target()
-    lot = tmp_path / "lot"
-    lot.mkdir()
-    f = skrf.Frequency(1, 3, 21, unit="MHz")
-    skrf.Network(frequency=f, z=(10 + 1j * np.linspace(-50, 50, 21)).reshape(-1, 1, 1),
-                 z0=50).write_touchstone(str(lot / "pz-01"))
-    cap = kit.load(lot / "pz-01.s1p")
+    _, cap = lot_capture
     evil = '<script>alert("x")</script><img src=x onerror=alert(1)>'
     ReviewLog(target).add(cap, "note", text=evil, author="<b>eve</b>")
     out = kit.report(tmp_path / "out" / "lot.html", [cap], review_log=target, figures=False)

@@ -153,18 +153,10 @@ def test_writer_cannot_create_the_schema(pg_server):
     assert len(log) == 1
 
 
-def test_export_and_report_record_the_url_without_password(pg_server, url, tmp_path):
+def test_export_records_the_url_without_password(pg_server, url, lot_capture, tmp_path):
     """provenance.json names the server log by its URL (no password) and the export holds
-    its events; the report is made from the same URL."""
-    import numpy as np
-    import skrf
-
-    lot = tmp_path / "lot"
-    lot.mkdir()
-    f = skrf.Frequency(1, 3, 11, unit="MHz")
-    skrf.Network(frequency=f, z=(10 + 1j * np.linspace(-50, 50, 11)).reshape(-1, 1, 1),
-                 z0=50).write_touchstone(str(lot / "pz-01"))
-    cap = kit.load(lot / "pz-01.s1p")
+    its events."""
+    _, cap = lot_capture
     ReviewLog(url).add(cap, "verdict", value="accept", author="q.lead")
     out = kit.export(tmp_path / "out", [cap], review_log=url)
     text = (out / "provenance.json").read_text()

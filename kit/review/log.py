@@ -454,13 +454,16 @@ class ReviewLog:
         return ids
 
     # ---- reading (back-end part)
+    _TABLE, _MARK = "events", "?"  # the events table and the parameter mark of the driver
+
+    def _select_sql(self, sha256: str | None) -> tuple[str, tuple]:
+        """The parameterised query of the events (of one capture), in order of arrival."""
+        where = "" if sha256 is None else f" WHERE sha256 = {self._MARK}"
+        return (f"SELECT {', '.join(EVENT_COLUMNS)} FROM {self._TABLE}{where} ORDER BY event_id",
+                () if sha256 is None else (sha256,))
+
     def _select(self, sha256: str | None = None) -> list[tuple]:
-        sql = f"SELECT {', '.join(EVENT_COLUMNS)} FROM events"
-        args: tuple = ()
-        if sha256 is not None:
-            sql += " WHERE sha256 = ?"
-            args = (sha256,)
-        return self._connect().execute(sql + " ORDER BY event_id", args).fetchall()
+        return self._connect().execute(*self._select_sql(sha256)).fetchall()
 
     def uuids(self) -> set[str]:
         """The uuids of every stored event."""

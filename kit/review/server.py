@@ -44,7 +44,7 @@ from datetime import datetime, timezone
 from typing import Any
 from urllib.parse import parse_qsl, urlencode, urlsplit, urlunsplit
 
-from kit.review.log import EVENT_COLUMNS, ROW_COLUMNS, ReviewLog, ReviewLogError
+from kit.review.log import ROW_COLUMNS, ReviewLog, ReviewLogError
 
 #: Current schema version on the server, stored in ``review_meta``.
 SCHEMA_VERSION = 1
@@ -277,12 +277,6 @@ class ServerReviewLog(ReviewLog):
         self._conn, self._pid = conn, os.getpid()
         return conn
 
-    def close(self) -> None:
-        """Close the connection (the log reconnects on the next use)."""
-        if self._conn is not None and self._pid == os.getpid():
-            self._conn.close()
-        self._conn = None
-
     def __del__(self) -> None:
         # close quietly: a log dropped without close() must not leave an open connection
         try:
@@ -355,43 +349,30 @@ class ServerReviewLog(ReviewLog):
         return self._run(work) if params else []
 
     # ---- reading
-    def _select(self, sha256: str | None = None) -> list[tuple]:
-        sql = f"SELECT {', '.join(EVENT_COLUMNS)} FROM {EVENTS}"
-        args: tuple = ()
-        if sha256 is not None:
-            sql += " WHERE sha256 = %s"
-            args = (sha256,)
-
+    def _fetch(self, sql: str, args: tuple = ()) -> list[tuple]:
+        """All rows of one parameterised query (reconnecting when the connection dropped)."""
         def work(conn):
             with conn.cursor() as cur:
-                cur.execute(sql + " ORDER BY event_id", args)
+                cur.execute(sql, args)
                 return cur.fetchall()
+        return self._run(work)
 
+    _TABLE, _MARK = EVENTS, "%s"
+
+    def _select(self, sha256: str | None = None) -> list[tuple]:
         return [(r[0], r[1].astimezone(timezone.utc).isoformat(timespec="microseconds"),
-                 *r[2:-1], str(r[-1])) for r in self._run(work)]
+                 *r[2:-1], str(r[-1])) for r in self._fetch(*self._select_sql(sha256))]
 
     def uuids(self) -> set[str]:
         """The uuids of every stored event."""
-        def work(conn):
-            with conn.cursor() as cur:
-                cur.execute(f"SELECT uuid FROM {EVENTS}")
-                return {str(r[0]) for r in cur.fetchall()}
-        return self._run(work)
+        return {str(r[0]) for r in self._fetch(f"SELECT uuid FROM {EVENTS}")}
 
     def __len__(self) -> int:
-        def work(conn):
-            with conn.cursor() as cur:
-                cur.execute(f"SELECT COUNT(*) FROM {EVENTS}")
-                return int(cur.fetchone()[0])
-        return self._run(work)
+        return int(self._fetch(f"SELECT COUNT(*) FROM {EVENTS}")[0][0])
 
     def check(self) -> str:
         """``"ok"`` when the schema is current and every uuid is stored once."""
-        def work(conn):
-            with conn.cursor() as cur:
-                cur.execute(f"SELECT COUNT(*) - COUNT(DISTINCT uuid) FROM {EVENTS}")
-                return int(cur.fetchone()[0])
-        twice = self._run(work)
+        twice = int(self._fetch(f"SELECT COUNT(*) - COUNT(DISTINCT uuid) FROM {EVENTS}")[0][0])
         problems = []
         if self.schema_version != SCHEMA_VERSION:
             problems.append(f"schema version {self.schema_version}, expected {SCHEMA_VERSION}")
