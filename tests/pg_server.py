@@ -164,7 +164,9 @@ class TempPostgres:
         self._n += 1
         name = f"review_{os.getpid()}_{self._n}"
         with self.admin() as conn:
-            conn.execute(f'CREATE DATABASE "{name}"')
+            from psycopg import sql
+
+            conn.execute(sql.SQL("CREATE DATABASE {}").format(sql.Identifier(name)))
         if init:
             # the owner (administrator) creates the schema over the socket, then grants
             admin_url = f"postgresql://{ADMIN}@/{name}?host={self.sock}&port={self.port}"

@@ -236,7 +236,7 @@ _KILLED = textwrap.dedent("""
     def stall(self, conn):        # every row of the batch is written, not committed
         print("inside", flush=True)
         time.sleep(120)
-    type(log)._commit = stall
+    type(log._store)._commit = stall
     log.add_many({{"capture": {{"sha256": "abc"}}, "kind": "note", "text": "pending-" + str(i)}}
                  for i in range(50))
 """)

@@ -54,7 +54,7 @@ def test_lost_commit_acknowledgement_retried_once(url, monkeypatch):
     import psycopg
 
     log = ReviewLog(url)
-    real = type(log)._commit
+    real = type(log._store)._commit
     calls = []
 
     def commit_then_drop(self, conn):
@@ -64,7 +64,7 @@ def test_lost_commit_acknowledgement_retried_once(url, monkeypatch):
             conn.close()
             raise psycopg.OperationalError("server closed the connection unexpectedly")
 
-    monkeypatch.setattr(type(log), "_commit", commit_then_drop)
+    monkeypatch.setattr(type(log._store), "_commit", commit_then_drop)
     ids = log.add_many([{"capture": {"sha256": "a"}, "kind": "note", "text": str(i)}
                         for i in range(5)])
     assert len(calls) == 2 and len(log) == 5

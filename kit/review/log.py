@@ -33,79 +33,38 @@ References
 
 from __future__ import annotations
 
-import getpass
-import hashlib
-import math
 import os
 import sqlite3
-import threading
 import uuid as uuidlib
 from collections.abc import Iterable, Sequence
-from datetime import datetime, timedelta, timezone
 from pathlib import Path
 from typing import Any
 
-KINDS: tuple[str, ...] = ("note", "marker", "verdict", "retest", "tag")
-VERDICTS: tuple[str, ...] = ("accept", "reject", "retest")
+from kit.review.events import (  # noqa: F401 - the names kit.review.log has always had
+    EVENT_COLUMNS,
+    KINDS,
+    MAX_TEXT,
+    ROW_COLUMNS,
+    SERVER_SCHEMES,
+    STATE_COLUMNS,
+    VERDICTS,
+    ReviewLogError,
+    capture_identity,
+    current_user,
+    event_row,
+    is_server_url,
+    select_sql,
+    state_of,
+    utc_now,
+)
+
 DEFAULT_NAME = "review.sqlite"
 #: Current schema version of the SQLite file, stored in ``PRAGMA user_version``.
 SCHEMA_VERSION = 2
-#: Longest text kept in one event (characters); longer text is refused, not cut.
-MAX_TEXT = 20000
 #: How long a writer waits for another one [s].
 BUSY_TIMEOUT_S = 30.0
-#: URL schemes that select the PostgreSQL back end.
-SERVER_SCHEMES = ("postgresql://", "postgres://")
-
-#: Columns of :meth:`ReviewLog.events`; every column but ``event_id`` travels with an event
-#: from one log to another (``event_id`` is the order of arrival in one store).
-EVENT_COLUMNS = ["event_id", "utc", "capture", "sha256", "path", "kind", "value",
-                 "value_num", "text", "author", "kit_version", "uuid"]
-ROW_COLUMNS = EVENT_COLUMNS[1:]
 #: Name space of the name-based UUIDs given to events stored before schema version 2.
 LEGACY_NAMESPACE = uuidlib.UUID("0f5d3a52-8e8c-4c8e-9a43-6f1f0c1d2b7e")
-
-
-class ReviewLogError(ValueError):
-    """The review log cannot be used (names the file or server and what to do)."""
-
-
-def _kit_version() -> str:
-    from kit import __version__
-
-    return __version__
-
-
-def current_user() -> str:
-    """The OS user name, or ``"unknown"`` when the system cannot tell."""
-    try:
-        name = getpass.getuser()
-    except (OSError, KeyError, ImportError):
-        return "unknown"
-    return name or "unknown"
-
-
-_clock = threading.Lock()
-_last_utc: list[datetime] = []
-
-
-def utc_now() -> str:
-    """The current UTC time, ISO 8601 with microseconds and an explicit ``+00:00``.
-
-    Strictly increasing within a process (a repeated clock reading moves on by 1 us), so the
-    events one process writes keep their order when a log is sorted by time.
-    """
-    now = datetime.now(timezone.utc)
-    with _clock:
-        if _last_utc and now <= _last_utc[0]:
-            now = _last_utc[0] + timedelta(microseconds=1)
-        _last_utc[:] = [now]
-    return now.isoformat(timespec="microseconds")
-
-
-def is_server_url(target: Any) -> bool:
-    """True for a ``postgresql://`` (or ``postgres://``) URL, which selects the server."""
-    return isinstance(target, str) and target.strip().lower().startswith(SERVER_SCHEMES)
 
 
 def legacy_uuid(row: Sequence[Any]) -> str:
@@ -204,102 +163,24 @@ def _check_format(conn: sqlite3.Connection, path: str) -> None:
         raise ReviewLogError(f"{path}: this SQLite file is not a sweepbook review log")
 
 
-# --------------------------------------------------------------------------- identity
-def capture_identity(capture: Any) -> dict[str, Any]:
-    """``capture``, ``sha256`` and ``path`` of a Capture, a path to a file, or a dict.
+# --------------------------------------------------------------------------- SQLite store
+class SQLiteStore:
+    """The SQLite back end of :class:`ReviewLog`: one file, opened in write-ahead-log mode.
 
-    A capture made in memory (no file) is keyed by a hash of its frequency grid and
-    S-parameters, prefixed ``"mem:"``.
-    """
-    if isinstance(capture, dict):
-        sha = capture.get("sha256")
-        if not sha:
-            raise ReviewLogError("a capture given as a dict needs a 'sha256' entry")
-        path = capture.get("path")
-        name = capture.get("capture") or (Path(path).stem if path else sha[:12])
-        return {"capture": str(name), "sha256": str(sha),
-                "path": None if path is None else str(path)}
-    if isinstance(capture, (str, os.PathLike)):
-        p = Path(capture)
-        try:
-            sha = hashlib.sha256(p.read_bytes()).hexdigest()
-        except OSError as exc:
-            raise ReviewLogError(f"{p}: cannot read the capture to key the review event: "
-                                 f"{exc.strerror or exc}") from None
-        return {"capture": p.stem, "sha256": sha, "path": str(p)}
-    sha = getattr(capture, "sha256", None)
-    path = getattr(capture, "path", None)
-    name = getattr(capture, "name", None)
-    if sha is None:
-        net = getattr(capture, "network", None)
-        if net is None:
-            raise ReviewLogError(f"cannot identify {type(capture).__name__!r} as a capture; "
-                                 "give a kit Capture, a file path or a dict with 'sha256'")
-        h = hashlib.sha256()
-        h.update(net.frequency.f.tobytes())
-        h.update(net.s.tobytes())
-        sha = "mem:" + h.hexdigest()
-    return {"capture": str(name) if name is not None else sha[:12], "sha256": str(sha),
-            "path": None if path is None else str(path)}
-
-
-# --------------------------------------------------------------------------- the log
-class ReviewLog:
-    """Append-only review events of a lot, in one SQLite file or on a PostgreSQL server.
-
-    Parameters
-    ----------
-    target : str or Path
-        A path: the SQLite file, created (with its folder's permission) on first use; use
-        :meth:`for_folder` for the default ``review.sqlite`` beside the captures. A URL
-        ``postgresql://user@host:port/dbname[?sslmode=...]``: the team's server
-        (:class:`kit.review.server.ServerReviewLog`); the password comes from ``PGPASSWORD``
-        or the PostgreSQL password file, never from the URL.
-
-    Examples
-    --------
-    >>> log = ReviewLog.for_folder("demo_data/lot")          # doctest: +SKIP
-    >>> log.add(cap, "verdict", value="accept", author="r.okafor")  # doctest: +SKIP
-    >>> log.state()                                          # doctest: +SKIP
+    A store writes and reads rows; :class:`ReviewLog` validates events and builds tables.
+    The PostgreSQL store (:class:`kit.review.server.ServerStore`) has the same methods.
     """
 
-    def __new__(cls, target: Any = None, *args: Any, **kwargs: Any) -> "ReviewLog":
-        if cls is ReviewLog and is_server_url(target):
-            from kit.review.server import ServerReviewLog
-
-            return super().__new__(ServerReviewLog)
-        return super().__new__(cls)
-
-    def __init__(self, path: str | os.PathLike) -> None:
-        self.path = Path(path)
-        if self.path.is_dir():
-            raise ReviewLogError(f"{self.path}: is a folder; give a file, or use "
-                                 f"ReviewLog.for_folder({str(self.path)!r})")
-        self._conn: Any = None
+    def __init__(self, path: Path) -> None:
+        self.path = path
+        self._conn: sqlite3.Connection | None = None
         self._pid: int | None = None
-        self._connect()  # open at once so a bad file is reported here
-
-    # ---- location
-    @staticmethod
-    def default_path(folder: str | os.PathLike) -> Path:
-        """Where the log of the captures in ``folder`` lives: ``folder/review.sqlite``."""
-        return Path(folder) / DEFAULT_NAME
-
-    @classmethod
-    def for_folder(cls, folder: str | os.PathLike, name: str = DEFAULT_NAME) -> "ReviewLog":
-        """The review log beside the captures in ``folder`` (file name configurable)."""
-        folder = Path(folder)
-        if not folder.is_dir():
-            raise ReviewLogError(f"{folder}: not a folder of captures")
-        return cls(folder / name)
 
     @property
     def location(self) -> str:
-        """Where the log lives, safe to print or store: the file, or the URL without password."""
         return str(self.path)
 
-    # ---- connection
-    def _connect(self) -> sqlite3.Connection:
+    def connect(self) -> sqlite3.Connection:
         # a connection must not cross a fork: reopen in a child process
         if self._conn is not None and self._pid == os.getpid():
             return self._conn
@@ -323,10 +204,123 @@ class ReviewLog:
         return conn
 
     def close(self) -> None:
-        """Close the connection (the log reopens on the next use)."""
         if self._conn is not None and self._pid == os.getpid():
             self._conn.close()
         self._conn = None
+
+    @property
+    def schema_version(self) -> int:
+        return int(self.connect().execute("PRAGMA user_version").fetchone()[0])
+
+    _INSERT = (f"INSERT INTO events ({', '.join(ROW_COLUMNS)}) VALUES "
+               f"({', '.join('?' * len(ROW_COLUMNS))}) ON CONFLICT (uuid) DO NOTHING")
+
+    def _commit(self, conn: Any) -> None:
+        conn.execute("COMMIT")
+
+    def write(self, rows: list[tuple]) -> list[int]:
+        """Store ``rows`` (:data:`ROW_COLUMNS`) in one transaction; an event whose uuid is
+        stored already is skipped. Returns the event ids, in the order of ``rows``."""
+        conn = self.connect()
+        ids: list[int] = []
+        conn.execute("BEGIN IMMEDIATE")
+        try:
+            for row in rows:
+                cur = conn.execute(self._INSERT, row)
+                if cur.rowcount == 1:
+                    ids.append(int(cur.lastrowid))
+                else:  # already stored: the id it has
+                    ids.append(int(conn.execute("SELECT event_id FROM events WHERE uuid = ?",
+                                                (row[-1],)).fetchone()[0]))
+            self._commit(conn)
+        except BaseException:
+            if conn.in_transaction:
+                conn.execute("ROLLBACK")
+            raise
+        return ids
+
+    def select(self, sha256: str | None = None) -> list[tuple]:
+        """Rows of :data:`EVENT_COLUMNS`, all or those of one capture, in order of arrival."""
+        return self.connect().execute(*select_sql("events", "?", sha256)).fetchall()
+
+    def uuids(self) -> set[str]:
+        return {r[0] for r in self.connect().execute("SELECT uuid FROM events")}
+
+    def count(self) -> int:
+        return int(self.connect().execute("SELECT COUNT(*) FROM events").fetchone()[0])
+
+    def check(self) -> str:
+        rows = self.connect().execute("PRAGMA integrity_check").fetchall()
+        return "; ".join(str(r[0]) for r in rows)
+
+
+# --------------------------------------------------------------------------- the log
+class ReviewLog:
+    """Append-only review events of a lot, in one SQLite file or on a PostgreSQL server.
+
+    Parameters
+    ----------
+    path : str or Path
+        A path: the SQLite file, created (with its folder's permission) on first use; use
+        :meth:`for_folder` for the default ``review.sqlite`` beside the captures. A URL
+        ``postgresql://user@host:port/dbname[?sslmode=...]``: the team's server
+        (:mod:`kit.review.server`); the password comes from ``PGPASSWORD`` or the PostgreSQL
+        password file, never from the URL.
+
+    Attributes
+    ----------
+    path : Path or None
+        The SQLite file (None for a server).
+    location : str
+        The file, or the server's URL without password: safe to print or store.
+
+    Examples
+    --------
+    >>> log = ReviewLog.for_folder("demo_data/lot")          # doctest: +SKIP
+    >>> log.add(cap, "verdict", value="accept", author="r.okafor")  # doctest: +SKIP
+    >>> log.state()                                          # doctest: +SKIP
+    """
+
+    def __init__(self, path: str | os.PathLike) -> None:
+        if is_server_url(path):
+            from kit.review.server import ServerStore
+
+            self.path = None
+            self._store: Any = ServerStore(str(path))
+        else:
+            self.path = Path(path)
+            if self.path.is_dir():
+                raise ReviewLogError(f"{self.path}: is a folder; give a file, or use "
+                                     f"ReviewLog.for_folder({str(self.path)!r})")
+            self._store = SQLiteStore(self.path)
+        self._connect()  # open at once so a bad file or server is reported here
+
+    # ---- location
+    @staticmethod
+    def default_path(folder: str | os.PathLike) -> Path:
+        """Where the log of the captures in ``folder`` lives: ``folder/review.sqlite``."""
+        return Path(folder) / DEFAULT_NAME
+
+    @classmethod
+    def for_folder(cls, folder: str | os.PathLike, name: str = DEFAULT_NAME) -> "ReviewLog":
+        """The review log beside the captures in ``folder`` (file name configurable)."""
+        folder = Path(folder)
+        if not folder.is_dir():
+            raise ReviewLogError(f"{folder}: not a folder of captures")
+        return cls(folder / name)
+
+    @property
+    def location(self) -> str:
+        """Where the log lives, safe to print or store: the file, or the URL without password."""
+        return self._store.location
+
+    # ---- connection
+    def _connect(self) -> Any:
+        return self._store.connect()
+
+    def close(self) -> None:
+        """Close the connection (the log reopens on the next use)."""
+        self._store.close()
 
     def __enter__(self) -> "ReviewLog":
         return self
@@ -335,56 +329,14 @@ class ReviewLog:
         self.close()
 
     def __repr__(self) -> str:
-        return f"{type(self).__name__}({self.location!r})"
+        return f"ReviewLog({self.location!r})"
 
     @property
     def schema_version(self) -> int:
-        """The schema version of the open file."""
-        return int(self._connect().execute("PRAGMA user_version").fetchone()[0])
+        """The schema version of the open file or server."""
+        return int(self._store.schema_version)
 
     # ---- writing
-    def _row(self, capture: Any, kind: str, text: str | None, value: Any,
-             author: str | None, event_uuid: Any = None) -> tuple:
-        if kind not in KINDS:
-            raise ReviewLogError(f"event kind {kind!r} is not one of {', '.join(KINDS)}")
-        ident = capture_identity(capture)
-        if text is not None:
-            if not isinstance(text, str):
-                raise ReviewLogError(f"event text must be a string, got {type(text).__name__}")
-            if len(text) > MAX_TEXT:
-                raise ReviewLogError(f"event text has {len(text)} characters; the limit is "
-                                     f"{MAX_TEXT}; attach long material as a file instead")
-        value_num = None
-        if kind == "verdict":
-            if value not in VERDICTS:
-                raise ReviewLogError(f"a verdict value must be one of {', '.join(VERDICTS)}, "
-                                     f"got {value!r}")
-        elif kind == "marker":
-            try:
-                value_num = float(value)
-            except (TypeError, ValueError):
-                raise ReviewLogError(f"a marker needs its frequency in hertz as value, got "
-                                     f"{value!r}") from None
-            if not math.isfinite(value_num):
-                raise ReviewLogError(f"a marker frequency must be finite, got {value!r}")
-            value = repr(value_num)
-        elif kind == "tag" and not (isinstance(value, str) and value.strip()):
-            if isinstance(text, str) and text.strip():
-                value, text = text.strip(), None
-            else:
-                raise ReviewLogError("a tag needs a non-empty value, e.g. value='cracked'")
-        if value is not None and not isinstance(value, str):
-            if isinstance(value, (int, float)) and not isinstance(value, bool):
-                value_num = float(value)
-            value = str(value)
-        who = author if author else current_user()
-        try:
-            key = str(uuidlib.UUID(str(event_uuid))) if event_uuid is not None else str(uuidlib.uuid4())
-        except ValueError:
-            raise ReviewLogError(f"an event uuid must be a UUID, got {event_uuid!r}") from None
-        return (utc_now(), ident["capture"], ident["sha256"], ident["path"], kind, value,
-                value_num, text, str(who), _kit_version(), key)
-
     def add(self, capture: Any, kind: str, text: str | None = None, value: Any = None,
             author: str | None = None, uuid: Any = None) -> int:
         """Append one event; returns its id (its order of arrival in this log).
@@ -406,16 +358,16 @@ class ReviewLog:
             The event's key; a new random one by default. Writing an event again with the
             same uuid stores nothing new and returns the id of the stored one.
         """
-        row = self._row(capture, kind, text, value, author, uuid)
-        return self._write([row])[0]
+        return self._store.write([event_row(capture, kind, text, value, author, uuid)])[0]
 
     def add_many(self, events: Iterable[dict[str, Any]]) -> list[int]:
         """Append several events in ONE transaction: all of them are kept, or none.
 
         ``events`` yields dicts with the keyword arguments of :meth:`add`.
         """
-        return self._write([self._row(e["capture"], e["kind"], e.get("text"), e.get("value"),
-                                      e.get("author"), e.get("uuid")) for e in events])
+        return self._store.write([event_row(e["capture"], e["kind"], e.get("text"),
+                                            e.get("value"), e.get("author"), e.get("uuid"))
+                                  for e in events])
 
     def import_rows(self, rows: Iterable[Sequence[Any]]) -> int:
         """Store events copied from another log, as they are (columns :data:`ROW_COLUMNS`).
@@ -425,62 +377,24 @@ class ReviewLog:
         have = self.uuids()
         new = [tuple(r) for r in rows if str(r[-1]) not in have]
         for k in range(0, len(new), 2000):  # each batch is atomic; a rerun completes the rest
-            self._write(new[k:k + 2000])
+            self._store.write(new[k:k + 2000])
         return len(new)
-
-    _INSERT = (f"INSERT INTO events ({', '.join(ROW_COLUMNS)}) VALUES "
-               f"({', '.join('?' * len(ROW_COLUMNS))}) ON CONFLICT (uuid) DO NOTHING")
-
-    def _commit(self, conn: Any) -> None:
-        conn.execute("COMMIT")
-
-    def _write(self, rows: list[tuple]) -> list[int]:
-        conn = self._connect()
-        ids: list[int] = []
-        conn.execute("BEGIN IMMEDIATE")
-        try:
-            for row in rows:
-                cur = conn.execute(self._INSERT, row)
-                if cur.rowcount == 1:
-                    ids.append(int(cur.lastrowid))
-                else:  # already stored: the id it has
-                    ids.append(int(conn.execute("SELECT event_id FROM events WHERE uuid = ?",
-                                                (row[-1],)).fetchone()[0]))
-            self._commit(conn)
-        except BaseException:
-            if conn.in_transaction:
-                conn.execute("ROLLBACK")
-            raise
-        return ids
-
-    # ---- reading (back-end part)
-    _TABLE, _MARK = "events", "?"  # the events table and the parameter mark of the driver
-
-    def _select_sql(self, sha256: str | None) -> tuple[str, tuple]:
-        """The parameterised query of the events (of one capture), in order of arrival."""
-        where = "" if sha256 is None else f" WHERE sha256 = {self._MARK}"
-        return (f"SELECT {', '.join(EVENT_COLUMNS)} FROM {self._TABLE}{where} ORDER BY event_id",
-                () if sha256 is None else (sha256,))
-
-    def _select(self, sha256: str | None = None) -> list[tuple]:
-        return self._connect().execute(*self._select_sql(sha256)).fetchall()
 
     def uuids(self) -> set[str]:
         """The uuids of every stored event."""
-        return {r[0] for r in self._connect().execute("SELECT uuid FROM events")}
+        return self._store.uuids()
 
     def __len__(self) -> int:
-        return int(self._connect().execute("SELECT COUNT(*) FROM events").fetchone()[0])
+        return self._store.count()
 
     def check(self) -> str:
-        """SQLite's own integrity check: ``"ok"`` or the problems found."""
-        rows = self._connect().execute("PRAGMA integrity_check").fetchall()
-        return "; ".join(str(r[0]) for r in rows)
+        """The store's own consistency check: ``"ok"`` or the problems found."""
+        return self._store.check()
 
     # ---- reading (shared)
     def rows(self) -> list[tuple]:
         """Every event as a tuple of :data:`ROW_COLUMNS` (what a copy to another log needs)."""
-        return [tuple(r[1:]) for r in self._select()]
+        return [tuple(r[1:]) for r in self._store.select()]
 
     def events(self, capture: Any = None):
         """All events (or those of one capture) as a DataFrame, in order of arrival.
@@ -491,7 +405,7 @@ class ReviewLog:
         import pandas as pd
 
         sha = None if capture is None else capture_identity(capture)["sha256"]
-        return pd.DataFrame(self._select(sha), columns=EVENT_COLUMNS)
+        return pd.DataFrame(self._store.select(sha), columns=EVENT_COLUMNS)
 
     def state(self):
         """The current review state, one row per capture (a view over the events).
@@ -503,48 +417,6 @@ class ReviewLog:
         "; "-joined), notes (count), last_note, markers (count), events (count), last_utc.
         """
         return state_of(self.events())
-
-
-STATE_COLUMNS = ["capture", "sha256", "path", "verdict", "verdict_author", "verdict_utc",
-                 "verdict_text", "retest_requested", "tags", "notes", "last_note", "markers",
-                 "events", "last_utc"]
-
-
-def state_of(ev):
-    """The state table of :meth:`ReviewLog.state` from an events table (any back end)."""
-    import pandas as pd
-
-    if len(ev) == 0:
-        return pd.DataFrame(columns=STATE_COLUMNS)
-    ev = ev.sort_values(["utc", "uuid"], kind="stable").reset_index(drop=True)
-    ev["pos"] = range(len(ev))
-    by = ev.groupby("sha256", sort=False)
-    last = by.tail(1).set_index("sha256")
-    order = ev.drop_duplicates("sha256")["sha256"]
-    out = pd.DataFrame({"sha256": order.to_numpy()}).set_index("sha256", drop=False)
-    out["capture"] = last["capture"]
-    out["path"] = last["path"]
-    out["last_utc"] = last["utc"]
-    out["events"] = by.size()
-    is_v = ev["kind"] == "verdict"
-    v = ev[is_v].groupby("sha256").tail(1).set_index("sha256")
-    for col, src in (("verdict", "value"), ("verdict_author", "author"),
-                     ("verdict_utc", "utc"), ("verdict_text", "text")):
-        out[col] = v[src].reindex(out.index).astype(object)
-    decided = ev[is_v & ev["value"].isin(["accept", "reject"])].groupby("sha256")["pos"].max()
-    asks = ev[(ev["kind"] == "retest") | (is_v & (ev["value"] == "retest"))]
-    newer = asks["pos"].to_numpy() > decided.reindex(asks["sha256"]).fillna(-1).to_numpy()
-    out["retest_requested"] = out.index.isin(asks.loc[newer, "sha256"])
-    tags = ev.loc[ev["kind"] == "tag"].dropna(subset=["value"]).groupby("sha256")["value"]
-    out["tags"] = tags.agg(lambda t: "; ".join(sorted(set(t)))).reindex(out.index).fillna("")
-    notes = ev[ev["kind"] == "note"].groupby("sha256")
-    out["notes"] = notes.size().reindex(out.index).fillna(0).astype(int)
-    out["last_note"] = notes.tail(1).set_index("sha256")["text"].reindex(out.index).astype(object)
-    out["markers"] = (ev[ev["kind"] == "marker"].groupby("sha256").size()
-                      .reindex(out.index).fillna(0).astype(int))
-    out = out[STATE_COLUMNS].reset_index(drop=True)
-    return out.astype(object).where(out.notna(), None).astype(
-        {"retest_requested": bool, "notes": int, "markers": int, "events": int})
 
 
 def as_review_log(log: Any) -> ReviewLog | None:

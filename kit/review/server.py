@@ -44,7 +44,7 @@ from datetime import datetime, timezone
 from typing import Any
 from urllib.parse import parse_qsl, urlencode, urlsplit, urlunsplit
 
-from kit.review.log import ROW_COLUMNS, ReviewLog, ReviewLogError
+from kit.review.events import ROW_COLUMNS, ReviewLogError, select_sql
 
 #: Current schema version on the server, stored in ``review_meta``.
 SCHEMA_VERSION = 1
@@ -195,8 +195,8 @@ def init_server(url: str, writer: str | None = None) -> int:
     psycopg = _psycopg()
     from psycopg import sql
 
-    log = ServerReviewLog(url)
-    conn = log._connect()
+    log = ServerStore(url)
+    conn = log.connect()
     try:
         if writer:
             with conn.transaction(), conn.cursor() as cur:
@@ -219,8 +219,9 @@ def _first_line(exc: BaseException) -> str:
 
 
 # --------------------------------------------------------------------------- the log
-class ServerReviewLog(ReviewLog):
-    """The review log in a PostgreSQL database (made by ``kit.ReviewLog(url)``).
+class ServerStore:
+    """The PostgreSQL back end of :class:`kit.ReviewLog` (made by ``kit.ReviewLog(url)``);
+    the same methods as :class:`kit.review.log.SQLiteStore`.
 
     Parameters
     ----------
@@ -234,14 +235,12 @@ class ServerReviewLog(ReviewLog):
     def __init__(self, url: str) -> None:  # noqa: D107 - documented on the class
         url = str(url).strip()
         self.url = safe_url(url)
-        self.path = None
         if _has_password(url):
             raise ReviewLogError(f"{self.url}: the URL holds a password; give it in PGPASSWORD "
                                  "or the PostgreSQL password file (~/.pgpass), never in the URL")
         self._dsn = url
         self._conn = None
         self._pid = None
-        self._connect()
 
     @property
     def location(self) -> str:
@@ -255,7 +254,7 @@ class ServerReviewLog(ReviewLog):
             "right, then write again: events already stored stay on the server, and events "
             "written again are stored once (by uuid)")
 
-    def _connect(self) -> Any:
+    def connect(self) -> Any:
         if self._conn is not None and self._pid == os.getpid() and not self._conn.closed:
             return self._conn
         psycopg = _psycopg()
@@ -289,7 +288,7 @@ class ServerReviewLog(ReviewLog):
         psycopg = _psycopg()
         for attempt in range(RETRIES + 1):
             try:
-                conn = self._connect()
+                conn = self.connect()
             except ServerUnreachable:
                 if attempt == RETRIES:
                     raise
@@ -323,7 +322,9 @@ class ServerReviewLog(ReviewLog):
     def _commit(self, conn: Any) -> None:
         conn.commit()
 
-    def _write(self, rows: list[tuple]) -> list[int]:
+    def write(self, rows: list[tuple]) -> list[int]:
+        """Store ``rows`` in one transaction (sent again, same uuids, if the connection drops);
+        an event whose uuid is stored already is skipped. Returns the ids in row order."""
         params = [(*r[:-1], uuidlib.UUID(str(r[-1]))) for r in rows]
         params = [(datetime.fromisoformat(p[0]), *p[1:]) for p in params]
         keys = [p[-1] for p in params]
@@ -338,17 +339,23 @@ class ServerReviewLog(ReviewLog):
                     ids = dict(cur.fetchall())
                 self._commit(conn)
             except BaseException:
-                if not conn.closed:
+                if not (conn.closed or conn.broken):
                     conn.rollback()
                 raise
             finally:
-                if not conn.closed:
+                if not (conn.closed or conn.broken):
                     conn.autocommit = True
             return [int(ids[k]) for k in keys]
 
         return self._run(work) if params else []
 
     # ---- reading
+    def close(self) -> None:
+        """Close the connection (the store reconnects on the next use)."""
+        if self._conn is not None and self._pid == os.getpid():
+            self._conn.close()
+        self._conn = None
+
     def _fetch(self, sql: str, args: tuple = ()) -> list[tuple]:
         """All rows of one parameterised query (reconnecting when the connection dropped)."""
         def work(conn):
@@ -357,17 +364,16 @@ class ServerReviewLog(ReviewLog):
                 return cur.fetchall()
         return self._run(work)
 
-    _TABLE, _MARK = EVENTS, "%s"
-
-    def _select(self, sha256: str | None = None) -> list[tuple]:
+    def select(self, sha256: str | None = None) -> list[tuple]:
+        """Rows of :data:`kit.review.events.EVENT_COLUMNS` (UTC time and uuid as text)."""
         return [(r[0], r[1].astimezone(timezone.utc).isoformat(timespec="microseconds"),
-                 *r[2:-1], str(r[-1])) for r in self._fetch(*self._select_sql(sha256))]
+                 *r[2:-1], str(r[-1])) for r in self._fetch(*select_sql(EVENTS, "%s", sha256))]
 
     def uuids(self) -> set[str]:
         """The uuids of every stored event."""
         return {str(r[0]) for r in self._fetch(f"SELECT uuid FROM {EVENTS}")}
 
-    def __len__(self) -> int:
+    def count(self) -> int:
         return int(self._fetch(f"SELECT COUNT(*) FROM {EVENTS}")[0][0])
 
     def check(self) -> str:
