@@ -33,3 +33,61 @@ def demo_dir() -> Path:
     if not (DEMO / "truth.json").exists():
         pytest.skip("demo_data/ has not been generated")
     return DEMO
+
+
+# --------------------------------------------------------------------------- PostgreSQL
+@pytest.fixture(scope="session")
+def pg_server():
+    """A throw-away PostgreSQL on 127.0.0.1 for the whole session (tests/pg_server.py).
+
+    The application role's password reaches the kit through a password file named by
+    ``PGPASSFILE`` (never through a URL). Skips only when no PostgreSQL programs exist.
+    """
+    from pg_server import TempPostgres, find_bindir
+
+    bindir = find_bindir()
+    if bindir is None:
+        pytest.skip("no PostgreSQL server programs (initdb, pg_ctl) on this machine: install "
+                    "Debian's `postgresql` package to run the server back-end tests")
+    pytest.importorskip("psycopg", reason="the server back end needs psycopg: "
+                        "pip install 'sweepbook[team]'")
+    server = TempPostgres(bindir).start()
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setenv("PGPASSFILE", str(server.passfile))
+        mp.delenv("PGPASSWORD", raising=False)
+        try:
+            yield server
+        finally:
+            server.stop()
+
+
+@pytest.fixture
+def lot_capture(tmp_path):
+    """A folder ``lot`` with one one-port capture file ``pz-01.s1p``, loaded: (folder, capture)."""
+    import numpy as np
+    import skrf
+
+    import kit
+
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    f = skrf.Frequency(1, 3, 21, unit="MHz")
+    skrf.Network(frequency=f, z=(10 + 1j * np.linspace(-50, 50, 21)).reshape(-1, 1, 1),
+                 z0=50).write_touchstone(str(lot / "pz-01"))
+    return lot, kit.load(lot / "pz-01.s1p")
+
+
+@pytest.fixture(params=["sqlite", "postgresql"])
+def new_target(request, tmp_path):
+    """A factory of empty review-log targets of one back end: a path, or a server URL."""
+    made = []
+
+    def make() -> str:
+        if request.param == "sqlite":
+            made.append(tmp_path / f"review{len(made)}.sqlite")
+            return str(made[-1])
+        pg = request.getfixturevalue("pg_server")
+        return pg.url(pg.new_database())
+
+    make.backend = request.param
+    return make

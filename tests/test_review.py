@@ -1,28 +1,23 @@
-"""Review log: append-only events, state view, concurrency and crash safety.
+"""Review log, SQLite file only: schema migrations, foreign files, location, identity.
 
-The guarantees checked here are SQLite's own (documentation "Atomic Commit In SQLite" and
-"Write-Ahead Logging"); the tests check that the log uses them correctly.
+What both back ends guarantee (append-only, concurrency, crash safety, idempotent writes) is
+checked on both in tests/test_review_contract.py. SQLite facts relied on here: "PRAGMA
+user_version" (pragma.html) holds the schema version; "ALTER TABLE ... ADD COLUMN" and
+triggers are transactional (lang_altertable.html, lang_transaction.html).
 """
 
 from __future__ import annotations
 
 import os
-import signal
 import sqlite3
-import subprocess
-import sys
-import textwrap
-from pathlib import Path
+import uuid
 
 import numpy as np
-import pandas as pd
 import pytest
 import skrf
 
 from kit.capture import from_network
-from kit.review.log import SCHEMA_VERSION, ReviewLog, ReviewLogError, capture_identity, migrate
-
-ROOT = Path(__file__).resolve().parents[1]
+from kit.review.log import MIGRATIONS, SCHEMA_VERSION, ReviewLog, ReviewLogError, capture_identity, migrate
 
 
 def _cap(seed: int = 0, name: str = "disc-01"):
@@ -30,82 +25,6 @@ def _cap(seed: int = 0, name: str = "disc-01"):
     f = skrf.Frequency(1, 2, 5, unit="MHz")
     s = (rng.normal(size=5) + 1j * rng.normal(size=5)).reshape(5, 1, 1) * 0.1
     return from_network(skrf.Network(frequency=f, s=s, z0=50, name=name))
-
-
-def test_add_and_events_roundtrip(tmp_path):
-    """Events come back in order with author, UTC time, kit version and the capture's key."""
-    log = ReviewLog(tmp_path / "r.sqlite")
-    c = _cap()
-    i1 = log.add(c, "note", text="chipped edge", author="t.ibarra")
-    i2 = log.add(c, "verdict", value="reject", author="t.ibarra")
-    i3 = log.add(c, "marker", value=1.5e6, text="spur")
-    ev = log.events()
-    assert list(ev["event_id"]) == [i1, i2, i3]
-    assert list(ev["kind"]) == ["note", "verdict", "marker"]
-    assert ev.loc[0, "text"] == "chipped edge" and ev.loc[1, "value"] == "reject"
-    assert ev.loc[2, "value_num"] == 1.5e6
-    assert ev.loc[0, "sha256"] == capture_identity(c)["sha256"]
-    assert ev.loc[0, "utc"].endswith("+00:00")
-    import kit
-    assert set(ev["kit_version"]) == {kit.__version__}
-    assert ev.loc[2, "author"]  # OS user (or "unknown"), never empty
-
-
-def test_latest_verdict_wins_history_stays(tmp_path):
-    """state() shows the latest verdict; events() keeps the earlier ones."""
-    log = ReviewLog(tmp_path / "r.sqlite")
-    a, b = _cap(0, "a"), _cap(1, "b")
-    log.add(a, "verdict", value="reject", author="x")
-    log.add(a, "verdict", value="accept", author="y", text="re-measured, fine")
-    log.add(b, "retest", text="connector loose")
-    log.add(b, "tag", value="cracked")
-    st = log.state().set_index("capture")
-    assert st.loc["a", "verdict"] == "accept" and st.loc["a", "verdict_author"] == "y"
-    assert not st.loc["a", "retest_requested"]
-    assert pd.isna(st.loc["b", "verdict"]) and st.loc["b", "retest_requested"]
-    assert st.loc["b", "tags"] == "cracked"
-    assert len(log.events(a)) == 2
-
-
-def test_bad_events_refused(tmp_path):
-    """Unknown kinds, verdict values and non-numeric marker frequencies are refused."""
-    log = ReviewLog(tmp_path / "r.sqlite")
-    c = _cap()
-    with pytest.raises(ReviewLogError, match="kind"):
-        log.add(c, "comment", text="x")
-    with pytest.raises(ReviewLogError, match="accept, reject, retest"):
-        log.add(c, "verdict", value="ok")
-    with pytest.raises(ReviewLogError, match="hertz"):
-        log.add(c, "marker", value="near fs")
-    assert len(log) == 0
-
-
-def test_append_only_enforced_by_database(tmp_path):
-    """Even a direct SQL UPDATE or DELETE on the file is refused."""
-    p = tmp_path / "r.sqlite"
-    log = ReviewLog(p)
-    log.add(_cap(), "note", text="keep me")
-    log.close()
-    con = sqlite3.connect(p)
-    with pytest.raises(sqlite3.DatabaseError, match="append-only"):
-        con.execute("UPDATE events SET text = 'changed'")
-    with pytest.raises(sqlite3.DatabaseError, match="append-only"):
-        con.execute("DELETE FROM events")
-    con.close()
-    assert ReviewLog(p).events().loc[0, "text"] == "keep me"
-
-
-def test_schema_version_and_newer_file_refused(tmp_path):
-    """The schema version is recorded; a file from a newer kit is refused with a message."""
-    p = tmp_path / "r.sqlite"
-    log = ReviewLog(p)
-    assert log.schema_version == SCHEMA_VERSION
-    log.close()
-    con = sqlite3.connect(p)
-    con.execute(f"PRAGMA user_version = {SCHEMA_VERSION + 1}")
-    con.close()
-    with pytest.raises(ReviewLogError, match="newer"):
-        ReviewLog(p)
 
 
 def test_migration_is_idempotent():
@@ -142,102 +61,6 @@ def test_identity_of_file_path(tmp_path):
     assert ident["sha256"] == hashlib.sha256(p.read_bytes()).hexdigest()
 
 
-_WRITER = textwrap.dedent("""
-    import sys
-    sys.path.insert(0, {root!r})
-    from kit.review.log import ReviewLog
-    log = ReviewLog({db!r})
-    who = sys.argv[1]
-    print("ready", flush=True)
-    sys.stdin.readline()          # start together
-    for i in range(500):
-        log.add({{"sha256": "s" + str(i % 7), "capture": "c" + str(i % 7)}}, "note",
-                text=who + "-" + str(i), author=who)
-    print("done", flush=True)
-""")
-
-
-def test_two_processes_500_events_each(tmp_path):
-    """Two processes writing 500 events each at the same time: all 1000 are kept."""
-    db = tmp_path / "r.sqlite"
-    ReviewLog(db).close()
-    code = _WRITER.format(root=str(ROOT), db=str(db))
-    procs = [subprocess.Popen([sys.executable, "-c", code, who], stdin=subprocess.PIPE,
-                              stdout=subprocess.PIPE, text=True) for who in ("p1", "p2")]
-    for p in procs:
-        assert p.stdout.readline().strip() == "ready"
-    for p in procs:
-        p.stdin.write("go\n")
-        p.stdin.flush()
-    for p in procs:
-        out, _ = p.communicate(timeout=300)
-        assert p.returncode == 0 and "done" in out
-        p.stdout.close()
-    ev = ReviewLog(db).events()
-    assert len(ev) == 1000
-    for who in ("p1", "p2"):
-        texts = set(ev.loc[ev["author"] == who, "text"])
-        assert texts == {f"{who}-{i}" for i in range(500)}
-    assert ev["event_id"].is_unique
-
-
-_KILLED = textwrap.dedent("""
-    import sys, time
-    sys.path.insert(0, {root!r})
-    from kit.review.log import ReviewLog
-    log = ReviewLog({db!r})
-    for i in range(20):
-        eid = log.add({{"sha256": "abc", "capture": "c"}}, "note", text="committed-" + str(i))
-        print("committed", eid, flush=True)
-    def pending():
-        for i in range(50):
-            yield {{"capture": {{"sha256": "abc"}}, "kind": "note", "text": "pending-" + str(i)}}
-        print("inside", flush=True)   # the transaction holds 50 uncommitted rows
-        time.sleep(120)
-    log.add_many(pending())
-""")
-
-
-def test_writer_killed_mid_transaction(tmp_path):
-    """A writer killed by SIGKILL inside a transaction: the log opens, consistent, with every
-    committed event and none of the uncommitted ones."""
-    db = tmp_path / "r.sqlite"
-    code = _KILLED.format(root=str(ROOT), db=str(db))
-    p = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, text=True)
-    committed = []
-    try:
-        while True:
-            line = p.stdout.readline()
-            assert line, "writer ended early"
-            if line.startswith("committed"):
-                committed.append(int(line.split()[1]))
-            elif line.strip() == "inside":
-                break
-        os.kill(p.pid, signal.SIGKILL)
-    finally:
-        p.wait(timeout=30)
-        p.stdout.close()
-    assert p.returncode == -signal.SIGKILL
-    log = ReviewLog(db)
-    assert log.check() == "ok"
-    ev = log.events()
-    assert list(ev["event_id"]) == committed
-    assert list(ev["text"]) == [f"committed-{i}" for i in range(20)]
-    # the log is writable again (no stale lock left behind)
-    log.add({"sha256": "abc"}, "note", text="after")
-    assert len(log) == 21
-
-
-def test_add_many_is_all_or_nothing(tmp_path):
-    """A bad event inside add_many rolls the whole batch back."""
-    log = ReviewLog(tmp_path / "r.sqlite")
-    c = _cap()
-    with pytest.raises(ReviewLogError):
-        log.add_many([{"capture": c, "kind": "note", "text": "a"},
-                      {"capture": c, "kind": "verdict", "value": "maybe"}])
-    assert len(log) == 0
-
-
 def test_reopen_after_fork_like_pid_change(tmp_path, monkeypatch):
     """A log used in a new process id opens its own connection."""
     log = ReviewLog(tmp_path / "r.sqlite")
@@ -246,3 +69,37 @@ def test_reopen_after_fork_like_pid_change(tmp_path, monkeypatch):
     assert log._connect() is not first
     log.add(_cap(), "note", text="x")
     assert len(log) == 1
+
+
+def _version_1_file(path, notes):
+    """A review log as the kit wrote it at schema version 1 (no uuid column)."""
+    con = sqlite3.connect(path, isolation_level=None)
+    MIGRATIONS[0](con)
+    con.execute("PRAGMA user_version = 1")
+    for i, text in enumerate(notes):
+        con.execute("INSERT INTO events (utc, capture, sha256, path, kind, value, value_num, "
+                    "text, author, kit_version) VALUES (?,?,?,?,?,?,?,?,?,?)",
+                    (f"2026-01-01T00:00:0{i}.000000+00:00", "c", "abc", None, "note", None, None,
+                     text, "old", "0.0.9"))
+    con.close()
+
+
+def test_version_1_file_migrates_with_stable_uuids(tmp_path):
+    """A file of schema version 1 opens at the current version: every old event gets a
+    name-based UUID (RFC 9562 version 5), the same in every copy of the file, and the
+    append-only triggers are back in force after the migration."""
+    a, b = tmp_path / "a.sqlite", tmp_path / "b.sqlite"
+    for p in (a, b):
+        _version_1_file(p, ["first", "second"])
+    ev_a, ev_b = ReviewLog(a).events(), ReviewLog(b).events()
+    assert ReviewLog(a).schema_version == SCHEMA_VERSION == 2
+    assert list(ev_a["text"]) == ["first", "second"]
+    assert [uuid.UUID(u).version for u in ev_a["uuid"]] == [5, 5]
+    assert list(ev_a["uuid"]) == list(ev_b["uuid"]) and ev_a["uuid"].is_unique
+    con = sqlite3.connect(a)
+    with pytest.raises(sqlite3.DatabaseError, match="append-only"):
+        con.execute("UPDATE events SET text = 'changed'")
+    with pytest.raises(sqlite3.DatabaseError, match="uuid"):
+        con.execute("INSERT INTO events (utc, sha256, kind, author, kit_version) "
+                    "VALUES ('t', 's', 'note', 'x', 'y')")
+    con.close()

@@ -82,14 +82,17 @@ def test_errors_go_to_the_message_bar_not_raised(tmp_path):
     assert not p.message.last.startswith("ValueError")
 
 
-def test_refresh_shows_other_reviewers(tmp_path):
-    """Events written by another reviewer (another log object) appear after refresh()."""
-    path = tmp_path / "r.sqlite"
+def test_refresh_shows_other_reviewers(new_target):
+    """The panel opened on a path or a postgresql:// URL (both back ends): events written by
+    another reviewer (another log object) appear after refresh()."""
+    target = new_target()
     caps = _caps()
-    p = review_panel(caps, ReviewLog(path), display=False)
-    ReviewLog(path).add(caps[0], "verdict", value="reject", author="other")
+    p = review_panel(caps, target, display=False)
+    ReviewLog(target).add(caps[0], "verdict", value="reject", author="other")
     p.refresh()
     assert "reject" in p.state.value and "other" in p.state.value
+    p.buttons["accept"].click()
+    assert list(ReviewLog(target).events()["value"]) == ["reject", "accept"]
 
 
 def test_needs_a_capture(tmp_path):

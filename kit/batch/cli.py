@@ -67,6 +67,9 @@ def _run_args(p: argparse.ArgumentParser) -> None:
     p.add_argument("--summary-only", action="store_true",
                    help="keep no captures in memory (very large lots): writes the summary and "
                         "provenance, an empty sweeps table and no report")
+    p.add_argument("--review-log", default=None, metavar="URL_OR_PATH",
+                   help="review log to join: a review.sqlite file or a postgresql:// URL "
+                        "(password from PGPASSWORD or ~/.pgpass)")
 
 
 def _run_cmd(args: argparse.Namespace) -> int:
@@ -77,7 +80,8 @@ def _run_cmd(args: argparse.Namespace) -> int:
         result = run(args.procedure, args.inputs, workers=args.workers, scheduler=args.scheduler,
                      cache_dir=args.cache, use_cache=not args.no_cache,
                      keep_captures=not args.summary_only)
-        out = result.write(args.out, report=not (args.no_report or args.summary_only))
+        out = result.write(args.out, report=not (args.no_report or args.summary_only),
+                           review_log=args.review_log)
     except (CaptureError, ValueError, OSError) as exc:
         print(f"sweepbook run: {exc}", file=sys.stderr)
         return 2
@@ -88,6 +92,46 @@ def _run_cmd(args: argparse.Namespace) -> int:
     return 0
 
 
+def _review_args(p: argparse.ArgumentParser) -> None:
+    sub = p.add_subparsers(dest="action", metavar="ACTION", required=True)
+    a = sub.add_parser("push", help="send a folder's review.sqlite (or a log file) to the server")
+    a.add_argument("local", metavar="FOLDER_OR_FILE")
+    a.add_argument("url", metavar="URL")
+    a = sub.add_parser("pull", help="bring the server's events into a folder's review.sqlite")
+    a.add_argument("url", metavar="URL")
+    a.add_argument("local", metavar="FOLDER_OR_FILE")
+    a = sub.add_parser("status", help="parts without a verdict, parts to retest, who decided what")
+    a.add_argument("log", metavar="URL_OR_PATH")
+    a.add_argument("--lot", default=None, help="only parts whose file lies in a folder of this name")
+    a = sub.add_parser("init", help="create the review log on the server (run once, as the "
+                                    "database owner)")
+    a.add_argument("url", metavar="URL")
+    a.add_argument("--writer", default=None, metavar="ROLE",
+                   help="role the reviewers write with: gets SELECT and INSERT only")
+
+
+def _review_cmd(args: argparse.Namespace) -> int:
+    from kit.review import sync
+    from kit.review.log import ReviewLogError
+
+    try:
+        if args.action == "push":
+            print(sync.push(args.local, args.url))
+        elif args.action == "pull":
+            print(sync.pull(args.url, args.local))
+        elif args.action == "status":
+            print(sync.status_text(sync.status(args.log, lot=args.lot)))
+        else:
+            from kit.review.server import init_server, safe_url
+
+            version = init_server(args.url, writer=args.writer)
+            print(f"{safe_url(args.url)}: review log ready (schema version {version})")
+    except (ReviewLogError, OSError) as exc:
+        print(f"sweepbook review {args.action}: {exc}", file=sys.stderr)
+        return 2
+    return 0
+
+
 #: name -> (help, add_arguments, run)
 COMMANDS: dict[str, tuple[str, Callable, Callable]] = {
     "check": ("pre-flight check of Touchstone files; exit code 1 when any has an error",
@@ -95,6 +139,8 @@ COMMANDS: dict[str, tuple[str, Callable, Callable]] = {
     "demo": ("write the demo data set", _demo_args, _demo_run),
     "run": ("run a procedure over captures; writes summary, sweeps, provenance, report",
             _run_args, _run_cmd),
+    "review": ("share the review log: push, pull, status, init (a postgresql:// server)",
+               _review_args, _review_cmd),
 }
 
 

@@ -62,20 +62,29 @@ class BatchResult:
     stats: dict = field(default_factory=dict)
     procedure: Procedure | None = None
 
-    def write(self, out_dir: str | Path, report: bool = True) -> Path:
-        """Write summary/sweeps (Parquet and CSV), provenance.json and report.html to ``out_dir``."""
+    def write(self, out_dir: str | Path, report: bool = True, review_log: Any = None) -> Path:
+        """Write summary/sweeps (Parquet and CSV), provenance.json and report.html to ``out_dir``.
+
+        ``review_log`` (a :class:`kit.ReviewLog`, a path or a ``postgresql://`` URL) adds the
+        review columns to the summary, its events to the export and the history to the report.
+        """
         from kit.outputs.handover import export
         from kit.outputs.lot_report import report as write_report
+        from kit.outputs.summary import with_review
+        from kit.review.log import as_review_log
+
+        review_log = as_review_log(review_log)
+        summ = self.summary if review_log is None else with_review(self.summary, review_log)
 
         ok = [c for c in self.captures if isinstance(c, Capture)]
         settings = {"procedure": self.procedure.to_dict() if self.procedure else None,
                     "procedure_source": getattr(self.procedure, "source", None),
                     "run": self.stats}
         corrected = [c for c in self.corrected if c is not None]
-        out = export(out_dir, self.captures, summary=self.summary, settings=settings,
-                     corrected=corrected or None)
+        out = export(out_dir, self.captures, summary=summ, settings=settings,
+                     corrected=corrected or None, review_log=review_log)
         if report:
-            write_report(Path(out) / "report.html", ok, summary=self.summary,
+            write_report(Path(out) / "report.html", ok, summary=summ, review_log=review_log,
                          limits=self.procedure.limits_object() if self.procedure else None)
         return Path(out)
 

@@ -129,7 +129,8 @@ def _provenance(caps: list[Any], real: list[Capture], corrected: Any, settings: 
                     for c in caps if isinstance(c, BaseException)],
         "corrected": _corrected_info(real, corrected),
         "settings": _jsonable(dict(settings or {})),
-        "review_log": None if review_log is None else str(review_log.path),
+        # a file path, or the server URL without password (kit.review.server.safe_url)
+        "review_log": None if review_log is None else review_log.location,
         "tables": tables,
     }
 
@@ -160,7 +161,9 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
         If ``out_dir`` is a folder of input captures, a file, or a foreign folder.
     """
     from kit.outputs.summary import summary as lot_summary
+    from kit.review.log import as_review_log
 
+    review_log = as_review_log(review_log)
     out = Path(out_dir)
     caps = as_list(captures)
     real = [c for c in caps if isinstance(c, Capture)]

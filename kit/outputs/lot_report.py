@@ -143,7 +143,7 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
     summary : pandas.DataFrame, optional
         A :func:`kit.summary` table; built from the captures (with ``limits`` and
         ``review_log``) when absent.
-    review_log : kit.ReviewLog, optional
+    review_log : kit.ReviewLog, path or ``postgresql://`` URL, optional
         Its state and each capture's history are shown.
     limits : kit.Limits or path, optional
         Used for the summary when it is built here, and drawn on the figures.
@@ -158,7 +158,9 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
     """
     from kit import __version__
     from kit.review.limits import Limits, load_limits
+    from kit.review.log import as_review_log
 
+    review_log = as_review_log(review_log)
     out = Path(out_path)
     caps = as_list(captures)
     real = [c for c in caps if isinstance(c, Capture)]

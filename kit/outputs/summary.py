@@ -162,7 +162,7 @@ def summary(captures: Any, fits: Any = None, resonances: Any = None, limits: Any
         check a margin column in the check's unit (``fs_margin_hz`` for a bound on
         ``fs_hz``, ``mask_<name>_margin_ohm`` or ``_db`` for a mask) and a relative one
         (``fs_margin_rel``, ``mask_<name>_margin_rel``).
-    review_log : kit.ReviewLog, optional
+    review_log : kit.ReviewLog, path or ``postgresql://`` URL, optional
         Adds ``review_verdict``, ``review_author``, ``review_utc``, ``review_notes``,
         ``review_last_note``, ``review_tags`` and ``retest_requested``.
 
@@ -190,6 +190,9 @@ def summary_rows(captures: Any, fits: Any = None, resonances: Any = None, limits
     if limits is not None and not isinstance(limits, Limits):
         limits = load_limits(limits)
     caps = as_list(captures)
+    from kit.review.log import as_review_log
+
+    review_log = as_review_log(review_log)
     state = None if review_log is None else review_log.state().set_index("sha256")
     rows = []
     for i, cap in enumerate(caps):
@@ -218,6 +221,20 @@ def summary_rows(captures: Any, fits: Any = None, resonances: Any = None, limits
             row.update(_review_columns(state, row.get("sha256")))
         rows.append(row)
     return rows
+
+
+def with_review(frame: Any, review_log: Any):
+    """``frame`` (a summary table) with the review columns of :func:`summary` from
+    ``review_log`` (a :class:`kit.ReviewLog`, a path or a ``postgresql://`` URL) joined on
+    ``sha256``; the columns are replaced when present."""
+    import pandas as pd
+
+    from kit.review.log import as_review_log
+
+    state = as_review_log(review_log).state().set_index("sha256")
+    cols = pd.DataFrame([_review_columns(state, sha) for sha in frame["sha256"]],
+                        index=frame.index)
+    return pd.concat([frame.drop(columns=[c for c in cols if c in frame]), cols], axis=1)
 
 
 def summary_frame(rows: list[dict[str, Any]]):

@@ -14,9 +14,10 @@ other's events on :meth:`ReviewPanel.refresh`.
 from __future__ import annotations
 
 import html
+import os
 from typing import Any
 
-from kit.review.log import ReviewLog, current_user
+from kit.review.log import ReviewLog, as_review_log, current_user
 from kit.ui.common import MessageBar, classed, show
 
 VERDICT_BUTTONS = (("accept", "Accept", "success", "check"),
@@ -73,7 +74,7 @@ class ReviewPanel:
         Error messages (class ``sb-message``).
     """
 
-    def __init__(self, captures: Any, log: ReviewLog | str) -> None:
+    def __init__(self, captures: Any, log: ReviewLog | str | os.PathLike) -> None:
         import ipywidgets as w
 
         from kit.capture import Capture
@@ -82,7 +83,7 @@ class ReviewPanel:
         self.captures = [c for c in as_list(captures) if isinstance(c, Capture)]
         if not self.captures:
             raise ValueError("the review panel needs at least one loadable capture")
-        self.log = log if isinstance(log, ReviewLog) else ReviewLog(log)
+        self.log = as_review_log(log)
         self.message = MessageBar()
         g = self.message.guard
         self.selector = classed(w.Dropdown(options=[(c.name, i) for i, c in
@@ -178,14 +179,15 @@ class ReviewPanel:
         self.history.value = history_html(ev)
 
 
-def review_panel(captures: Any, log: ReviewLog | str, display: bool = True) -> ReviewPanel:
+def review_panel(captures: Any, log: ReviewLog | str | os.PathLike,
+                 display: bool = True) -> ReviewPanel:
     """Build (and show) the review panel of a lot.
 
     Parameters
     ----------
     captures : list of Capture, or a :func:`kit.load_folder` table
-    log : kit.ReviewLog or path
-        e.g. ``kit.ReviewLog.for_folder("demo_data/lot")``.
+    log : kit.ReviewLog, path or ``postgresql://`` URL
+        e.g. ``kit.ReviewLog.for_folder("demo_data/lot")`` or the team's server.
     display : bool
         Show the panel in the notebook; ``False`` only builds it (tests, composition).
 
