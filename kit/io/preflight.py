@@ -130,7 +130,9 @@ def scan_text(text: str, path: str, scan: Scan | None = None) -> Scan:
     scan = scan or Scan(path=path)
     scan.text = text
     suffix_ports = _ports_from_name(path, scan)
-    lines = text.splitlines()
+    # lines end at CR, LF or CR LF only (as the specification and scikit-rf's reader have
+    # it), not at the other breaks of str.splitlines (form feed, U+2028, ...)
+    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
     if not any(ln.strip() for ln in lines):
         scan.add("error", "the file is empty", None, "re-export the capture from the analyser",
                  "empty")
@@ -347,7 +349,7 @@ def scan_bytes(data: bytes, path: Path) -> Scan:
         return scan
     try:
         return scan_text(text, str(path), scan)
-    except Exception as exc:  # noqa: BLE001 - the scan must never let a malformed file escape
-        scan.add("error", f"the file could not be scanned ({type(exc).__name__}: {exc})", None,
-                 None, "scan-failed")
+    except Exception:  # noqa: BLE001 - the scan must never let a malformed file escape
+        scan.add("error", "the check stopped on a form of the file it does not know", None,
+                 "compare the file with the Touchstone specification", "scan-failed")
         return scan

@@ -44,39 +44,50 @@ def is_float(t: str) -> bool:
         return False
 
 
+def _noise_start(data_lines) -> int | None:
+    """Index of the first line whose frequency is below the one before (None if none)."""
+    firsts = [toks[0] if toks else "nan" for _, toks in data_lines]
+    try:
+        fv = np.array(firsts, dtype=float)
+    except ValueError:
+        fv = np.array([float(t) if is_float(t) else np.nan for t in firsts])
+    drop = np.flatnonzero(fv[1:] < fv[:-1])
+    return int(drop[0]) + 1 if drop.size else None
+
+
 def _line_records(scan, data_lines, per: int):
     """Version 1 one- and two-ports: one record per line; a two-port's noise block starts
     where the frequency falls (the rule of scikit-rf's reader: strictly lower)."""
     n = scan.nports
-    records, noise = [], []
-    for idx, (ln, toks) in enumerate(data_lines):
-        if n == 2 and records and toks and is_float(toks[0]) and is_float(records[-1][1][0]) \
-                and float(toks[0]) < float(records[-1][1][0]):
-            if len(toks) != NOISE_VALUES:
-                scan.add("error", f"frequency {toks[0]} is lower than the one before: "
-                         "frequencies must rise (a falling frequency starts a two-port's noise "
-                         f"block, but this line has {len(toks)} values)", ln,
-                         "sort the data by frequency or split the file", "decreasing")
-                return None, None
-            noise = data_lines[idx:]
-            break
-        if len(toks) != per:
-            other = _other_port_count(len(toks))
-            if idx == len(data_lines) - 1 and len(toks) < per:
-                msg = f"the last data line has {len(toks)} of {per} values: the file is truncated"
-                fix, code = "re-export the capture; the file was cut short", "truncated"
-            elif other is not None and other != n:
-                msg = (f"data line has {len(toks)} values, which fits {other}-port data, "
-                       f"but the file name says {n} port(s) (expected {per})")
-                fix, code = f"rename the file .s{other}p if it holds {other}-port data", "columns"
-            else:
-                msg = f"data line has {len(toks)} values; {n}-port data needs {per}"
-                fix = "check the export settings; each line needs frequency plus 2 values per S-term"
-                code = "columns"
-            scan.add("error", msg, ln, fix, code)
-            return None, None
-        records.append((ln, toks))
-    return records, noise
+    noise = []
+    start = _noise_start(data_lines) if n == 2 and len(data_lines) > 1 else None
+    if start is not None:
+        data_lines, noise = data_lines[:start], data_lines[start:]
+    bad = next((i for i, (_, toks) in enumerate(data_lines) if len(toks) != per), None)
+    if bad is None and noise and len(noise[0][1]) != NOISE_VALUES:
+        ln, toks = noise[0]
+        scan.add("error", f"frequency {toks[0]} is lower than the one before: frequencies must "
+                 "rise (a falling frequency starts a two-port's noise block, but this line has "
+                 f"{len(toks)} values)", ln, "sort the data by frequency or split the file",
+                 "decreasing")
+        return None, None
+    if bad is not None:
+        ln, toks = data_lines[bad]
+        other = _other_port_count(len(toks))
+        if bad == len(data_lines) - 1 and not noise and len(toks) < per:
+            msg = f"the last data line has {len(toks)} of {per} values: the file is truncated"
+            fix, code = "re-export the capture; the file was cut short", "truncated"
+        elif other is not None and other != n:
+            msg = (f"data line has {len(toks)} values, which fits {other}-port data, "
+                   f"but the file name says {n} port(s) (expected {per})")
+            fix, code = f"rename the file .s{other}p if it holds {other}-port data", "columns"
+        else:
+            msg = f"data line has {len(toks)} values; {n}-port data needs {per}"
+            fix = "check the export settings; each line needs frequency plus 2 values per S-term"
+            code = "columns"
+        scan.add("error", msg, ln, fix, code)
+        return None, None
+    return data_lines, noise
 
 
 def _stream_records(scan, data_lines, per: int):

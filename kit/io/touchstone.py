@@ -172,7 +172,7 @@ def _read_network(scan: Scan, path: Path):
     except np.linalg.LinAlgError:
         scan.add("error", f"the {param}-parameters cannot be converted to S-parameters: the "
                  "matrix is singular at some frequency", None,
-                 f"check the {param} values, or export S-parameters", "reader")
+                 f"check the {param} values, or export S-parameters", "singular")
         return None
     except Exception:  # noqa: BLE001 - the scan checks what the reader needs; a safety net
         scan.add("error", "the Touchstone reader could not read the file, although the "
