@@ -87,6 +87,11 @@ WARNING_CASES = {
     "per-port-reference": ("x.ts", "[Version] 2.0\n# Hz S RI\n[Number of Ports] 2\n"
                            "[Number of Frequencies] 1\n[Reference] 50 75\n[Network Data]\n"
                            "1e6 0.1 0 0.9 0 0.9 0 0.1 0\n[End]\n"),
+    "unknown-keyword": ("x.ts", "[Version] 2.0\n# Hz S RI\n[Number of Ports] 1\n[Colour] blue\n"
+                        "[Number of Frequencies] 1\n[Network Data]\n1e6 0.1 0\n[End]\n"),
+    "end-text": ("x.ts", "[Version] 2.0\n# Hz S RI\n[Number of Ports] 1\n"
+                 "[Number of Frequencies] 1\n[Network Data]\n1e6 0.1 0\n[End]\n2e6 0.2 0\n"),
+    "repeated-option-token": ("x.s1p", GOOD_S1P.replace("# Hz S MA R 50", "# Hz S MA MA R 50")),
     "one-path": ("x.s2p", GOOD_S2P.replace("0.9 0.0 0.9 0.0 0.1 0.0", "0.9 0.0 0 0 0 0")
                  .replace("0.8 0.1 0.8 0.1 0.2 0.1", "0.8 0.1 0 0 0 0")
                  .replace("0.7 0.2 0.7 0.2 0.3 0.2", "0.7 0.2 0 0 0 0")
@@ -471,3 +476,24 @@ def test_touchstone_cases_read_as_scikit_rf_reads_them():
                                    atol=0, err_msg=p.name)
         compared += 1
     assert compared >= 20
+
+
+def test_port_impedance_matrix_blocks_as_scikit_rf_reads_them(tmp_path):
+    """Field-solver style comments: a full N x N '! Port Impedance' matrix (diagonal per port),
+    continued on a comment line of numbers only, beside '! Gamma' lines: frequency, S, z0 and
+    the S-parameter definition as scikit-rf's reader gives them (skrf.io.touchstone.Touchstone)."""
+    text = ("! Terminal data exported\n# GHz S MA R 50\n1 0.5 10 0.1 20 0.1 20 0.5 10\n"
+            "! Gamma 0 1 0 1\n! Port Impedance 48 1 0.5 0 0.5 0\n! 49 2\n"
+            "2 0.5 11 0.1 21 0.1 21 0.5 11\n! Gamma 0 1 0 1\n"
+            "! Port Impedance 47 1 0.5 0 0.5 0 46 3\n")
+    p = write(tmp_path, "solver.s2p", text)
+    f, s, z0, s_def = _skrf_arrays(p)
+    cap = kit.load(p)
+    np.testing.assert_array_equal(cap.f_hz, f)
+    np.testing.assert_allclose(cap.s, s, rtol=1e-12, atol=0)
+    np.testing.assert_allclose(cap.network.z0, z0, rtol=1e-12, atol=0)
+    assert cap.network.s_def == s_def
+    # one block missing: refused by the check with the line of the first block
+    p = write(tmp_path, "short.s2p", text.replace("! Port Impedance 47 1 0.5 0 0.5 0 46 3\n", ""))
+    (err,) = [f for f in kit.check(p) if f.severity == "error"]
+    assert err.code == "port-impedance" and err.line == 5 and err.fix
