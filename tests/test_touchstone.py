@@ -497,3 +497,22 @@ def test_port_impedance_matrix_blocks_as_scikit_rf_reads_them(tmp_path):
     p = write(tmp_path, "short.s2p", text.replace("! Port Impedance 47 1 0.5 0 0.5 0 46 3\n", ""))
     (err,) = [f for f in kit.check(p) if f.severity == "error"]
     assert err.code == "port-impedance" and err.line == 5 and err.fix
+
+
+@pytest.mark.parametrize("order", ["", "[Two-Port Data Order] 21_12\n", "[Two-Port Data Order] 12_21\n"])
+@pytest.mark.parametrize("fmt", ["Upper", "Lower"])
+def test_two_port_half_matrix_reads_as_the_full_matrix(tmp_path, order, fmt):
+    """A two-port in [Matrix Format] Upper or Lower (11 12 22 or 11 21 22) reads as the same
+    data written in full (S21 = S12), read by scikit-rf (skrf.io.touchstone.Touchstone) as the
+    reference (scikit-rf 2.2 itself fills an Upper two-port in the default 21_12 order from
+    entries it never wrote, so the half file is not read by it directly)."""
+    head = "[Version] 2.0\n# MHz S RI R 50\n[Number of Ports] 2\n" + order
+    half = (head + f"[Number of Frequencies] 2\n[Matrix Format] {fmt}\n[Network Data]\n"
+            "1 0.1 0.2 0.3 0.4 0.5 0.6\n2 0.15 0.25 0.35 0.45 0.55 0.65\n[End]\n")
+    full = (head.replace(order, "") + "[Two-Port Data Order] 12_21\n[Number of Frequencies] 2\n"
+            "[Network Data]\n1 0.1 0.2 0.3 0.4 0.3 0.4 0.5 0.6\n"
+            "2 0.15 0.25 0.35 0.45 0.35 0.45 0.55 0.65\n[End]\n")
+    f, s, z0, _ = _skrf_arrays(write(tmp_path, "full.ts", full))
+    cap = kit.load(write(tmp_path, "half.ts", half))
+    np.testing.assert_array_equal(cap.f_hz, f)
+    np.testing.assert_allclose(cap.s, s, rtol=1e-12, atol=0)

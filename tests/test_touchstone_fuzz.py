@@ -262,10 +262,13 @@ def test_ten_thousand_mutated_files_check_agrees_with_load(tmp_path):
             disagreements.append((data, name, f"check found {errors[0]}, load read it"))
         assert np.all(np.isfinite(cap.s)) and np.all(np.diff(cap.f_hz) > 0)
         if {f.code for f in cap.findings} & {"duplicate-frequency", "end-text"} or any(
-                ln.lstrip().startswith("[") and "!" in ln for ln in text_of(data).splitlines()):
+                ln.lstrip().startswith("[") and "!" in ln for ln in text_of(data).splitlines()) \
+                or (cap.ports == 2 and "MATRIX FORMAT" in cap.meta["keywords"]):
             # the kit keeps the first of repeated frequencies (scikit-rf all of them), ignores
             # text after [End] (scikit-rf reads on) and the comment of a keyword line
-            # (scikit-rf looks for "21_12" in the whole line of [Two-Port Data Order])
+            # (scikit-rf looks for "21_12" in the whole line of [Two-Port Data Order]); a
+            # two-port half matrix is compared in test_touchstone.py (scikit-rf 2.2 fills an
+            # Upper one in the 21_12 order from unwritten memory)
             continue
         ref = _skrf_reading(p)
         if ref is None:

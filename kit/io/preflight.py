@@ -275,6 +275,13 @@ def _finish(scan: Scan, st: LineState, reader: list[str], data_lines, noise_line
                  "frequency ('! Port Impedance'); the data are read against it", blocks[0][0],
                  "renormalise to a real reference before comparing with 50 ohm data",
                  "port-impedance-comments")
+    if n == 2 and scan.matrix_format != "FULL":
+        # scikit-rf 2.2 fills an Upper two-port matrix in the 21_12 order (its default) from
+        # entries it never wrote; for a symmetric matrix the order means nothing, so the
+        # reader is told 12_21, which it fills correctly
+        if "TWO-PORT DATA ORDER" in st.seen:
+            reader[st.seen["TWO-PORT DATA ORDER"] - 1] = ""
+        reader[st.seen["MATRIX FORMAT"] - 1] += "\n[Two-Port Data Order] 12_21"
     scan.reader_text = "\n".join(reader) + "\n"
     _reference_findings(scan)
     _one_path_finding(scan)
