@@ -198,8 +198,10 @@ def _read_network(scan: Scan, path: Path):
         if z0.ndim == 2 and z0.shape[0] == keep.size:
             z0 = z0[keep]
     try:
-        return skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=s, z0=z0,
-                            s_def=t.s_def or "power", name=stem_of(path))
+        with warnings.catch_warnings(record=True):
+            warnings.simplefilter("always")
+            return skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=s, z0=z0,
+                                s_def=t.s_def or "power", name=stem_of(path))
     except Exception:  # noqa: BLE001 - a safety net as above
         scan.add("error", "the data could not be made into a network, although the check "
                  "found nothing wrong in them", None, _READER_FIX, "reader")
