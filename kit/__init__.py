@@ -22,7 +22,7 @@ from kit.capture import Capture, CaptureError, Finding  # noqa: E402  (light: nu
 _EXPORTS: dict[str, str] = {
     # -- import and pre-flight (foundation)
     "load": "io.touchstone",
-    "check": "io.preflight",
+    "check": "io.touchstone",
     "load_table": "io.tables",
     "load_folder": "io.folder",
     "from_network": "capture",

@@ -22,7 +22,7 @@ def _check_args(p: argparse.ArgumentParser) -> None:
 
 def _check_run(args: argparse.Namespace) -> int:
     from kit.io.folder import touchstone_files
-    from kit.io.preflight import check
+    from kit.io.touchstone import check
 
     files: list[Path] = []
     for item in args.inputs:

@@ -21,10 +21,10 @@ import numpy as np
 from kit import __version__
 from kit.capture import Capture, CaptureError, Finding
 from kit.io.atomic import write_bytes, write_text
-from kit.io.names import parse_name
+from kit.io.names import parse_name, stem_of
 
 #: Bumped whenever the parser's output could change; old entries are then ignored.
-CACHE_FORMAT = f"1-{__version__}"
+CACHE_FORMAT = f"2-{__version__}"
 
 
 def default_cache_dir() -> Path:
@@ -144,13 +144,13 @@ class CaptureCache:
         meta["name_pattern"] = name_pattern
         meta["fields"] = {}
         if name_pattern:
-            fields, finding = parse_name(path.stem, name_pattern, str(path))
+            fields, finding = parse_name(stem_of(path), name_pattern, str(path))
             meta["fields"] = fields
             if finding is not None:
                 findings.append(finding)
         z0 = arrays["z0"] if doc["z0"] is None else complex(*doc["z0"])
         net = skrf.Network(frequency=skrf.Frequency.from_f(arrays["f_hz"], unit="hz"),
-                           s=arrays["s"], z0=z0, s_def=doc["s_def"], name=path.stem)
+                           s=arrays["s"], z0=z0, s_def=doc["s_def"], name=stem_of(path))
         return Capture(network=net, path=path, sha256=sha, meta=meta, findings=tuple(findings))
 
     # ------------------------------------------------------------------ analysis results

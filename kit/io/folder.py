@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable
 
 from kit.capture import Capture, CaptureError
+from kit.io.names import stem_of
 from kit.io.pool import run_chunks
 from kit.io.touchstone import load
 
@@ -46,7 +47,7 @@ def touchstone_files(folder: str | Path, recursive: bool = False) -> list[Path]:
 
 
 def _row(path: Path, pattern: str | None) -> tuple[dict[str, Any], Capture | None]:
-    row: dict[str, Any] = {"name": path.stem, "path": str(path)}
+    row: dict[str, Any] = {"name": stem_of(path), "path": str(path)}
     try:
         cap = load(path, name_pattern=pattern)
     except CaptureError as exc:

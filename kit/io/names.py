@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import re
 from functools import lru_cache
+from pathlib import Path
 from typing import Any
 
 from kit.capture import Finding
@@ -62,3 +63,18 @@ def parse_name(stem: str, pattern: str, path: str | None = None) -> tuple[dict[s
         return {}, Finding("warning", f"file name {stem!r} does not match the pattern {pattern!r}",
                            None, "rename the file or change the pattern", "name-pattern", path)
     return {k: _convert(v) for k, v in m.groupdict().items()}, None
+
+
+def suffix_of(path: str | Path) -> str:
+    """The extension of a file name, with the dot: ``".s2p"`` also for a file named only
+    ``.s2p`` (which :attr:`pathlib.Path.suffix` takes for a hidden file without one)."""
+    name = Path(path).name
+    if name.startswith(".") and name.count(".") == 1:
+        return name
+    return Path(name).suffix
+
+
+def stem_of(path: str | Path) -> str:
+    """The file name without its extension (``""`` for a file named only ``.s2p``)."""
+    name = Path(path).name
+    return name[: len(name) - len(suffix_of(name))]

@@ -2,8 +2,10 @@
 
 The file is first scanned by :mod:`kit.io.preflight`. Only a file without error-level
 findings is handed to scikit-rf's ``skrf.io.touchstone.Touchstone`` reader, called directly
-on the decoded text: never through ``skrf.Network(path)``, which tries to unpickle a file
-before reading it as text.
+on the text the scan checked (option line and keywords in canonical form, see
+:func:`kit.io.preflight.scan_text`): never through ``skrf.Network(path)``, which tries to
+unpickle a file before reading it as text. :func:`check` and :func:`load` run the same two
+steps (:func:`examine`), so a file has an error-level finding exactly when it is refused.
 
 References
 ----------
@@ -22,15 +24,15 @@ from typing import Any
 
 import numpy as np
 
-from kit.capture import Capture, CaptureError
-from kit.io.names import parse_name
+from kit.capture import Capture, CaptureError, Finding
+from kit.io.names import parse_name, stem_of, suffix_of
 from kit.io.preflight import Scan, read_bytes, scan_bytes
 
 _DATE_RE = re.compile(r"(\d{4}-\d{2}-\d{2}(?:[ T]\d{2}:\d{2}(?::\d{2})?)?|\d{1,2}/\d{1,2}/\d{2,4})")
 _CORR_RE = re.compile(r"\b(correction|calibration|cal)\b\s*[:=]?\s*(.*)", re.IGNORECASE)
 
 
-def header_meta(scan: Scan) -> dict[str, Any]:
+def header_meta(scan: Scan, network=None) -> dict[str, Any]:
     """Metadata from a scan: comments verbatim and the keys a header states."""
     meta: dict[str, Any] = {
         "comments": list(scan.comments),
@@ -39,7 +41,9 @@ def header_meta(scan: Scan) -> dict[str, Any]:
         "version": scan.version,
         "keywords": dict(scan.keywords),
     }
-    if scan.reference is not None:
+    if scan.port_impedance:  # per frequency: the first frequency's real parts here
+        meta["reference_ohm"] = [float(np.real(z)) for z in np.asarray(network.z0)[0]]
+    elif scan.reference is not None:
         meta["reference_ohm"] = list(scan.reference)
     else:
         meta["reference_ohm"] = [scan.option.get("r_ohm", 50.0)] * (scan.nports or 1)
@@ -85,17 +89,16 @@ def load(path: str | Path, name_pattern: str | None = None) -> Capture:
     """
     path = Path(path)
     data = read_bytes(path)
-    scan = scan_bytes(data, path)
+    scan, network = examine(data, path)
     errors = [f for f in scan.findings if f.severity == "error"]
     if errors:
         first = errors[0]
         raise CaptureError(first.message + (f" (fix: {first.fix})" if first.fix else ""),
                            path, first.line, errors)
-    network = _read_network(scan, path)
-    findings = [f for f in scan.findings if f.severity != "error"]
-    meta = header_meta(scan)
+    meta = header_meta(scan, network)
+    findings = list(scan.findings)
     if name_pattern:
-        fields, finding = parse_name(path.stem, name_pattern, str(path))
+        fields, finding = parse_name(stem_of(path), name_pattern, str(path))
         meta["fields"] = fields
         if finding is not None:
             findings.append(finding)
@@ -106,40 +109,100 @@ def load(path: str | Path, name_pattern: str | None = None) -> Capture:
                    meta=meta, findings=tuple(findings))
 
 
+def check(path: str | Path) -> list[Finding]:
+    """Pre-flight check of one Touchstone file.
+
+    The same steps as :func:`load` (the line scan, then the reader), so the result has an
+    error-level finding exactly when :func:`load` raises.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file (``.s1p`` ... ``.sNp`` or ``.ts``, any letter case).
+
+    Returns
+    -------
+    list of Finding
+        Errors (the file cannot be trusted), warnings (it loads, but say so) and
+        information, each with the line where it applies and a suggested fix.
+
+    References
+    ----------
+    .. [1] IBIS Open Forum, *Touchstone File Format Specification*, Version 2.0 (2009).
+    """
+    path = Path(path)
+    try:
+        data = read_bytes(path)
+    except CaptureError as exc:
+        return [Finding("error", exc.reason, None, None, "unreadable", str(path))]
+    return examine(data, path)[0].findings
+
+
+def examine(data: bytes, path: Path) -> tuple[Scan, Any]:
+    """Scan a file's bytes and, without error findings, read them: ``(scan, network)``.
+
+    A refusal of the reader becomes an error finding of the scan (network None); nothing
+    is raised for a malformed file. This is the one path of :func:`check` and :func:`load`.
+    """
+    scan = scan_bytes(data, path)
+    if scan.has_error:
+        return scan, None
+    return scan, _read_network(scan, path)
+
+
+_READER_FIX = ("compare the header and the data with the Touchstone specification (option "
+               "line, keywords, values per frequency)")
+
+
 def _read_network(scan: Scan, path: Path):
+    """scikit-rf's reader on the scan's text; a refusal becomes an error finding (None)."""
     import skrf
     from skrf.io.touchstone import Touchstone
 
-    sio = io.StringIO(scan.text)
+    sio = io.StringIO(scan.reader_text)
     # scikit-rf takes the port count of a version 1 file from the name's extension
-    suffix = path.suffix.lower()
-    sio.name = str(path.with_suffix(suffix)) if suffix else str(path)
+    sio.name = "capture" + (suffix_of(path).lower() or ".ts")
+    param = scan.option.get("parameter", "S")
     try:
-        with warnings.catch_warnings(record=True):
+        with warnings.catch_warnings(record=True), np.errstate(all="ignore"):
             warnings.simplefilter("always")
             t = Touchstone(sio)
             f, s = t.get_sparameter_arrays()
             z0 = np.asarray(t.z0)
-            s_def = t.s_def or "power"
-            npts = f.size
-            if f.size > 1 and np.any(np.diff(f) == 0):
-                # repeated frequencies: keep the first of each (the scan reported how many)
-                keep = np.concatenate(([True], np.diff(f) > 0))
-                f, s = f[keep], s[keep]
-                if z0.ndim == 2 and z0.shape[0] == npts:
-                    z0 = z0[keep]
-            net = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=s, z0=z0,
-                               s_def=s_def, name=path.stem)
-    except CaptureError:
-        raise
-    except Exception as exc:  # noqa: BLE001 - reader errors become a CaptureError naming the file
-        raise CaptureError(f"the Touchstone reader refused the file: {type(exc).__name__}: {exc}",
-                           path) from None
-    if net.nports != scan.nports or npts != len(scan.freqs):
-        raise CaptureError(
-            f"the reader found {net.nports} port(s) x {net.frequency.npoints} points, the scan "
-            f"{scan.nports} x {len(scan.freqs)}; the file is ambiguous", path)
-    if not np.all(np.isfinite(net.s)):
-        raise CaptureError("the data convert to non-finite S-parameters (for example Z data "
-                           "with a singular point)", path)
-    return net
+    except np.linalg.LinAlgError:
+        scan.add("error", f"the {param}-parameters cannot be converted to S-parameters: the "
+                 "matrix is singular at some frequency", None,
+                 f"check the {param} values, or export S-parameters", "singular")
+        return None
+    except Exception:  # noqa: BLE001 - the scan checks what the reader needs; a safety net
+        scan.add("error", "the Touchstone reader could not read the file, although the "
+                 "check found nothing wrong in it", None, _READER_FIX, "reader")
+        return None
+    if s.shape != (len(scan.freqs), scan.nports, scan.nports) or f.shape != scan.freqs.shape:
+        scan.add("error", f"the reader found {s.shape[1]} port(s) x {f.size} points where the "
+                 f"check found {scan.nports} x {scan.freqs.size}; the file is ambiguous", None,
+                 _READER_FIX, "reader")
+        return None
+    bad = ~np.isfinite(s).all(axis=(1, 2))
+    if bad.any():
+        k = int(np.argmax(bad))
+        scan.add("error", f"the data convert to non-finite S-parameters (a {param} matrix "
+                 "without S-parameter equivalent, or a number too large)",
+                 int(scan.freq_lines[k]), "check the values on this line, or export "
+                 "S-parameters", "non-finite-s")
+        return None
+    if f.size > 1 and np.any(np.diff(f) == 0):
+        # repeated frequencies: keep the first of each (the scan reported how many)
+        keep = np.concatenate(([True], np.diff(f) > 0))
+        f, s = f[keep], s[keep]
+        if z0.ndim == 2 and z0.shape[0] == keep.size:
+            z0 = z0[keep]
+    try:
+        with warnings.catch_warnings(record=True):
+            warnings.simplefilter("always")
+            return skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=s, z0=z0,
+                                s_def=t.s_def or "power", name=stem_of(path))
+    except Exception:  # noqa: BLE001 - a safety net as above
+        scan.add("error", "the data could not be made into a network, although the check "
+                 "found nothing wrong in them", None, _READER_FIX, "reader")
+        return None
