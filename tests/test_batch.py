@@ -95,9 +95,14 @@ def test_processes_and_dask_give_identical_summaries(lot):
     batch.CHUNK = 2
     try:
         procs = run(proc, d, workers=2, use_cache=False)
-        with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                      dashboard_address=None) as cluster, \
-                distributed.Client(cluster) as client:
+        import dask
+
+        # generous start-up timeouts: on a loaded machine the worker processes start slowly
+        with dask.config.set({"distributed.comm.timeouts.connect": "120s",
+                              "distributed.comm.timeouts.tcp": "120s"}), \
+                distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                         dashboard_address=None) as cluster, \
+                distributed.Client(cluster, timeout="120s") as client:
             dask_res = run(proc, d, client=client, use_cache=False)
     finally:
         batch.CHUNK = old
