@@ -187,7 +187,10 @@ def test_component_fits():
 
 
 def test_capture_input_matches_arrays():
-    """A one-port Capture (reflection) fits to the same values as the arrays it came from."""
+    """A one-port Capture (reflection) fits to the same values as the arrays it came from.
+
+    A capture is weighted by the noise of its S11 by default ("auto"), arrays by the relative
+    error; with the same weighting and reference both give the same numbers."""
     import skrf
 
     f = np.linspace(0.9e6, 1.2e6, 401)
@@ -196,7 +199,8 @@ def test_capture_input_matches_arrays():
                         s=((z - 50) / (z + 50)).reshape(-1, 1, 1), z0=50, name="disc-1")
     cap = kit.from_network(ntwk, {})
     r = kit.fit(cap, span_hz=(0.95e6, 1.15e6))
-    ra = kit.fit((f, z), span_hz=(0.95e6, 1.15e6))
+    ra = kit.fit((f, z), span_hz=(0.95e6, 1.15e6), weighting="reflection", z0_ohm=50.0)
+    assert r.weighting == "reflection" and kit.fit((f, z)).weighting == "relative"
     assert r.name and r.n_points == ra.n_points
     for k in FIX_A:
         assert r.params[k] == pytest.approx(ra.params[k], rel=1e-6)
