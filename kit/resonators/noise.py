@@ -24,9 +24,9 @@ points (real and imaginary parts together) divided by 0.4549, the median of a ch
 variable with one degree of freedom, i.e. the square of the normalised median absolute
 deviation 1.4826 MAD (for complex data |d|^2 is 2 s^2 times an exponential variable, whose
 sample median of n = 2m + 1 values has the expectation H_n - H_m, H the harmonic numbers, a
-property of order statistics of the exponential distribution [3]). Points whose differences still carry curvature or an outlier are the
-minority of a window and do not move its median; a weighting whose shape does not match the
-noise is handled because the estimate is local.
+property of order statistics of the exponential distribution [3]). Points whose differences
+still carry curvature or an outlier are the minority of a window and do not move its median;
+a weighting whose shape does not match the noise is handled because the estimate is local.
 
 References
 ----------
