@@ -14,6 +14,7 @@ import kit
 from kit.resonators.fitting import FitResult
 from kit.resonators.physical import bar_fp_hz
 from kit.resonators.registry import get_model
+from kit.resonators.solve import NOISE_FACTOR
 
 FIX_A = {"C0": 1e-9, "R1": 7.9577471546, "L1": 1.2665147955e-4, "C1": 2e-10}
 BVD = get_model("bvd")
@@ -141,9 +142,53 @@ def test_multi_mode_fit():
     for k, v in p.items():
         assert abs(r.params[k] - v) < 4 * r.stderr[k], k
     assert r.derived["fs2_hz"] == pytest.approx(1.3e6, rel=1e-4)
-    # the single-branch model on the same data is flagged, not silently accepted
+    # the single-branch model on the same data is flagged, not silently accepted: its
+    # residual is far above the noise read from the data, so its errors are inflated
     bad = kit.fit(f, z=z, model="bvd")
     assert not bad.ok or "systematic-residual" in bad.flags
+    assert bad.residual_to_noise > NOISE_FACTOR and "errors-inflated" in bad.flags
+    assert "poor-fit" in bad.flags and not bad.ok  # residual_rel above the 5 % default too
+    assert r.residual_to_noise < 1.2 and "errors-inflated" not in r.flags
+
+
+def test_high_q_fork_reaches_the_noise_floor():
+    """A 32 kHz fork (Qm 10,000-60,000) at its matched reference fits to the noise floor,
+    with a noise estimate that matches the generator's and errors that cover the truth."""
+    # Generator and sources: tests/test_fit_coverage.py (BVD of ANSI/IEEE Std 176-1987,
+    # S11 = (Z - Z0)/(Z + Z0) from Pozar, complex Gaussian noise of known sigma).
+    from test_fit_coverage import _expected_noise_rms, synthetic_capture
+
+    rng = np.random.default_rng(12)
+    for _ in range(4):
+        cap, p, sigma, z0 = synthetic_capture(rng, "fork")
+        r = kit.fit(cap, keep_data=False)
+        assert r.ok and not r.flags, r.report()
+        assert r.weighting == "reflection"
+        assert r.residual_to_noise < 1.15, r.report()
+        expected = _expected_noise_rms(p, np.asarray(cap.network.f), sigma, z0)
+        assert r.noise_rms == pytest.approx(expected, rel=0.2)
+        truth = dict(p, **BVD.derived(p))
+        for k in ("C0", "R1", "L1", "C1", "qm"):
+            val, err = r.params.get(k, r.derived.get(k)), r.stderr.get(k, r.derived_stderr.get(k))
+            assert abs(val - truth[k]) < 4 * err, (k, r.report())
+        assert r.nfev + r.njev <= 30
+        d = r.to_dict()
+        assert d["noise_rms"] == pytest.approx(r.noise_rms) and "residual_to_noise" in d
+
+
+def test_derived_errors_follow_the_full_covariance():
+    """The error of fs is the delta-method propagation of the L1, C1 covariance."""
+    # fs = 1/(2 pi sqrt(L1 C1)) (ANSI/IEEE Std 176-1987, methods sheet 2.1), so
+    # var(ln fs) = (var ln L1 + var ln C1 + 2 cov(ln L1, ln C1))/4: the first-order
+    # propagation (delta method, common practice, no source) written out by hand.
+    f = np.linspace(0.9e6, 1.2e6, 801)
+    r = kit.fit(f, z=_noisy(np.random.default_rng(8), BVD.z(f, FIX_A), 2e-3))
+    el, ec = r.stderr["L1"] / r.params["L1"], r.stderr["C1"] / r.params["C1"]
+    rho = r.correlation["L1"]["C1"]
+    assert rho < -0.9  # L1 and C1 trade against each other at fixed fs
+    rel_fs = 0.5 * np.sqrt(el**2 + ec**2 + 2 * rho * el * ec)
+    assert r.derived_stderr["fs_hz"] / r.fs_hz == pytest.approx(rel_fs, rel=1e-3)
+    assert rel_fs < 0.2 * min(el, ec)  # the correlation matters: fs is far better known
 
 
 def test_pzt_bar_real_data(realdata):

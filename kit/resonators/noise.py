@@ -102,7 +102,7 @@ def difference_variance(y, shape=None, *, order: int = 4, window: int = 41) -> n
     wins = sliding_window_view(padded, 2 * half + 1)
     with warnings.catch_warnings():  # a window of non-finite points gives NaN, said below
         warnings.simplefilter("ignore", RuntimeWarning)
-        med = np.nanmedian(wins, axis=1)
+        med = np.median(wins, axis=1) if np.all(np.isfinite(e2)) else np.nanmedian(wins, axis=1)
     if np.iscomplexobj(e):
         # |e|^2 = re^2 + im^2 is 2 s^2 times an exponential variable, whose sample median
         # of n = 2 m + 1 values has the expectation H_n - H_m (harmonic numbers; ln 2 for
