@@ -359,7 +359,8 @@ def test_fit_lot_serial_and_parallel(tmp_path):
     assert list(serial["name"]) == list(lot)
     assert list(serial["ok"]) == [True] * 4 + [False, False]
     assert "edge" in serial.loc[4, "error"] and "missing" in serial.loc[5, "error"]
-    assert {"C0", "C0_stderr", "fs_hz", "fs_hz_stderr", "flags"} <= set(serial.columns)
+    assert {"C0", "C0_stderr", "fs_hz", "fs_hz_stderr", "flags", "noise_rms",
+            "residual_to_noise"} <= set(serial.columns)
     par = kit.fit_lot(lot, workers=2, progress=False)
     np.testing.assert_allclose(par["C0"][:4], serial["C0"][:4], rtol=1e-12)
     assert list(par["ok"]) == list(serial["ok"])
