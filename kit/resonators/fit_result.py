@@ -92,6 +92,9 @@ class FitResult(Result):
         e.g. "at-bound:R2", "not-converged", "poor-fit", "span-too-narrow".
     reason : str
         Why ``ok`` is False (empty when ok).
+    start : dict
+        The first start value tried (from the data, or the caller's); restarts from further
+        start values are counted in ``nfev`` and ``njev``.
 
     A :class:`kit.results.Result` whose ``to_dict()`` is strict JSON (NaN and inf become None,
     read back as NaN by ``from_dict``), as fits are written with ``allow_nan=False``.

@@ -223,7 +223,7 @@ def solve(mdl, f, z, starts, scale, max_nfev, poor_fit, common) -> FitResult:
     if best is None:
         return failed(mdl.name, f"solver failed: {error}", "not-converged",
                       start=starts[0], **common)
-    p0, sol = best
+    sol = best[1]
     # final pass with the weights of the fitted model instead of the noisy data
     zm = mdl.z(f, dict(zip(names, np.exp(sol.x))))
     sigma_m = scale(zm)
@@ -241,7 +241,7 @@ def solve(mdl, f, z, starts, scale, max_nfev, poor_fit, common) -> FitResult:
             prob.w = w
             prob._key = None
     return _assess(mdl, f, y, sol, prob, lo, hi, var, tau2, sigma_y, poor_fit,
-                   dict(common, start=dict(p0), nfev=nfev, njev=njev))
+                   dict(common, start=dict(starts[0]), nfev=nfev, njev=njev))
 
 
 def _assess(mdl, f, y, sol, prob, lo, hi, var, tau2, sigma_y, poor_fit, common) -> FitResult:
