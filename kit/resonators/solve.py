@@ -17,6 +17,10 @@ Method
   it restarts from the next one (the admittance circle, the closed forms, a start
   perturbed from the best point so far) and keeps the lowest residual. A fit at the noise
   floor stops after the first start.
+* **Weights from the model.** The weighting's sigma_Y is first computed from the measured
+  impedance, whose noise then enters the weights (most where |1 + S11| is small); a final
+  pass from the best point re-weights with sigma_Y of the fitted model (one step of
+  iteratively re-weighted least squares; common practice, no source).
 * **Uncertainties.** cov(theta) = s^2 (J^T J)^-1 with the residual variance
   s^2 = sum r^2 / (2N - P) (the reduced chi-square scaling). Where the weighting does not
   follow the noise (the noise of the points differs from sigma_Y by more than a constant
