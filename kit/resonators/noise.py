@@ -54,7 +54,7 @@ __all__ = ["MEDIAN_CHI2_1", "difference_variance", "mean_variance", "noise_rms"]
 MEDIAN_CHI2_1 = 0.454936423119572
 
 
-def difference_variance(y, shape=None, *, order: int = 4, window: int = 41) -> np.ndarray:
+def difference_variance(y, shape=None, *, order: int = 4, window: int = 21) -> np.ndarray:
     """Noise variance per point and per real component, from finite differences.
 
     Parameters
