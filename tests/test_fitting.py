@@ -194,6 +194,25 @@ def test_high_q_fork_reaches_the_noise_floor():
         assert d["noise_rms"] == pytest.approx(r.noise_rms) and "residual_to_noise" in d
 
 
+def test_restarts_rescue_a_poor_start_value():
+    """From a poor start (C0 x3, R1 x5, fs 0.05 % = some 20 bandwidths off, 30 evaluations at
+    most) the residual stays above the noise, so the fit restarts from the admittance circle
+    and reaches the floor."""
+    # Generator and sources: tests/test_fit_coverage.py; the truth is the generator's.
+    from test_fit_coverage import synthetic_capture
+
+    rng = np.random.default_rng(12)
+    cap, p, _sigma, _z0 = synthetic_capture(rng, "fork")
+    bad = {"C0": 3 * p["C0"], "R1": 5 * p["R1"], "L1": 1.02 * p["L1"],
+           "C1": p["C1"] * 1.001 / 1.02}
+    r = kit.fit(cap, start=bad, max_nfev=30, keep_data=False)
+    assert r.start == pytest.approx(bad)  # the caller's start is the first one tried
+    assert r.nfev > 30  # more than one start was needed
+    assert r.ok and not r.flags and r.residual_to_noise < 1.15, r.report()
+    for k, v in p.items():
+        assert abs(r.params[k] - v) < 4 * r.stderr[k], (k, r.report())
+
+
 def test_derived_errors_follow_the_full_covariance():
     """The error of fs is the delta-method propagation of the L1, C1 covariance."""
     # fs = 1/(2 pi sqrt(L1 C1)) (ANSI/IEEE Std 176-1987, methods sheet 2.1), so

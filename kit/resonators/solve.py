@@ -105,9 +105,9 @@ class _Problem:
         key = th.tobytes()
         if key != self._key:
             names = self.mdl.params
-            p = dict(zip(names, np.exp(th)))
-            zm, dz = self.mdl.z_and_jac(self.f, p)
-            with np.errstate(all="ignore"):
+            with np.errstate(all="ignore"):  # the solver may try far-off points: inf, nan
+                p = dict(zip(names, np.exp(th)))
+                zm, dz = self.mdl.z_and_jac(self.f, p)
                 r = (1.0 / zm - self.y) * self.w
                 cols = np.array([-(dz[n] / zm**2) * p[n] * self.w for n in names])
             res = np.concatenate([r.real, r.imag])
@@ -231,8 +231,9 @@ def solve(mdl, f, z, starts, scale, max_nfev, poor_fit, common) -> FitResult:
                       start=starts[0], **common)
     sol = best[1]
     # final pass with the weights of the fitted model instead of the noisy data
-    zm = mdl.z(f, dict(zip(names, np.exp(sol.x))))
-    sigma_m = scale(zm)
+    with np.errstate(all="ignore"):
+        zm = mdl.z(f, dict(zip(names, np.exp(sol.x))))
+        sigma_m = scale(zm)
     if np.all(np.isfinite(sigma_m) & (sigma_m > 0)):
         prob.w = 1.0 / sigma_m
         prob._key = None
@@ -283,9 +284,9 @@ def _assess(mdl, f, y, sol, prob, lo, hi, var, tau2, sigma_y, poor_fit, common) 
     cov_fixed = cov.copy()  # parameters at a bound enter the propagation as fixed
     cov_fixed[at_bound, :] = 0.0
     cov_fixed[:, at_bound] = 0.0
-    derived, derived_sd = derived_errors(mdl, th, cov_fixed)
-    zm = mdl.z(f, params)
     with np.errstate(all="ignore"):
+        derived, derived_sd = derived_errors(mdl, th, cov_fixed)
+        zm = mdl.z(f, params)
         resid_rel = float(np.sqrt(np.mean(np.abs((1.0 / zm - y) / y) ** 2)))
     if not sol.success or sol.status == 0:
         flags.append("not-converged")
