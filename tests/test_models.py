@@ -7,7 +7,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from kit.resonators.circle import circle_start, kasa_circle
 from kit.resonators.models import bvd_figures, estimate_bvd
+from kit.resonators.noise import difference_variance, noise_rms
 from kit.resonators.physical import (
     bar_fp_hz,
     bar_y,
@@ -68,6 +70,51 @@ def test_closed_form_start_fixture_a():
     p = estimate_bvd(f, get_model("bvd").z(f, FIX_A))
     for k, v in FIX_A.items():
         assert p[k] == pytest.approx(v, rel=0.05), k
+
+
+def test_admittance_circle_start_fixture_a():
+    """The admittance-circle start gives fixture A: diameter 1/R1, Qm = 100, C0 (sheet 2.3)."""
+    # Source: methods sheet section 2.3 (circle of diameter 1/R1, quadrant points give
+    # Qm = fs/(f2 - f1)) and the fixture A values of section 1.2 (R1 = 7.9577471546 ohm,
+    # Qm = 100, C0 = 1 nF). The circle is distorted only by the slow j omega C0 drift across
+    # the band (about 1e-3 of the diameter here), the Qm slope by the curvature of
+    # X1(f) over +-60 degrees: tolerances 0.2 % (R1) and 1 % (Qm, C0).
+    f = np.linspace(0.9e6, 1.2e6, 2001)
+    p = circle_start(f, get_model("bvd").z(f, FIX_A))
+    assert p["R1"] == pytest.approx(FIX_A["R1"], rel=2e-3)
+    qm = bvd_figures(p["C0"], p["R1"], p["L1"], p["C1"])["qm"]
+    assert qm == pytest.approx(100, rel=1e-2)
+    assert p["C0"] == pytest.approx(1e-9, rel=1e-2)
+    # no conductance peak inside the span: no start value
+    assert circle_start(f[:200], 1 / (2j * np.pi * f[:200] * 1e-9)) is None
+
+
+def test_kasa_circle_recovers_a_known_circle():
+    """The algebraic circle fit returns the centre and radius of exact points on a circle."""
+    # Source: Kasa, IEEE Trans. Instrum. Meas. IM-25(1), 1976 (from memory): exact for
+    # points on a circle, whatever arc they cover; the circle here is chosen, not computed.
+    t = np.linspace(-0.7, 1.9, 9)
+    xc, yc, rad = kasa_circle(3.0 + 1.5 * np.cos(t), -2.0 + 1.5 * np.sin(t))
+    assert (xc, yc, rad) == pytest.approx((3.0, -2.0, 1.5), rel=1e-12)
+    assert np.isnan(kasa_circle([0.0, 1.0], [0.0, 1.0])[2])  # two points make no circle
+
+
+def test_difference_noise_estimate_of_known_noise():
+    """Fourth differences read the variance of added noise, not the smooth curve under it."""
+    # Sources: the variance of the k-th difference of white noise is C(2k, k) sigma^2
+    # (Vandermonde's identity; the variate difference method, Tintner 1940, from memory);
+    # a cubic has a zero fourth difference (finite-difference calculus, common practice).
+    x = np.linspace(-1, 1, 4001)
+    cubic = 2 + 3 * x - x**2 + 5 * x**3
+    assert np.allclose(difference_variance(cubic + 0j), 0.0, atol=1e-20)
+    rng = np.random.default_rng(4)
+    sigma = 1e-3 * (1 + x**2)           # noise that grows towards the ends
+    y = np.exp(4j * x) + sigma * (rng.standard_normal(x.size)
+                                  + 1j * rng.standard_normal(x.size)) / np.sqrt(2)
+    v = difference_variance(y, sigma)   # per part, in units of sigma^2: 1/2
+    assert np.mean(v) == pytest.approx(0.5, rel=0.05)
+    assert noise_rms(v, sigma, np.ones_like(y)) == pytest.approx(
+        np.sqrt(np.mean(sigma**2)), rel=0.05)
 
 
 def test_multi_single_branch_and_mbvd_reduce_to_bvd():

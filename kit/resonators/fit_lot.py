@@ -18,10 +18,12 @@ __all__ = ["fit_lot", "result_row"]
 
 
 def result_row(name: str, result) -> dict:
-    """One flat row (name, ok, error, flags, params, <param>_stderr, derived figures)."""
+    """One flat row (name, ok, error, flags, residual and noise, params, <param>_stderr,
+    derived figures)."""
     row = {"name": name, "ok": bool(result.ok), "error": result.reason,
            "flags": ";".join(result.flags), "model": result.model,
-           "residual_rel": result.residual_rel, "n_points": result.n_points,
+           "residual_rel": result.residual_rel, "noise_rms": result.noise_rms,
+           "residual_to_noise": result.residual_to_noise, "n_points": result.n_points,
            "nfev": result.nfev}
     for p, v in result.params.items():
         row[p] = v
@@ -90,7 +92,8 @@ def fit_lot(captures, model: str = "bvd", span_hz=None, modes: int = 1,
     Returns
     -------
     pandas.DataFrame
-        Columns "name", "ok", "error", "flags", "model", "residual_rel", one column per
+        Columns "name", "ok", "error", "flags", "model", "residual_rel", "noise_rms",
+        "residual_to_noise", one column per
         parameter and "<parameter>_stderr", and the derived "fs_hz", "fp_hz", "k_eff", "qm"
         with their "_stderr".
 

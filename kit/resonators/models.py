@@ -44,6 +44,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from kit.network.circuits import C, Circuit, L, R, parallel, series
+from kit.resonators.circle import circle_start
 from kit.resonators.peaks import (
     conductance_peak,
     drop_nonfinite,
@@ -85,6 +86,10 @@ class Model:
         Construction options (e.g. ``modes``, acoustic loads), kept for round trips.
     analytic_jacobian : bool
         Whether dZ/dp is analytic (else central differences).
+    alt_starts : callable, optional
+        ``alt_starts(f_hz, z) -> list of dict`` of further start values, tried before
+        ``start`` (e.g. the admittance circle, :mod:`kit.resonators.circle`); None entries
+        are skipped.
     """
 
     name: str
@@ -96,6 +101,29 @@ class Model:
     options: dict = field(default_factory=dict)
     analytic_jacobian: bool = True
     description: str = ""
+    alt_starts: Callable[[np.ndarray, np.ndarray], list] | None = None
+
+    def starts(self, f_hz, z) -> list[dict]:
+        """Every start value of the model, in the order a fit tries them.
+
+        Raises
+        ------
+        StartError
+            When no start value can be found (the message of :attr:`start`).
+        """
+        out = []
+        with np.errstate(all="ignore"):
+            try:
+                out = [p for p in (self.alt_starts(f_hz, z) if self.alt_starts else ()) if p]
+            except (ArithmeticError, ValueError):  # an alternative only: the closed forms follow
+                out = []
+            try:
+                out.append(self.start(f_hz, z))
+            except (ArithmeticError, ValueError) as exc:  # StartError is a ValueError
+                if not out:
+                    raise exc if isinstance(exc, StartError) else StartError(
+                        f"the closed forms failed on these data ({exc})") from exc
+        return out
 
     def z(self, f_hz, params) -> np.ndarray:
         """Model impedance [ohm] at ``f_hz`` [Hz]."""
@@ -291,7 +319,8 @@ def bvd_model() -> Model:
     circ = parallel(C("C0"), series(R("R1"), L("L1"), C("C1")))
     return Model("bvd", circ, ("C0", "R1", "L1", "C1"), estimate_bvd,
                  lambda p: bvd_figures(p["C0"], p["R1"], p["L1"], p["C1"]),
-                 description="Butterworth-Van Dyke: C0 parallel (R1 - L1 - C1)")
+                 description="Butterworth-Van Dyke: C0 parallel (R1 - L1 - C1)",
+                 alt_starts=lambda f, z: [circle_start(f, z)])
 
 
 def bvd_loss_model() -> Model:
@@ -299,15 +328,18 @@ def bvd_loss_model() -> Model:
     circ = series(R("Rs"), parallel(series(R("R0"), C("C0")),
                                     series(R("R1"), L("L1"), C("C1"))))
 
-    def start(f, z):
-        p = estimate_bvd(f, z)
+    def lossy(p):
+        if p is None:
+            return None
         fp = bvd_figures(p["C0"], p["R1"], p["L1"], p["C1"])["fp_hz"]
         return {"C0": p["C0"], "R0": 0.005 / (2 * np.pi * fp * p["C0"]), "Rs": 0.1 * p["R1"],
                 "R1": 0.9 * p["R1"], "L1": p["L1"], "C1": p["C1"]}
 
-    return Model("bvd-loss", circ, ("C0", "R0", "Rs", "R1", "L1", "C1"), start,
+    return Model("bvd-loss", circ, ("C0", "R0", "Rs", "R1", "L1", "C1"),
+                 lambda f, z: lossy(estimate_bvd(f, z)),
                  lambda p: bvd_figures(p["C0"], p["R1"], p["L1"], p["C1"]),
-                 description="modified BVD: Rs - [(R0 - C0) parallel (R1 - L1 - C1)]")
+                 description="modified BVD: Rs - [(R0 - C0) parallel (R1 - L1 - C1)]",
+                 alt_starts=lambda f, z: [lossy(circle_start(f, z))])
 
 
 def multi_model(modes: int) -> Model:
