@@ -17,6 +17,7 @@ from typing import Any
 
 from kit import views as kv
 from kit.network.immittance import METHODS
+from kit.resonators.fitting import WEIGHTINGS
 from kit.resonators.registry import MODEL_NAMES
 from kit.ui.common import FigureHost, MessageBar, classed, reset_span, set_span_hz, show, span_hz, span_slider
 
@@ -94,8 +95,8 @@ class FitPanel:
                                               layout=w.Layout(width="160px")), "fit-modes")
         self.method = classed(w.Dropdown(options=list(METHODS), value=method,
                                          description="method"), "fit-method")
-        self.weighting = classed(w.Dropdown(options=["relative", "reflection", "uniform"],
-                                            value="relative", description="weighting"),
+        self.weighting = classed(w.Dropdown(options=list(WEIGHTINGS), value="auto",
+                                            description="weighting"),
                                  "fit-weighting")
         self.fit_button = classed(w.Button(description="Fit", icon="refresh"), "fit-run")
         self.table = classed(w.HTML(params_html(None)), "fit-table")
