@@ -17,8 +17,7 @@ import numpy as np
 import pytest
 
 import kit
-from kit.resonators.crystal import (complex_route_flags, magnitude_fit, magnitude_resonance,
-                                    needs_magnitude)
+from kit.resonators.crystal import complex_route_flags, magnitude_fit, magnitude_resonance, needs_magnitude
 from kit.resonators.peaks import peak_by_reciprocal, sort_merge
 
 #: Frequency of maximum |S21| [MHz] from the source's own table (realdata README).

@@ -190,8 +190,7 @@ def test_real_crystals_refused_or_near_half_power(realdata, name):
     # over a baseline of up to 20 % of the peak (B100) and the fixture is not removed, so
     # only gross nonsense (Q 8e8, negative Q) is caught (common practice, no source).
     import kit
-    from kit.resonators.peaks import half_power_points, peak_by_reciprocal, q_half_power
-    from kit.resonators.peaks import sort_merge
+    from kit.resonators.peaks import half_power_points, peak_by_reciprocal, q_half_power, sort_merge
 
     cap = kit.load(realdata("crystal-series-through", f"{name}.s2p"))
     q = q_factor(cap, "transmission")

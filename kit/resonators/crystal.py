@@ -42,8 +42,7 @@ from kit.capture import CaptureError
 from kit.network.coerce import name_of, network_of, reference_ohm
 from kit.network.immittance import z_from_series_through
 from kit.resonators.models import bvd_figures
-from kit.resonators.peaks import (clean_trace, half_power_points, peak_by_reciprocal,
-                                  vertex_min)
+from kit.resonators.peaks import clean_trace, half_power_points, peak_by_reciprocal, vertex_min
 from kit.resonators.registry import get_model
 from kit.results import Result, nan_if_none
 from kit.units import unit_of

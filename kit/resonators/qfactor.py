@@ -338,7 +338,8 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
     QFactor
         ``ok`` is False, with a plain ``reason`` and no exception, when the fit is singular,
         Q_L or Q_0 is negative or not finite, f_L lies outside the fitted span, or
-        f_L/Q_L is below two frequency steps (:data:`REFUSALS`). With standard errors of Q_L, f_L, Q_0 and beta from the covariance of the fitted
+        f_L/Q_L is below two frequency steps (:data:`REFUSALS`).
+        With standard errors of Q_L, f_L, Q_0 and beta from the covariance of the fitted
         coefficients, sigma^2 (J^T W J)^-1, sigma^2 the weighted residual variance and W the
         MAT 58 angular weights of the last step (common practice, no source), propagated
         linearly. They describe noise only, not calibration error nor model bias: the
