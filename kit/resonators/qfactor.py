@@ -319,7 +319,8 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
     fit : {None, "NLQFIT6", "NLQFIT7", "NLQFIT8"}
         The MAT 58 algorithm: 6 coefficients; 7 with an uncalibrated line length; 8 with
         frequency-dependent leakage (no uncertainties are computed for NLQFIT8). None
-        (default) fits both NLQFIT6 and NLQFIT7 and keeps NLQFIT7, flagged
+        (default) fits NLQFIT6 and, when that gives a positive Q_L with f_L inside the span,
+        also NLQFIT7, and keeps NLQFIT7, flagged
         ``"line-length-fitted"``, when the line length lowers the weighted residual sum of
         squares significantly: an extra-sum-of-squares F-test with p < 1e-3 and at least
         half of the residual removed (:func:`_choose_line`; an uncalibrated line otherwise
@@ -388,11 +389,10 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
         a = 1.0
         flags.append("scale-assumed:1")
     f_low = float(f[0])
-    runs = {}
-    for name_fit in ((fit,) if fit is not None else ("NLQFIT6", "NLQFIT7")):
-        runs[name_fit] = _fit_once(ntwk, kind, name_fit, loop_plan, q_guess, f_guess_hz)
-    chosen = fit
-    if fit is None:
+    chosen = fit or "NLQFIT6"
+    runs = {chosen: _fit_once(ntwk, kind, chosen, loop_plan, q_guess, f_guess_hz)}
+    if fit is None and _plausible(runs[chosen][1], f, f_low):
+        runs["NLQFIT7"] = _fit_once(ntwk, kind, "NLQFIT7", loop_plan, q_guess, f_guess_hz)
         chosen, note = _choose_line(runs, f, s, f_low)
         flags.extend(note)
     q, res, caught = runs[chosen]
@@ -485,6 +485,17 @@ def _fit_once(ntwk, kind, fit, loop_plan, q_guess, f_guess_hz):
     return q, res, list(caught)
 
 
+def _plausible(res, f, f_low) -> bool:
+    """NLQFIT6 gave a positive, finite Q_L with f_L inside the span: only then is the line
+    length worth a second (slower) NLQFIT7 fit by default."""
+    if res is None:
+        return False
+    p = _params(res, f_low, "NLQFIT6")
+    if not (np.all(np.isfinite(p)) and p[4] > 0 and p[5] > 0):
+        return False
+    return bool(f[0] <= f_low * p[4] / p[5] <= f[-1])
+
+
 def _choose_line(runs, f, s, f_low) -> tuple[str, list[str]]:
     """NLQFIT7 (line length fitted) or NLQFIT6, by an extra-sum-of-squares F-test.
 
@@ -502,7 +513,7 @@ def _choose_line(runs, f, s, f_low) -> tuple[str, list[str]]:
     .. [2] A. P. Gregory, NPL Report MAT 58 (2021): NLQFIT7 fits the length of an
        uncalibrated lossless line; eq. (28) weights.
     """
-    from scipy.stats import f as f_dist
+    from scipy.special import fdtrc
 
     q6, r6, _ = runs["NLQFIT6"]
     q7, r7, _ = runs["NLQFIT7"]
@@ -519,7 +530,7 @@ def _choose_line(runs, f, s, f_low) -> tuple[str, list[str]]:
     dof = 2 * len(f) - 7
     if p7[4] <= 0 or not rss7 < 0.5 * rss6 or dof <= 0:
         return "NLQFIT6", []
-    p_value = float(f_dist.sf((rss6 - rss7) / (rss7 / dof), 1, dof)) if rss7 > 0 else 0.0
+    p_value = float(fdtrc(1, dof, (rss6 - rss7) / (rss7 / dof))) if rss7 > 0 else 0.0
     if p_value < LINE_TEST_P:
         return "NLQFIT7", ["line-length-fitted"]
     return "NLQFIT6", []
