@@ -337,8 +337,10 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
         (``f_max_s21_hz``) is more than one frequency step from the measured one, or
         2 Z0/(2 Z0 + R1) differs from the measured peak |S21| by more than 1 %: the peak is
         then not a steady-state resonance (a sweep too fast for the crystal's decay time
-        rings after the peak; common practice, no source) or the fixture distorts it, and
-        fs and R1 carry a bias beyond their stated errors.
+        rings after the peak; common practice, no source) or the fixture distorts it; the
+        standard errors of fs, f_max_s21_hz and R1 are then widened to at least the
+        distance between the model and the measured peak (frequency, and R1 read from the
+        peak |S21|).
 
     Notes
     -----
@@ -433,6 +435,12 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
     if (abs(out["f_max_s21_hz"] - pk.f_hz) > step
             or abs(out["s21_peak"] / math.sqrt(pk.value) - 1.0) > 0.01):
         flags.append("peak-mismatch")
+        # the bias is then larger than the noise: widen the errors of what the peak sets
+        shift = abs(out["f_max_s21_hz"] - pk.f_hz)
+        r1_peak = 2 * z0 * (1 / math.sqrt(pk.value) - 1)
+        for key, bias in (("fs_hz", shift), ("f_max_s21_hz", shift),
+                          ("R1", abs(out["R1"] - r1_peak))):
+            sd[key] = float(np.nanmax([sd[key], bias]))
     params = {k: out[k] for k in ("C0", "R1", "L1", "C1")}
     stderr = {k: sd[k] for k in params}
     derived = {k: v for k, v in out.items() if k not in params}
