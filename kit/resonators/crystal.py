@@ -52,6 +52,9 @@ __all__ = ["MagnitudeResonance", "complex_route_flags", "magnitude_fit",
 
 #: Share of the points with significant negative resistance that condemns the complex route.
 NEGATIVE_SHARE = 0.002
+#: Flags that make the magnitude fit's ``ok`` False (those of ``kit.fit``'s severe list that
+#: can arise here).
+SEVERE = ("not-converged", "poor-fit", "no-uncertainty", "no-data")
 #: Median |cos(arg Z)| above which the impedance away from resonance is called resistive.
 RESISTIVE_COS = 0.5
 
@@ -303,8 +306,10 @@ def _window(f, x0, j):
 
 
 def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: bool = True,
-                  flags=(), poor_fit: float = 0.05, max_nfev: int = 400):
-    """BVD crystal from |S21| of a series-through capture (no phase used).
+                  flags=(), poor_fit: float = 0.05, max_nfev: int = 400) -> dict:
+    """BVD crystal from |S21| of a series-through capture (no phase used), as the fields of
+    a :class:`kit.resonators.fitting.FitResult` (``kit.fit(..., data="magnitude")`` builds it;
+    this module stays below :mod:`kit.resonators.fitting`, no import cycle).
 
     Parameters
     ----------
@@ -327,8 +332,10 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
 
     Returns
     -------
-    kit.resonators.fitting.FitResult
-        model "bvd", method "series-through", params C0, R1, L1, C1 with standard errors;
+    dict
+        Keyword arguments of ``FitResult``: model "bvd", method "series-through", params
+        C0, R1, L1, C1 with standard errors; derived f_max_s21_hz (frequency of maximum
+        |S21| of the model),
         derived fs_hz, fp_hz, k_eff, qm (unloaded, Q_L (R1 + 2 Z0)/R1), q_loaded, s21_peak
         and insertion_loss_db (-20 lg |S21(fs)|) with standard errors. Flag
         ``"magnitude-only"``; ``"no-anti-resonance"`` when C0 rests on the off-resonance
@@ -360,8 +367,6 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
     """
     from scipy.optimize import least_squares
 
-    from kit.resonators.fitting import FitResult
-
     f_all, s_all, clean_flags, z0, cname, _ = _s21_trace(capture, None)
     name = cname if name is None else name
     flags = list(flags) + clean_flags + ["magnitude-only"]
@@ -380,7 +385,7 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
     if len(f) < 8 or any(fl.startswith("unequal-port-references") for fl in flags):
         why = (f"only {len(f)} points in the fitted span; need at least 8" if len(f) < 8 else
                "the two port references differ: |S21| = 2 Z0/(2 Z0 + Z) needs equal ones")
-        return FitResult(model="bvd", params={}, stderr={}, ok=False, reason=why,
+        return dict(model="bvd", params={}, stderr={}, ok=False, reason=why,
                          flags=tuple(flags + ["no-data"]), **common)
     mag = np.abs(s21)
     mdl = get_model("bvd")
@@ -403,7 +408,7 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
         sol = least_squares(resid, np.array([0.0, *np.log(x0[1:])]), method="lm",
                             x_scale="jac", max_nfev=max_nfev, xtol=1e-12, ftol=1e-12)
     except (ValueError, np.linalg.LinAlgError, FloatingPointError) as exc:
-        return FitResult(model="bvd", params={}, stderr={}, ok=False,
+        return dict(model="bvd", params={}, stderr={}, ok=False,
                          reason=f"not-converged: the solver failed ({exc})",
                          flags=tuple(flags + ["not-converged"]), **common)
     if not sol.success:
@@ -445,10 +450,8 @@ def magnitude_fit(capture, *, span_hz=None, name: str | None = None, keep_data: 
     stderr = {k: sd[k] for k in params}
     derived = {k: v for k, v in out.items() if k not in params}
     derived_sd = {k: sd[k] for k in derived}
-    from kit.resonators.fitting import SEVERE_FLAGS
-
-    severe = [fl for fl in flags if fl.split(":")[0] in SEVERE_FLAGS]
-    return FitResult(model="bvd", params=params, stderr=stderr, derived=derived,
+    severe = [fl for fl in flags if fl.split(":")[0] in SEVERE]
+    return dict(model="bvd", params=params, stderr=stderr, derived=derived,
                      derived_stderr=derived_sd, residual_rel=resid_rel, ok=not severe,
                      flags=tuple(dict.fromkeys(flags)), reason="; ".join(severe),
                      nfev=int(sol.nfev), start=dict(zip(("fs_hz", "R1", "L1", "C0"), x0)),

@@ -550,8 +550,9 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         from kit.resonators import crystal
         why = () if data == "magnitude" or z is not None else crystal.complex_route_flags(capture)
         if data == "magnitude" or why:
-            return crystal.magnitude_fit(capture, span_hz=span_hz, name=name, flags=why,
-                                         keep_data=keep_data, poor_fit=poor_fit)
+            return FitResult(**crystal.magnitude_fit(capture, span_hz=span_hz, name=name,
+                                                     flags=why, keep_data=keep_data,
+                                                     poor_fit=poor_fit))
     mdl = get_model(model, modes, **options)
     f, zz, cname, z0 = _data(capture, z, method, port, z0_ohm)
     name = cname if name is None else name
