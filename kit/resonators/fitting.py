@@ -90,7 +90,7 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         *, z=None, weighting: str = "auto", z0_ohm: float | None = None,
         start: dict | None = None, port: int = 1, max_nfev: int = 200,
         poor_fit: float = 0.05, name: str | None = None, keep_data: bool = True,
-        **options) -> FitResult:
+        data: str = "auto", **options) -> FitResult:
     """Fit a model to a capture; returns a :class:`FitResult` with uncertainties and flags.
 
     Parameters
@@ -131,6 +131,11 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         Name for the report (default: the capture's).
     keep_data : bool
         Keep the fitted f and Z in the result (for plots).
+    data : {"auto", "complex", "magnitude"}
+        "magnitude" fits |S21| of a series-through "bvd" capture alone
+        (:func:`kit.resonators.crystal.magnitude_fit`, flag "magnitude-only"); "auto" does
+        so when :func:`kit.resonators.crystal.needs_magnitude` finds the complex route
+        untrustworthy (negative resistance; fixture not removed); "complex" never.
     **options
         Model options (e.g. ``z_front``, ``z_back`` for "plate").
 
@@ -160,6 +165,15 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         raise ValueError(f"unknown weighting {weighting!r}; choose one of {', '.join(WEIGHTINGS)}")
     if model not in MODEL_NAMES:
         raise ValueError(f"unknown model {model!r}; choose one of {', '.join(MODEL_NAMES)}")
+    if data not in ("auto", "complex", "magnitude"):
+        raise ValueError(f"unknown data {data!r}; choose auto, complex or magnitude")
+    if method == "series-through" and model == "bvd" and modes == 1 and data != "complex":
+        from kit.resonators import crystal
+        why = () if data == "magnitude" or z is not None else crystal.complex_route_flags(capture)
+        if data == "magnitude" or why:
+            return FitResult(**crystal.magnitude_fit(capture, span_hz=span_hz, name=name,
+                                                     flags=why, keep_data=keep_data,
+                                                     poor_fit=poor_fit))
     mdl = get_model(model, modes, **options)
     f, zz, cname, z0, from_arrays = _data(capture, z, method, port, z0_ohm)
     if weighting == "auto":

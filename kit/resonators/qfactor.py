@@ -33,7 +33,7 @@ from kit.network.coerce import name_of, network_of
 from kit.results import Result, nan_if_none
 from kit.units import eng, unit_of
 
-__all__ = ["QFactor", "q_factor", "KINDS"]
+__all__ = ["QFactor", "q_factor", "KINDS", "REFUSALS"]
 
 #: our kind -> scikit-rf resonance type
 KINDS: dict[str, str] = {
@@ -43,6 +43,19 @@ KINDS: dict[str, str] = {
     "absorption": "absorption",
 }
 _FITS = ("NLQFIT6", "NLQFIT7", "NLQFIT8")
+#: flags (by prefix) that make ``ok`` False, with the reason given for each.
+REFUSALS: dict[str, str] = {
+    "singular-fit": "the fit is singular (the trace does not determine a Q circle)",
+    "negative-q": "the fitted loaded Q is negative: no resonance of this kind in the span",
+    "q-not-finite": "the fitted loaded Q is not finite",
+    "f-outside-span": "the fitted resonant frequency lies outside the fitted span",
+    "bandwidth-below-2-steps": "the fitted Q implies a half-power bandwidth below two frequency "
+                               "steps: the sweep does not resolve the resonance",
+    "poor-fit": "the fitted circle misses the data (RMS residual above 5 % of the circle "
+                "diameter)",
+}
+#: F-test level for fitting the line length by default (NLQFIT7 over NLQFIT6).
+LINE_TEST_P = 1e-3
 
 
 _VALUES = ("q_loaded", "q_loaded_stderr", "q_unloaded", "q_unloaded_stderr", "f_hz",
@@ -83,7 +96,10 @@ class QFactor(Result):
     flags : tuple of str
         e.g. ``"not-converged"``, ``"q-loaded-below-100"``, ``"scale-assumed:1"``,
         ``"resonance-near-edge"`` (a half-power point lies outside the sweep),
-        ``"poor-fit"``, ``"no-uncertainty:NLQFIT8"``.
+        ``"line-length-fitted"`` (NLQFIT7 chosen by default), ``"no-uncertainty:NLQFIT8"``;
+        the refusals of :data:`REFUSALS` (``"poor-fit"``, ``"negative-q"``,
+        ``"f-outside-span"``, ``"bandwidth-below-2-steps"``, ``"singular-fit"``,
+        ``"q-not-finite"``) make ``ok`` False.
     name, trace : str
         The capture's name and the S-parameter used (e.g. "S21").
     points : int
@@ -133,22 +149,28 @@ class QFactor(Result):
 
     @property
     def ok(self) -> bool:
-        """Converged, with Q_L and Q_0 both computed (finite)."""
-        return (self.converged and math.isfinite(self.q_loaded)
-                and math.isfinite(self.q_unloaded))
+        """Converged, with Q_L and Q_0 finite and positive, and no refusal flag
+        (:data:`REFUSALS`: f_L outside the span, bandwidth below two steps, singular fit)."""
+        return (self.converged and math.isfinite(self.q_loaded) and self.q_loaded > 0
+                and math.isfinite(self.q_unloaded) and self.q_unloaded > 0
+                and not any(fl.split(":")[0] in REFUSALS for fl in self.flags))
 
     @property
     def reason(self) -> str:
-        """Why ``ok`` is False ("" when ok)."""
-        why = []
+        """Why ``ok`` is False ("" when ok), in plain words."""
+        why = [REFUSALS[fl.split(":")[0]] for fl in self.flags if fl.split(":")[0] in REFUSALS]
+        if why:
+            return "; ".join(dict.fromkeys(why))
         if not self.converged:
             why.append(f"the {self.fit} fit did not converge in {self.iterations} iterations")
         if not math.isfinite(self.q_loaded):
             why.append("the loaded Q was not computed")
-        if not math.isfinite(self.q_unloaded):
-            why.append("the unloaded Q could not be computed from the fitted circle"
-                       + (" (negative loaded Q)" if "negative-q" in self.flags else ""))
-        return "; ".join(why)
+        elif not math.isfinite(self.q_unloaded):
+            why.append("the unloaded Q could not be computed from the fitted circle")
+        elif self.q_unloaded <= 0:
+            why.append(f"the unloaded Q is negative ({self.q_unloaded:.4g}): the fitted circle "
+                       "does not describe a passive resonator")
+        return "; ".join(dict.fromkeys(why))
 
     @property
     def heading(self) -> str:
@@ -275,7 +297,7 @@ def _trace(capture, kind: str, trace: str | None):
 
 
 def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
-             span_hz=None, fit: str = "NLQFIT6", scale: float | None = None,
+             span_hz=None, fit: str | None = None, scale: float | None = None,
              q_guess: float | None = None, f_guess_hz: float | None = None,
              loop_plan: str = "fwfwc") -> QFactor:
     """Loaded and unloaded Q, resonant frequency and coupling of one resonance.
@@ -294,9 +316,15 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
         The S-parameter to fit, e.g. "S22" or "S12".
     span_hz : (float, float), optional
         Fit only this frequency range [Hz].
-    fit : {"NLQFIT6", "NLQFIT7", "NLQFIT8"}
+    fit : {None, "NLQFIT6", "NLQFIT7", "NLQFIT8"}
         The MAT 58 algorithm: 6 coefficients; 7 with an uncalibrated line length; 8 with
-        frequency-dependent leakage (no uncertainties are computed for NLQFIT8).
+        frequency-dependent leakage (no uncertainties are computed for NLQFIT8). None
+        (default) fits NLQFIT6 and, when that gives a positive Q_L with f_L inside the span,
+        also NLQFIT7, and keeps NLQFIT7, flagged
+        ``"line-length-fitted"``, when the line length lowers the weighted residual sum of
+        squares significantly: an extra-sum-of-squares F-test with p < 1e-3 and at least
+        half of the residual removed (:func:`_choose_line`; an uncalibrated line otherwise
+        biases Q0, as on MAT 58's Table 6(c) data).
     scale : float, optional
         MAT 58 scaling factor A (1/|S| of a through or of the detuned reflection of a
         lossless line). For "transmission" and "reflection-method2" it defaults to 1.0
@@ -309,6 +337,9 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
     Returns
     -------
     QFactor
+        ``ok`` is False, with a plain ``reason`` and no exception, when the fit is singular,
+        Q_L or Q_0 is negative or not finite, f_L lies outside the fitted span, or
+        f_L/Q_L is below two frequency steps (:data:`REFUSALS`).
         With standard errors of Q_L, f_L, Q_0 and beta from the covariance of the fitted
         coefficients, sigma^2 (J^T W J)^-1, sigma^2 the weighted residual variance and W the
         MAT 58 angular weights of the last step (common practice, no source), propagated
@@ -327,12 +358,10 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
        NLQFIT6/7/8, eq. (28) angular weights, section 2.5 unloaded Q.
     .. [2] scikit-rf 2.2.0 ``skrf.qfactor.Qfactor`` (the fit is delegated to it).
     """
-    from skrf.qfactor import Qfactor
-
     path = getattr(capture, "path", None)
     if kind not in KINDS:
         raise CaptureError(f"unknown kind {kind!r}; choose one of {', '.join(KINDS)}", path)
-    if fit not in _FITS:
+    if fit is not None and fit not in _FITS:
         raise CaptureError(f"unknown fit {fit!r}; choose one of {', '.join(_FITS)}", path)
     ntwk, trace = _trace(capture, kind, trace)
     name = name_of(capture)
@@ -359,27 +388,35 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
     if a is None and kind in ("transmission", "reflection-method2"):
         a = 1.0
         flags.append("scale-assumed:1")
-
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            q = Qfactor(ntwk, KINDS[kind], Q_L0=q_guess, f_L0=f_guess_hz)
-            res = q.fit(method=fit, loop_plan=loop_plan)
-        except (ValueError, np.linalg.LinAlgError, ZeroDivisionError) as exc:
-            raise CaptureError(f"the Q-factor fit failed: {exc}", path) from exc
+    f_low = float(f[0])
+    chosen = fit or "NLQFIT6"
+    runs = {chosen: _fit_once(ntwk, kind, chosen, loop_plan, q_guess, f_guess_hz)}
+    if fit is None and _plausible(runs[chosen][1], f, f_low):
+        runs["NLQFIT7"] = _fit_once(ntwk, kind, "NLQFIT7", loop_plan, q_guess, f_guess_hz)
+        chosen, note = _choose_line(runs, f, s, f_low)
+        flags.extend(note)
+    q, res, caught = runs[chosen]
+    if res is None:
+        return _refused(kind, chosen, a, flags + ["singular-fit"], name, trace, len(f), f_low)
     for w in caught:
         flags.append(f"fit-warning:{w.message}")
 
     converged = bool(np.all(res["success"]))
     if not converged:
         flags.append("not-converged")
-    f_low = float(f[0])
-    p = _params(res, f_low, fit)
+    p = _params(res, f_low, chosen)
     ql, fl = float(p[4]), float(f_low * p[4] / p[5])
+    if not (math.isfinite(ql) and math.isfinite(fl)):
+        return _refused(kind, chosen, a, flags + ["q-not-finite"], name, trace, len(f), f_low)
     if ql <= 0:
         flags.append("negative-q")
     elif ql < 100:
         flags.append("q-loaded-below-100")  # MAT 58's model assumes Q_L of about 100 or more
+    if not f[0] <= fl <= f[-1]:
+        flags.append("f-outside-span")
+    step = float(np.median(np.diff(f)))
+    if ql > 0 and fl / ql < 2 * step:
+        flags.append(f"bandwidth-below-2-steps:{fl / ql:.3g} Hz")
 
     def derived(pp: np.ndarray) -> np.ndarray:
         r = dict(res)
@@ -406,7 +443,7 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
         flags.append("resonance-near-edge")
 
     se = [None] * 4
-    if fit == "NLQFIT8":
+    if chosen == "NLQFIT8":
         flags.append("no-uncertainty:NLQFIT8")
     else:
         weights = (q.angular_weights(f, fl, ql) if "w" in loop_plan else np.ones(len(f)))
@@ -428,7 +465,88 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
     return QFactor(q_loaded=ql, q_loaded_stderr=se[0], q_unloaded=q0, q_unloaded_stderr=se[2],
                    f_hz=fl, f_hz_stderr=se[1],
                    coupling=None if q0 is None else float(vals[3]), coupling_stderr=se[3],
-                   diameter=diam, bandwidth_hz=bw, kind=kind, fit=fit, scale=a,
+                   diameter=diam, bandwidth_hz=bw, kind=kind, fit=chosen, scale=a,
                    rms_error=rms, iterations=int(np.squeeze(res["number_iterations"])),
                    converged=converged, flags=tuple(flags), name=name, trace=trace,
                    points=len(f), coefficients=tuple(p), f_low_hz=f_low)
+
+
+def _fit_once(ntwk, kind, fit, loop_plan, q_guess, f_guess_hz):
+    """(Qfactor, fit result or None when singular, caught warnings) of one MAT 58 fit."""
+    from skrf.qfactor import Qfactor
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            q = Qfactor(ntwk, KINDS[kind], Q_L0=q_guess, f_L0=f_guess_hz)
+            res = q.fit(method=fit, loop_plan=loop_plan)
+        except (ValueError, np.linalg.LinAlgError, ZeroDivisionError, FloatingPointError):
+            return None, None, list(caught)
+    return q, res, list(caught)
+
+
+def _plausible(res, f, f_low) -> bool:
+    """NLQFIT6 gave a positive, finite Q_L with f_L inside the span: only then is the line
+    length worth a second (slower) NLQFIT7 fit by default."""
+    if res is None:
+        return False
+    p = _params(res, f_low, "NLQFIT6")
+    if not (np.all(np.isfinite(p)) and p[4] > 0 and p[5] > 0):
+        return False
+    return bool(f[0] <= f_low * p[4] / p[5] <= f[-1])
+
+
+def _choose_line(runs, f, s, f_low) -> tuple[str, list[str]]:
+    """NLQFIT7 (line length fitted) or NLQFIT6, by an extra-sum-of-squares F-test.
+
+    Both residual sums of squares are weighted alike (MAT 58 eq. (28) angular weights of
+    the NLQFIT6 fit). The line length is one extra parameter, so under "no line"
+    F = (RSS6 - RSS7) / (RSS7 / (2N - 7)) follows F(1, 2N - 7) (2N real residuals); the line
+    is taken when p < :data:`LINE_TEST_P` and it removes at least half of RSS6, so that
+    noise-free data with a tiny model bias do not switch.
+
+    References
+    ----------
+    .. [1] D. M. Bates and D. G. Watts, *Nonlinear Regression Analysis and Its Applications*,
+       Wiley, 1988, section 3.5 (extra sum of squares for nested models; from memory for
+       the section).
+    .. [2] A. P. Gregory, NPL Report MAT 58 (2021): NLQFIT7 fits the length of an
+       uncalibrated lossless line; eq. (28) weights.
+    """
+    from scipy.special import fdtrc
+
+    q6, r6, _ = runs["NLQFIT6"]
+    q7, r7, _ = runs["NLQFIT7"]
+    if r6 is None:
+        return ("NLQFIT7", ["line-length-fitted"]) if r7 is not None else ("NLQFIT6", [])
+    if r7 is None:
+        return "NLQFIT6", []
+    p6, p7 = _params(r6, f_low, "NLQFIT6"), _params(r7, f_low, "NLQFIT7")
+    if not (np.all(np.isfinite(p6)) and np.all(np.isfinite(p7))) or p6[4] <= 0:
+        return ("NLQFIT7", ["line-length-fitted"]) if np.all(np.isfinite(p7)) and p7[4] > 0 \
+            else ("NLQFIT6", [])
+    w = np.asarray(q6.angular_weights(f, f_low * p6[4] / p6[5], p6[4]), float)
+    rss6, rss7 = _rss(p6, f, s, f_low, w), _rss(p7, f, s, f_low, w)
+    dof = 2 * len(f) - 7
+    if p7[4] <= 0 or not rss7 < 0.5 * rss6 or dof <= 0:
+        return "NLQFIT6", []
+    p_value = float(fdtrc(1, dof, (rss6 - rss7) / (rss7 / dof))) if rss7 > 0 else 0.0
+    if p_value < LINE_TEST_P:
+        return "NLQFIT7", ["line-length-fitted"]
+    return "NLQFIT6", []
+
+
+def _rss(p, f, s, f_low, w) -> float:
+    """Weighted residual sum of squares sum w |S - model|^2 [1]."""
+    r = s - _model(p, f, f_low)
+    return float(np.sum(w * (r.real ** 2 + r.imag ** 2)))
+
+
+def _refused(kind, fit, a, flags, name, trace, points, f_low) -> QFactor:
+    """A result with no numbers: ``ok`` False, the reason from the refusal flag."""
+    nan = math.nan
+    return QFactor(q_loaded=nan, q_loaded_stderr=nan, q_unloaded=nan, q_unloaded_stderr=nan,
+                   f_hz=nan, f_hz_stderr=nan, coupling=nan, coupling_stderr=nan, diameter=nan,
+                   bandwidth_hz=nan, kind=kind, fit=fit or "NLQFIT6", scale=nan_if_none(a),
+                   rms_error=nan, iterations=0, converged=False, flags=tuple(flags),
+                   name=name, trace=trace, points=points, f_low_hz=f_low)
