@@ -124,6 +124,11 @@ def test_real_crystal_magnitude(realdata, name):
     tol = 1e3 if name.startswith("C300") else step
     assert mr.ok and abs(mr.fs_hz - _published(name)) <= tol, mr.report()
     assert needs_magnitude(cap, "series-through")
+    # kit.resonance falls back to the same extrema and says so (no |Z|min = 0, no Qm 1e6)
+    res = kit.resonance(cap, method="series-through")
+    assert "magnitude-extrema" in res.flags and res.fs_hz == mr.fs_hz, res.report()
+    assert not res.ok and "|S21|" in res.reason and math.isnan(res.qm)
+    assert res.zm_ohm == pytest.approx(mr.r1_ohm) and res.zm_ohm > 0
     r = kit.fit(cap, model="bvd", method="series-through")
     assert "magnitude-only" in r.flags
     n = cap.network

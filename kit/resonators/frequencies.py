@@ -109,7 +109,10 @@ _VALUES = ("fm_hz", "fn_hz", "fs_hz", "fp_hz", "fr_hz", "fa_hz", "zm_ohm", "zn_o
 _WHY = {"no-peak:fs": "no conductance peak inside the span",
         "no-peak:fp": "no resistance peak above fs inside the span",
         "fp-not-above-fs": "fp is not above fs",
-        "half-power-outside-span": "a half-power point of the conductance is outside the span"}
+        "half-power-outside-span": "a half-power point of the conductance is outside the span",
+        "magnitude-extrema": "read from the extrema of |S21| alone, as the complex impedance "
+                             "cannot be trusted (fixture not removed); fit the magnitude "
+                             "(kit.fit(..., method='series-through', data='magnitude')) for Qm"}
 
 
 def _row(key: str, label: str, unit: str | None = None) -> tuple[str, str, str]:
@@ -356,8 +359,43 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
        Lamberti & Pappalardo, IEEE Ultrasonics Symp. 1991, doi 10.1109/ULTSYM.1991.234236.
     """
     src = sweep(capture_or_f, z, method=method, port=port, what="resonance()")
-    # another reader (e.g. from magnitudes only) can take over here, by a branch on src
+    if method == "series-through" and not src.from_arrays:
+        from kit.resonators import crystal
+
+        why = crystal.complex_route_flags(capture_or_f, method)
+        if why:  # a crystal behind its fixture: only the magnitude of S21 can be read
+            return _read_magnitude(crystal.magnitude_resonance(capture_or_f, span_hz), src,
+                                   span_hz, why)
     return _read_complex(src, span_hz)
+
+
+def _read_magnitude(mag, src, span_hz, why) -> Resonance:
+    """A :class:`Resonance` from the |S21| extrema of a series-through capture.
+
+    fs is the frequency of maximum |S21| and fp that of the minimum above it; k_eff follows
+    from them; |Z| at fs is R1 = 2 Z0 (1/|S21| - 1) (the crystal is resistive there). Their
+    standard errors are the frequency step over sqrt(12), the standard uncertainty of a
+    reading known to one step (GUM, JCGM 100:2008, 4.3.7). Qm is left to the magnitude fit.
+
+    References
+    ----------
+    .. [1] ANSI/IEEE Std 177-1966 (fs as the frequency of maximum transmission; from memory).
+    .. [2] JCGM 100:2008 (GUM), 4.3.7.
+    """
+    from kit.resonators.coupling import k_eff as _k_eff
+
+    fs, fp = mag.fs_hz, mag.fp_hz
+    u = mag.step_hz / math.sqrt(12.0)
+    keff = float(_k_eff(fs, fp)) if math.isfinite(fp) and fp > fs > 0 else math.nan
+    lo_hi = span_hz if span_hz is not None else (float(src.f_hz.min()), float(src.f_hz.max()))
+    return Resonance(fm_hz=math.nan, fn_hz=math.nan, fs_hz=fs, fp_hz=fp, fr_hz=math.nan,
+                     fa_hz=math.nan, zm_ohm=mag.r1_ohm, zn_ohm=math.nan,
+                     g_max_siemens=math.nan, r_max_ohm=math.nan, f1_hz=math.nan,
+                     f2_hz=math.nan, k_eff=keff, qm=math.nan,
+                     flags=tuple(dict.fromkeys((*why, *mag.flags))), span_hz=lo_hi,
+                     points=int(len(src.f_hz)), step_hz=mag.step_hz, name=src.name,
+                     method=src.method, fs_stderr_hz=u,
+                     fp_stderr_hz=u if math.isfinite(fp) else math.nan)
 
 
 def _read_complex(src, span_hz) -> Resonance:
