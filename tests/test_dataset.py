@@ -281,3 +281,41 @@ def test_export_from_load_folder_table(demo_dir, tmp_path):
     df = summary(table)
     assert len(df) == len(table) and (df["status"] == "ok").all()
     assert len(tidy(table)) == sum(c.points for c in kit.io.folder.captures_of(table))
+
+
+def test_export_and_writes_follow_the_umask(tmp_path):
+    """Exported folder and files, and atomic writes, get the modes a plain mkdir/open would
+    (POSIX: mode = 0777 or 0666 with the umask bits cleared; common practice, no source)."""
+    import os
+    import stat
+
+    from kit.io.atomic import write_text
+
+    lot, caps = _lot(tmp_path, 2)
+    old = os.umask(0o022)
+    try:
+        out = export(tmp_path / "export", caps)
+        report = write_text(tmp_path / "report.html", "<p>x</p>")
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(out.stat().st_mode) == 0o755
+    assert {stat.S_IMODE(p.stat().st_mode) for p in out.iterdir()} == {0o644}
+    assert stat.S_IMODE(report.stat().st_mode) == 0o644
+
+
+def test_interrupted_export_is_recovered(tmp_path):
+    """An export interrupted between its two renames (previous export moved aside, new one
+    not yet in place) is put back by the next export, and leftovers are removed."""
+    lot, caps = _lot(tmp_path, 2)
+    out = export(tmp_path / "export", caps)
+    first = (out / "provenance.json").read_text()
+    aside = tmp_path / ".export.old-abc"
+    out.rename(aside)                                  # the first rename happened ...
+    (tmp_path / ".export.new-def").mkdir()             # ... the new folder was never swapped
+    from kit.outputs.handover import recover_interrupted
+
+    done = recover_interrupted(out)
+    assert (out / "provenance.json").read_text() == first and len(done) == 2
+    assert not aside.exists() and not (tmp_path / ".export.new-def").exists()
+    export(out, caps)                                  # and the next export replaces it
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(".export")) == []

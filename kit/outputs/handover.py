@@ -29,11 +29,12 @@ from typing import Any
 import numpy as np
 
 from kit.capture import Capture
+from kit.io.atomic import as_created
 from kit.io.writer import ExportError, kit_version, refuse_input_folder
 from kit.outputs.entries import as_list, lookup
 from kit.outputs.tidy import tidy
 
-__all__ = ["EXPORT_FORMAT", "EXPORT_VERSION", "export", "write_table"]
+__all__ = ["EXPORT_FORMAT", "EXPORT_VERSION", "export", "recover_interrupted", "write_table"]
 
 EXPORT_FORMAT = "sweepbook-export"
 EXPORT_VERSION = 1
@@ -174,7 +175,9 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
         raise ExportError(f"{out} holds files that are not a sweepbook export; it is not "
                           "replaced: choose an empty or new folder")
     out.parent.mkdir(parents=True, exist_ok=True)
+    recover_interrupted(out)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
+    as_created(tmp, folder=True)
     try:
         tables = {"sweeps": write_table(tidy(real, corrected=corrected), tmp, "sweeps")}
         summ = summary if summary is not None else lot_summary(caps, review_log=review_log)
@@ -189,6 +192,30 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
         shutil.rmtree(tmp, ignore_errors=True)
         raise
     return out
+
+
+def recover_interrupted(out: str | os.PathLike) -> list[str]:
+    """Clean up after an export that was interrupted, before a new one starts.
+
+    An export builds ``.NAME.new-*`` beside ``out`` and swaps it in with two renames
+    (``out`` to ``.NAME.old-*``, then the new folder to ``out``). Interrupted between them,
+    ``out`` is missing and the previous complete export sits in ``.NAME.old-*``: it is put
+    back. Any ``.NAME.new-*`` left over (never swapped in) and any ``.NAME.old-*`` left once
+    ``out`` exists are removed. Returns what was done, one line each.
+    """
+    out = Path(out)
+    done: list[str] = []
+    if not out.parent.is_dir():
+        return done
+    olds = sorted(out.parent.glob(f".{out.name}.old-*"), key=lambda p: p.stat().st_mtime)
+    if not out.exists() and olds:
+        os.replace(olds[-1], out)
+        done.append(f"restored the previous export from {olds[-1].name}")
+        olds = olds[:-1]
+    for p in [*olds, *out.parent.glob(f".{out.name}.new-*")]:
+        shutil.rmtree(p, ignore_errors=True)
+        done.append(f"removed the unfinished {p.name}")
+    return done
 
 
 def _swap_into_place(new: Path, out: Path) -> None:
