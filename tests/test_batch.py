@@ -146,19 +146,36 @@ def test_cache_hits_changed_files_and_damaged_entries(lot, tmp_path):
 
 
 def test_command_line_run_writes_every_output(lot, tmp_path, capsys):
-    """`sweepbook run` writes summary (Parquet, CSV), sweeps, provenance and report; exit 0 with error rows."""
+    """`sweepbook run` writes summary (Parquet, CSV), sweeps, provenance and report even with
+    error rows, names them on standard error and exits 1 (a run with failures is not clean)."""
     root, d, proc = lot
     out = tmp_path / "out"
     code = main(["run", str(proc), str(d), "--out", str(out), "--workers", "1",
                  "--cache", str(tmp_path / "c")])
-    assert code == 0
+    assert code == 1
     for name in ("summary.parquet", "summary.csv", "sweeps.parquet", "provenance.json", "report.html"):
         assert (out / name).is_file(), name
     s = pd.read_parquet(out / "summary.parquet")
     assert (s["status"] == "error").sum() == 1 and len(s) == 5
-    assert "1 error row" in capsys.readouterr().out
-    # a run that cannot proceed (no such procedure) is a non-zero exit
+    said = capsys.readouterr()
+    assert "1 error row" in said.out and "could not be analysed; exit code 1" in said.err
+    # a run that cannot proceed (no such procedure, no such input folder) is exit code 2
     assert main(["run", str(tmp_path / "none.toml"), str(d), "--out", str(out)]) == 2
+    assert main(["run", str(proc), str(tmp_path / "no-such-folder"), "--out", str(out)]) == 2
+    assert "does not exist" in capsys.readouterr().err
+
+
+def test_procedure_refuses_typos_and_spans_in_mhz(tmp_path):
+    """A misspelt key names the nearest known one; a span in MHz is refused with the fix."""
+    from kit.batch.procedure import ProcedureError
+
+    with pytest.raises(ProcedureError, match="did you mean 'modes'"):
+        Procedure.from_dict({"fit": {"model": "bvd", "mode": 2}})
+    with pytest.raises(ProcedureError, match="did you mean 'load'"):
+        Procedure.from_dict({"correction": [{"kind": "osl", "open": "o", "short": "s",
+                                             "lod": "l"}]})
+    with pytest.raises(ProcedureError, match="spans are in hertz"):
+        Procedure.from_dict({"resonance": {"span_hz": [1.6, 2.4]}})
 
 
 def test_procedure_saved_from_python_runs_the_same(lot, tmp_path):

@@ -84,3 +84,16 @@ def test_toml_writer_escapes_text():
 
     doc = {"name": 'a "b" \\ c\nd', "import": {"method": "reflection"}, "fit": {"span_hz": [1.0, 2.5]}}
     assert tomllib.loads(dumps_toml(doc)) == doc
+
+
+def test_fit_keys_follow_kit_fit():
+    """The [fit] keys a procedure accepts are exactly kit.fit's settings (no drift)."""
+    import inspect
+
+    from kit.batch.procedure import FIT_KEYS
+    from kit.resonators.fitting import fit
+
+    named = [n for n, p in inspect.signature(fit).parameters.items()
+             if p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL)
+             and n not in ("capture", "z", "method", "port", "keep_data", "name")]
+    assert set(FIT_KEYS) - {"z_front", "z_back"} == set(named)

@@ -89,6 +89,16 @@ def _run_cmd(args: argparse.Namespace) -> int:
     verdicts = result.summary["verdict"].value_counts(dropna=True).to_dict()
     print(f"{s['inputs']} capture(s), {s['errors']} error row(s), engine: {s['engine']}, "
           f"cache hits {s['hit']}; verdicts {verdicts or 'none'}; written to {out}")
+    if s["errors"]:
+        # a run with captures that could not be analysed must not look like a clean one
+        rows = result.summary[result.summary["status"] == "error"]
+        for name, err in list(zip(rows["capture"], rows["error"]))[:5]:
+            print(f"sweepbook run: {name}: {err}", file=sys.stderr)
+        more = len(rows) - 5
+        print(f"sweepbook run: {s['errors']} capture(s) could not be analysed"
+              + (f" ({more} more in summary.csv)" if more > 0 else "") + "; exit code 1",
+              file=sys.stderr)
+        return 1
     return 0
 
 

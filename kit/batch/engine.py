@@ -244,6 +244,9 @@ def expand_inputs(inputs: Iterable[Any]) -> list[Any]:
             out.append(item)
             continue
         p = Path(item)
+        if not p.exists():
+            raise ProcedureError(f"input {p} does not exist: give Touchstone files or folders "
+                                 "that exist (paths are relative to the current folder)")
         if p.is_dir():
             out.extend(str(x) for x in touchstone_files(p))
         else:

@@ -59,6 +59,9 @@ CORRECTION_KINDS: dict[str, tuple[str, tuple[str, ...]]] = {
     "port_extension": ("port_extension", ()),
     "two_x_thru": ("two_x_thru", ("thru",)),
 }
+#: Spans ending below this are refused as probably given in MHz [Hz] (no resonator this kit
+#: is made for sits below 1 kHz; common practice, no source).
+MIN_SPAN_HZ = 1e3
 _TOP_KEYS = {"format_version", "name", "description", "import", "correction", "resonance", "fit",
              "limits"}
 
@@ -125,13 +128,16 @@ class Procedure:
             if c["kind"] not in CORRECTION_KINDS:
                 raise ProcedureError(f"correction {i}: unknown kind {c['kind']!r}; use one of "
                                      f"{', '.join(CORRECTION_KINDS)}", source)
+            _known_keys(c, _correction_keys(c["kind"]), f"correction {i} ({c['kind']})", source)
             corrections.append(dict(c))
         fit = doc.get("fit")
         if fit is not None:
             fit = dict(fit)
+            _known_keys(fit, _fit_keys(), "[fit]", source)
             if "span_hz" in fit:
                 fit["span_hz"] = _span(fit["span_hz"], "[fit] span_hz", source)
         res = dict(doc.get("resonance", {}))
+        _known_keys(res, ("span_hz",), "[resonance]", source)
         if "span_hz" in res:
             res["span_hz"] = _span(res["span_hz"], "[resonance] span_hz", source)
         limits = doc.get("limits")
@@ -260,7 +266,45 @@ def _span(v: Any, what: str, source: str) -> tuple[float, float]:
         raise ProcedureError(f"{what} must be [low, high] in hertz", source) from None
     if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
         raise ProcedureError(f"{what} must be [low, high] with low < high", source)
+    if hi < MIN_SPAN_HZ:
+        raise ProcedureError(f"{what} = [{lo:g}, {hi:g}] ends below {MIN_SPAN_HZ:g} Hz: spans are "
+                             f"in hertz (write [{lo:g}e6, {hi:g}e6] for MHz)", source)
     return (lo, hi)
+
+
+def _known_keys(table: dict, allowed, what: str, source: str) -> None:
+    """Refuse a key the step does not take, naming the nearest known one (a likely typo)."""
+    import difflib
+
+    bad = sorted(set(table) - set(allowed) - {"kind"})
+    if bad:
+        near = difflib.get_close_matches(bad[0], list(allowed), n=1)
+        hint = (f"; did you mean {near[0]!r}?" if near
+                else f"; it takes {', '.join(sorted(allowed)) or 'no keys'}")
+        raise ProcedureError(f"{what} has an unknown key {bad[0]!r}{hint}", source)
+
+
+def _signature_keys(func, drop=()) -> tuple[str, ...]:
+    import inspect
+
+    return tuple(n for n, p in inspect.signature(func).parameters.items()
+                 if p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL) and n not in drop)
+
+
+#: Settings a [fit] table takes: the keywords of kit.fit, less the capture, the arrays and
+#: what [import] sets, plus the plate's options (tests/test_procedure.py keeps them in step).
+FIT_KEYS = ("model", "span_hz", "modes", "weighting", "z0_ohm", "start", "max_nfev", "poor_fit",
+            "data", "z_front", "z_back")
+
+
+def _fit_keys() -> tuple[str, ...]:
+    return FIT_KEYS
+
+
+def _correction_keys(kind: str) -> tuple[str, ...]:
+    import kit
+
+    return _signature_keys(getattr(kit, CORRECTION_KINDS[kind][0]))
 
 
 def _relative(p: Path, folder: Path) -> str:
