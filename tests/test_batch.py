@@ -213,3 +213,46 @@ def test_a_failed_step_is_a_failure_record_and_survives_the_cache(lot, tmp_path,
     pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
     bad = first.summary[first.summary["status"] == "error"].iloc[0]
     assert "truncated" in bad["error"] and isinstance(first.captures[-1], Exception)
+
+
+def test_batch_judges_the_corrected_capture_like_python(lot, tmp_path, capsys):
+    """A mask, the corrections columns and the verdicts of a batch run (Python and command
+    line) are those of the corrected capture, as the same steps done by hand give them."""
+    import kit
+    from kit.io.folder import touchstone_files
+
+    root, d, proc_file = lot
+    text = proc_file.read_text() + """
+[[limits.mask]]
+name = "below fs"
+curve = "z_mag_ohm"
+f_min_hz = 1.69e6
+f_max_hz = 1.71e6
+lower = 17.0
+"""
+    proc_file.write_text(text)
+    proc = Procedure.from_file(proc_file)
+    batch = run(proc, d, workers=1, use_cache=False).summary.set_index("capture")
+    out = tmp_path / "cli"
+    assert main(["run", str(proc_file), str(d), "--out", str(out), "--workers", "1",
+                 "--no-cache"]) == 1                  # the truncated file is an error row
+    cli = pd.read_parquet(out / "summary.parquet").set_index("capture")
+    # the same steps by hand: load, the procedure's OSL, fit, resonance, kit.summary
+    osl = kit.osl(*(root / "standards" / f"{s}.s1p" for s in ("open", "short", "load")))
+    caps = [osl(kit.load(p, name_pattern="{lot}-{serial}")) for p in touchstone_files(d)
+            if p.stem != "pzd7-99"]
+    fits = [kit.fit(c, model="bvd", span_hz=(1.6e6, 2.4e6), keep_data=False) for c in caps]
+    res = [kit.resonance(c, span_hz=(1.6e6, 2.4e6)) for c in caps]
+    hand = kit.summary(caps, fits=fits, resonances=res,
+                       limits=proc.limits_object()).set_index("capture")
+    cols = ["verdict", "mask_below_fs_margin_ohm", "corrections", "correction_state", "fs_hz"]
+    for name in hand.index:
+        for c in cols:
+            assert batch.loc[name, c] == hand.loc[name, c] == cli.loc[name, c], (name, c)
+        assert batch.loc[name, "corrections"] == "osl"
+        assert batch.loc[name, "correction_state"].startswith("removed by sweepbook: osl")
+    # pzd7-01 at 1.7 MHz: raw |Z| about 14.6 ohm, corrected about 19.3 ohm (issue 13): the
+    # 17 ohm floor passes on the corrected capture only
+    assert batch.loc["pzd7-01", "mask_below_fs_margin_ohm"] > 0
+    raw = kit.summary([kit.load(d / "pzd7-01.s1p")], limits=proc.limits_object())
+    assert raw["mask_below_fs_margin_ohm"].iloc[0] < 0

@@ -76,7 +76,11 @@ class BatchResult:
         review_log = as_review_log(review_log)
         summ = self.summary if review_log is None else with_review(self.summary, review_log)
 
-        ok = [c for c in self.captures if isinstance(c, Capture)]
+        # the report draws the captures as analysed (corrected where the procedure corrects)
+        pairs = (zip(self.captures, self.corrected) if len(self.corrected) == len(self.captures)
+                 else ((c, None) for c in self.captures))
+        ok = [cor if isinstance(cor, Capture) else c for c, cor in pairs
+              if isinstance(c, Capture)]
         settings = {"procedure": self.procedure.to_dict() if self.procedure else None,
                     "procedure_source": getattr(self.procedure, "source", None),
                     "run": self.stats}
@@ -141,7 +145,10 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
     out = _analyse(item, proc, digest, cache_dir)
     if digest not in _LIMITS:
         _LIMITS[digest] = proc.limits_object()
-    out["row"] = summary_rows([out["capture"]], fits=[out["fit"]],
+    # the row (masks, corrections, correction state) describes the capture as analysed: the
+    # corrected one when the procedure corrects, as the same procedure in a notebook would
+    judged = out["corrected"] if isinstance(out["corrected"], Capture) else out["capture"]
+    out["row"] = summary_rows([judged], fits=[out["fit"]],
                               resonances=[out["resonance"]], limits=_LIMITS[digest])[0]
     if not keep_captures:
         if not isinstance(out["capture"], Failure):

@@ -95,6 +95,20 @@ def _resonance_columns(d: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
+def _step_name(step: dict) -> str:
+    return str(step.get("name") or step.get("kind") or step.get("step") or "step")
+
+
+def _correction_state(cap: Any) -> str | None:
+    """What was removed: the kit's own steps when it corrected the capture, and what the
+    file's header said (``meta["correction_state"]``), so neither is mistaken for the other."""
+    said = cap.meta.get("correction_state")
+    if not cap.provenance:
+        return said
+    done = "removed by sweepbook: " + ", ".join(_step_name(p) for p in cap.provenance)
+    return done + (f" (file header: {said})" if said else "")
+
+
 def _identity_columns(cap: Any) -> dict[str, Any]:
     if failure_reason(cap) is not None:
         path = getattr(cap, "path", None)
@@ -107,9 +121,8 @@ def _identity_columns(cap: Any) -> dict[str, Any]:
         "f_start_hz": float(cap.f_hz[0]) if cap.points else math.nan,
         "f_stop_hz": float(cap.f_hz[-1]) if cap.points else math.nan,
         "z0_ohm": float(np.real(np.asarray(cap.z0).ravel()[0])) if cap.points else math.nan,
-        "date": cap.meta.get("date"), "correction_state": cap.meta.get("correction_state"),
-        "corrections": "; ".join(str(p.get("name") or p.get("kind") or p.get("step") or "step")
-                                 for p in cap.provenance),
+        "date": cap.meta.get("date"), "correction_state": _correction_state(cap),
+        "corrections": "; ".join(_step_name(p) for p in cap.provenance),
         "warnings": "; ".join(f.message for f in cap.findings if f.severity == "warning"),
     }
     for k, v in cap.fields.items():
