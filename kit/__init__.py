@@ -13,8 +13,7 @@ from __future__ import annotations
 import importlib
 from typing import Any
 
-__version__ = "0.1.0"
-
+from kit._version import __version__  # noqa: E402
 from kit.capture import Capture, CaptureError, Finding  # noqa: E402  (light: numpy only)
 
 # name -> "module" or "module:attribute" (relative to kit). One line per public name;

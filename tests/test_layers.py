@@ -78,6 +78,31 @@ def test_cycle_finder_finds_a_cycle():
     assert _cycles(Toy) == [["kit.a", "kit.b"]]
 
 
+def test_no_module_reaches_the_stages_through_the_root_package():
+    """``import kit`` then ``kit.fit(...)`` (the root's lazy exports) would hide an upward
+    import from the layer contract: no module of kit/ imports the root package itself."""
+    graph = _graph()
+    importers = sorted(m for m in graph.find_modules_that_directly_import("kit")
+                       if m != "kit")
+    assert importers == [], f"modules that import the root package 'kit': {importers}"
+
+
+def test_root_import_finder_sees_a_root_import(tmp_path):
+    """The check above finds ``import kit`` in a module (guards it against passing empty)."""
+    grimp = pytest.importorskip("grimp", reason="grimp comes with import-linter (test extra)")
+    pkg = tmp_path / "toy"
+    (pkg / "low").mkdir(parents=True)
+    (pkg / "__init__.py").write_text("")
+    (pkg / "low" / "__init__.py").write_text("")
+    (pkg / "low" / "mod.py").write_text("import toy\n")
+    sys.path.insert(0, str(tmp_path))
+    try:
+        graph = grimp.build_graph("toy", cache_dir=None)
+    finally:
+        sys.path.remove(str(tmp_path))
+    assert graph.find_modules_that_directly_import("toy") == {"toy.low.mod"}
+
+
 def test_layer_contract():
     """import-linter keeps the stage contract written in pyproject.toml."""
     exe = Path(sys.executable).with_name("lint-imports")

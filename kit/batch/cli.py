@@ -12,7 +12,7 @@ import sys
 from pathlib import Path
 from typing import Callable
 
-from kit import __version__
+from kit._version import __version__
 
 
 def _check_args(p: argparse.ArgumentParser) -> None:

@@ -133,7 +133,7 @@ class Procedure:
         fit = doc.get("fit")
         if fit is not None:
             fit = dict(fit)
-            _known_keys(fit, _fit_keys(), "[fit]", source)
+            _known_keys(fit, FIT_KEYS, "[fit]", source)
             if "span_hz" in fit:
                 fit["span_hz"] = _span(fit["span_hz"], "[fit] span_hz", source)
         res = dict(doc.get("resonance", {}))
@@ -215,7 +215,7 @@ class Procedure:
         """
         if not self.corrections:
             return None
-        import kit
+        import kit.corrections as kc
 
         made = []
         for i, c in enumerate(self.corrections, start=1):
@@ -228,15 +228,13 @@ class Procedure:
                         raise ProcedureError(f"correction {i} ({c['kind']}): {key} standard "
                                              f"{p} does not exist", self.source)
                     args[key] = p
-            if "span_hz" in args:
-                args.pop("span_hz")
             try:
-                made.append(getattr(kit, fname)(**args))
+                made.append(getattr(kc, fname)(**args))
             except CaptureError:
                 raise
             except (TypeError, ValueError) as exc:
                 raise ProcedureError(f"correction {i} ({c['kind']}): {exc}", self.source) from None
-        return made[0] if len(made) == 1 else kit.chain(*made)
+        return made[0] if len(made) == 1 else kc.chain(*made)
 
     def limits_object(self):
         """The [limits] table as a :class:`kit.review.limits.Limits` (None without limits).
@@ -297,14 +295,10 @@ FIT_KEYS = ("model", "span_hz", "modes", "weighting", "z0_ohm", "start", "max_nf
             "data", "z_front", "z_back")
 
 
-def _fit_keys() -> tuple[str, ...]:
-    return FIT_KEYS
-
-
 def _correction_keys(kind: str) -> tuple[str, ...]:
-    import kit
+    import kit.corrections as kc
 
-    return _signature_keys(getattr(kit, CORRECTION_KINDS[kind][0]))
+    return _signature_keys(getattr(kc, CORRECTION_KINDS[kind][0]))
 
 
 def _relative(p: Path, folder: Path) -> str:

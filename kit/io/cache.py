@@ -18,7 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from kit import __version__
+from kit._version import __version__
 from kit.capture import Capture, CaptureError, Finding
 from kit.io.atomic import write_bytes, write_text
 from kit.io.names import parse_name, stem_of

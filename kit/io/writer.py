@@ -35,7 +35,7 @@ class ExportError(CaptureError):
 
 def kit_version() -> str:
     """The version of the kit that writes a file (stated in every file it writes)."""
-    from kit import __version__
+    from kit._version import __version__
 
     return __version__
 

@@ -156,7 +156,7 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
     -------
     Path
     """
-    from kit import __version__
+    from kit._version import __version__
     from kit.review.limits import Limits, load_limits
     from kit.review.log import as_review_log
 

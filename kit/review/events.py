@@ -42,7 +42,7 @@ class ReviewLogError(ValueError):
 
 
 def _kit_version() -> str:
-    from kit import __version__
+    from kit._version import __version__
 
     return __version__
 

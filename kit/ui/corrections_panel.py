@@ -139,7 +139,7 @@ class CorrectionsPanel:
     # ------------------------------------------------------------------ computation wiring
     def capture(self, name: str):
         """The Capture of a listed file or capture (loaded once)."""
-        from kit import load
+        from kit.io.touchstone import load
 
         if name not in self._loaded:
             item = self.items[name]
@@ -148,12 +148,12 @@ class CorrectionsPanel:
 
     def build_chain(self):
         """The correction for the current controls (kit.corrections objects), or None."""
-        import kit
+        import kit.corrections as kc
 
         steps = []
         if self.use_cable.value:
             loss = float(self.cable_loss_db_per_m.value)
-            steps.append(kit.cable(self.cable_length_m.value, self.cable_vf.value,
+            steps.append(kc.cable(self.cable_length_m.value, self.cable_vf.value,
                                    self.cable_z0_ohm.value, loss,
                                    from_unit(self.cable_loss_ref_mhz.value, "MHz") if loss
                                    else None))
@@ -161,9 +161,9 @@ class CorrectionsPanel:
             if self.fixture_file.value == NONE:
                 raise ValueError("pick a fixture file (a two-port capture) or switch the "
                                  "fixture off")
-            steps.append(kit.fixture(self.capture(self.fixture_file.value)))
+            steps.append(kc.fixture(self.capture(self.fixture_file.value)))
         if self.use_extension.value:
-            steps.append(kit.port_extension(from_unit(self.delay_ps.value, "ps")))
+            steps.append(kc.port_extension(from_unit(self.delay_ps.value, "ps")))
         mode = self.compensation.value
         if mode != "off":
             keys = ("open", "short", "load") if mode == "open/short/load" else ("open", "short")
@@ -174,16 +174,16 @@ class CorrectionsPanel:
                                  "standards to off")
             stds = [self.capture(v) for v in picked.values()]
             if steps:  # refer the standards to the plane the earlier steps reach
-                ahead = kit.chain(*steps)
+                ahead = kc.chain(*steps)
                 stds = [ahead(s) for s in stds]
             if mode == "open/short/load":
-                steps.append(kit.osl(*stds, load_ohms=self.load_ohms.value))
+                steps.append(kc.osl(*stds, load_ohms=self.load_ohms.value))
             else:
-                steps.append(kit.open_short(*stds))
-        return kit.chain(*steps) if steps else None
+                steps.append(kc.open_short(*stds))
+        return kc.chain(*steps) if steps else None
 
     def _redraw(self) -> None:
-        import kit
+        from kit.corrections import residual
 
         self.chain = None
         self.corrected = self.residual = None
@@ -202,7 +202,7 @@ class CorrectionsPanel:
         if self.check.value != NONE:
             chk = self.capture(self.check.value)
             chk_c = self.chain(chk) if self.chain is not None else chk
-            self.residual = kit.residual(chk_c, self.check_ohms.value)
+            self.residual = residual(chk_c, self.check_ohms.value)
             self.residual_text.value = (
                 f"check part {self.check.value}: worst |Z &minus; Z<sub>exp</sub>|/|Z<sub>exp"
                 f"</sub>| = {self.residual.worst_rel:.3g} at {eng(self.residual.f_hz, 'Hz', 6)} "

@@ -126,11 +126,11 @@ class FitPanel:
         """(trace, item) of capture ``i`` with the chosen method; the item is what is fitted."""
         key = (i, self.method.value)
         if key not in self._cache:
-            import kit
+            from kit.io.touchstone import load
 
             item = self.items[i][1]
             if isinstance(item, (str, os.PathLike)):
-                item = kit.load(item)
+                item = load(item)
             elif isinstance(item, list):
                 item = tuple(item)
             self._cache[key] = (kv.trace(item, method=key[1]), item)
@@ -165,15 +165,15 @@ class FitPanel:
         The capture itself goes to :func:`kit.fit`, which takes its impedance and reference
         impedance the one way the kit does (:func:`kit.network.coerce.sweep`).
         """
-        import kit
+        from kit.resonators.fitting import fit
 
         if self._busy:
             return self.result
         t, item = self._data(self.selector.value)
         span = span_hz(self.span)
-        res = kit.fit(item, model=self.model.value, span_hz=span, modes=int(self.modes.value),
-                      method=self.method.value, weighting=self.weighting.value,
-                      name=self.items[self.selector.value][0])
+        res = fit(item, model=self.model.value, span_hz=span, modes=int(self.modes.value),
+                  method=self.method.value, weighting=self.weighting.value,
+                  name=self.items[self.selector.value][0])
         self.result = res
         self.table.value = params_html(res)
         self._draw(t, res, span)

@@ -66,6 +66,12 @@ def _matching(wb: "Workbench"):
     return match_panel(caps[0], display=False)
 
 
+def _procedure(wb: "Workbench"):
+    from kit.ui.procedure_panel import for_workbench
+
+    return for_workbench(wb)
+
+
 #: Optional panels: (section title, builder). A builder takes the workbench and returns
 #: an object with a ``widget`` attribute; one that raises is skipped with its reason.
 PANEL_BUILDERS: list[tuple[str, Callable[["Workbench"], Any]]] = [
@@ -73,8 +79,7 @@ PANEL_BUILDERS: list[tuple[str, Callable[["Workbench"], Any]]] = [
     ("Resonator fits", _fits),
     ("Review and report", _review),
     ("Matching", _matching),
-    ("Procedure", lambda wb: __import__("kit.ui.procedure_panel",
-                                        fromlist=["for_workbench"]).for_workbench(wb)),
+    ("Procedure", _procedure),
 ]
 
 
