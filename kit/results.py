@@ -19,6 +19,7 @@ from __future__ import annotations
 import dataclasses
 import html
 import math
+import types
 import typing
 from typing import Any, ClassVar
 
@@ -62,7 +63,7 @@ def _is_tuple_type(tp: Any) -> bool:
     origin = typing.get_origin(tp)
     if origin is tuple:
         return True
-    if origin in (typing.Union, getattr(__import__("types"), "UnionType", None)):
+    if origin in (typing.Union, types.UnionType):
         return any(_is_tuple_type(a) for a in typing.get_args(tp))
     return tp is tuple
 

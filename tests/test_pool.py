@@ -27,12 +27,13 @@ def _fails_on_seven(chunk):
     return list(chunk)
 
 
-def test_usable_cpus_is_the_affinity_mask():
+def test_usable_cpus_is_the_affinity_mask(monkeypatch):
     """The default worker count is the CPUs this process may use (Linux sched_getaffinity),
-    capped by the number of tasks."""
-    expected = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
-    assert pool.usable_cpus() == expected
-    assert pool.default_workers() == expected
+    not the machine's count, capped by the number of tasks."""
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 2, 5}, raising=False)
+    monkeypatch.setattr(os, "cpu_count", lambda: 64)
+    assert pool.usable_cpus() == 3
+    assert pool.default_workers() == 3 and pool.default_workers(10) == 3
     assert pool.default_workers(1) == 1
     assert pool.default_workers(0) == 1
 
@@ -77,6 +78,16 @@ def test_a_failing_chunk_goes_to_on_error_or_raises():
         pool.run_chunks(_fails_on_seven, items, workers=2, chunk_size=4)
 
 
-def test_start_method_is_one_without_fork_hazards():
-    """The default start method is forkserver on POSIX, spawn elsewhere (no plain fork)."""
-    assert pool.default_start_method() in ("forkserver", "spawn")
+def _start_methods(chunk: list) -> list:
+    import multiprocessing
+
+    return [multiprocessing.get_start_method() for _ in chunk]
+
+
+def test_workers_start_without_fork_hazards():
+    """Workers are started by the fork server on POSIX (spawn elsewhere), never by a plain
+    fork of a process that may run threads (Python multiprocessing docs, start methods)."""
+    expected = "forkserver" if os.name == "posix" else "spawn"
+    assert pool.default_start_method() == expected
+    seen = pool.run_chunks(_start_methods, list(range(4)), workers=2, chunk_size=2)
+    assert set(seen) == {expected}

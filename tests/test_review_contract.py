@@ -301,7 +301,7 @@ def test_state_orders_by_utc_not_arrival(new_target):
 
 def test_empty_log_state(new_target):
     """An empty log has an empty state with the documented columns."""
-    from kit.review.log import STATE_COLUMNS
+    from kit.review.events import STATE_COLUMNS
     st = ReviewLog(new_target()).state()
     assert len(st) == 0 and list(st.columns) == STATE_COLUMNS
     assert isinstance(st, pd.DataFrame)

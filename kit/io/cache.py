@@ -179,12 +179,3 @@ class CaptureCache:
         doc = {"result": json.loads(body),
                "checksum": hashlib.sha256(json.dumps(json.loads(body), sort_keys=True).encode()).hexdigest()}
         write_text(self.result_entry(sha256, digest), json.dumps(doc))
-
-    def clear(self) -> int:
-        """Remove every entry of this cache format; returns how many were removed."""
-        n = 0
-        if self.root.exists():
-            for p in self.root.rglob("*.npz"):
-                p.unlink()
-                n += 1
-        return n

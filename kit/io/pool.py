@@ -109,8 +109,7 @@ def run_chunks(func: Callable[..., list], items: Sequence[Any], *args: Any,
                workers: int | None = None, chunk_size: int | None = None,
                min_chunk: int = 1, parallel_from: int = 2, start_method: str | None = None,
                progress: bool = False, desc: str | None = None, unit: str = "item",
-               on_error: Callable[[list, BaseException], list] | None = None,
-               preload: Sequence[str] = PRELOAD) -> list:
+               on_error: Callable[[list, BaseException], list] | None = None) -> list:
     """Apply ``func(chunk, *args)`` to chunks of ``items`` in worker processes.
 
     Parameters
@@ -174,7 +173,7 @@ def run_chunks(func: Callable[..., list], items: Sequence[Any], *args: Any,
         else:
             ctx = multiprocessing.get_context(start_method or default_start_method())
             if ctx.get_start_method() == "forkserver":
-                ctx.set_forkserver_preload(list(preload))
+                ctx.set_forkserver_preload(list(PRELOAD))
             with ProcessPoolExecutor(max_workers=min(workers, len(chunks)), mp_context=ctx,
                                      initializer=one_blas_thread) as ex:
                 futures = {ex.submit(func, chunk, *args): k for k, chunk in enumerate(chunks)}

@@ -44,7 +44,6 @@ class Scan:
 
     path: str
     findings: list[Finding] = field(default_factory=list)
-    text: str = ""
     comments: list[str] = field(default_factory=list)
     option_line: str | None = None
     option: dict[str, Any] = field(default_factory=dict)
@@ -128,7 +127,6 @@ def scan_text(text: str, path: str, scan: Scan | None = None) -> Scan:
     whatever the scan ignores, so the reader reads exactly what the scan checked.
     """
     scan = scan or Scan(path=path)
-    scan.text = text
     suffix_ports = _ports_from_name(path, scan)
     # lines end at CR, LF or CR LF only (as the specification and scikit-rf's reader have
     # it), not at the other breaks of str.splitlines (form feed, U+2028, ...)

@@ -29,10 +29,10 @@ import numpy as np
 
 from kit.capture import Capture, CaptureError, Finding
 from kit.io.names import parse_name
+from kit.io.options import FREQ_UNITS
 
 Quantity = Literal["Z", "Y", "S"]
 _COMMENT = ("#", "!", "%")
-_UNITS = {"hz": 1.0, "khz": 1e3, "mhz": 1e6, "ghz": 1e9}
 
 
 def _delimiter(sample: str) -> str | None:
@@ -106,7 +106,7 @@ def load_table(path: str | Path, columns: dict[str, str | int], quantity: Quanti
     path = Path(path)
     if quantity not in ("Z", "Y", "S"):
         raise CaptureError(f"quantity must be 'Z', 'Y' or 'S', not {quantity!r}", path)
-    unit = _UNITS.get(str(f_unit).lower())
+    unit = FREQ_UNITS.get(str(f_unit).upper())
     if unit is None:
         raise CaptureError(f"unknown frequency unit {f_unit!r}; use Hz, kHz, MHz or GHz", path)
     if "f" not in columns:
@@ -186,6 +186,8 @@ def load_table(path: str | Path, columns: dict[str, str | int], quantity: Quanti
     else:
         q = vals[:, 1] + 1j * vals[:, 2]
     with np.errstate(divide="ignore", invalid="ignore"):
+        # Gamma = (Z - Z0)/(Z + Z0) written here because io sits below kit.network (whose
+        # reflection module is the home of the formula) in the layer contract
         if quantity == "Z":
             s11 = (q - z0_ohm) / (q + z0_ohm)
         elif quantity == "Y":

@@ -23,6 +23,8 @@ from datetime import datetime, timedelta, timezone
 from pathlib import Path
 from typing import Any
 
+from kit.io.writer import kit_version
+
 KINDS: tuple[str, ...] = ("note", "marker", "verdict", "retest", "tag")
 VERDICTS: tuple[str, ...] = ("accept", "reject", "retest")
 #: Longest text kept in one event (characters); longer text is refused, not cut.
@@ -39,12 +41,6 @@ ROW_COLUMNS = EVENT_COLUMNS[1:]
 
 class ReviewLogError(ValueError):
     """The review log cannot be used (names the file or server and what to do)."""
-
-
-def _kit_version() -> str:
-    from kit._version import __version__
-
-    return __version__
 
 
 def current_user() -> str:
@@ -160,7 +156,7 @@ def event_row(capture: Any, kind: str, text: str | None, value: Any, author: str
     except ValueError:
         raise ReviewLogError(f"an event uuid must be a UUID, got {event_uuid!r}") from None
     return (utc_now(), ident["capture"], ident["sha256"], ident["path"], kind, value,
-            value_num, text, str(who), _kit_version(), key)
+            value_num, text, str(who), kit_version(), key)
 
 
 STATE_COLUMNS = ["capture", "sha256", "path", "verdict", "verdict_author", "verdict_utc",

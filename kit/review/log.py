@@ -40,17 +40,11 @@ from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Any
 
-from kit.review.events import (  # noqa: F401 - the names kit.review.log has always had
+from kit.review.events import (
     EVENT_COLUMNS,
-    KINDS,
-    MAX_TEXT,
     ROW_COLUMNS,
-    SERVER_SCHEMES,
-    STATE_COLUMNS,
-    VERDICTS,
     ReviewLogError,
     capture_identity,
-    current_user,
     event_row,
     is_server_url,
     select_sql,

@@ -14,7 +14,6 @@ latest verdict is retest (or with a newer retest request), and who decided what.
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -127,4 +126,4 @@ def status_text(table) -> str:
         for _, r in group.iterrows():
             who = f" by {r['verdict_author']} at {r['verdict_utc']}" if r["verdict_author"] else ""
             lines.append(f"  {r['lot'] or '-'}/{r['capture']}{who}")
-    return os.linesep.join(lines)
+    return "\n".join(lines)

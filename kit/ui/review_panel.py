@@ -17,7 +17,8 @@ import html
 import os
 from typing import Any
 
-from kit.review.log import ReviewLog, as_review_log, current_user
+from kit.review.events import current_user
+from kit.review.log import ReviewLog, as_review_log
 from kit.ui.common import MessageBar, classed, show
 
 VERDICT_BUTTONS = (("accept", "Accept", "success", "check"),
