@@ -329,9 +329,10 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
                 bar = tqdm(total=len(items), desc="captures", unit="capture")
             futures = client.map(_process_chunk, chunks, *[[a] * len(chunks) for a in args],
                                  [True] * len(chunks), pure=False)
+            size = {fut.key: len(chunk) for fut, chunk in zip(futures, chunks)}
             for fut in as_completed(futures):
                 if bar is not None:
-                    bar.update(len(chunks[futures.index(fut)]))
+                    bar.update(size[fut.key])
             for part in client.gather(futures):
                 results.extend(part)
         else:
@@ -340,10 +341,9 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
             from kit.io.pool import default_workers, run_chunks
 
             n = workers or default_workers(len(chunks))
-            parallel = n > 1 and len(items) > CHUNK
-            engine = f"{n} local processes" if parallel else "this process"
-            results = run_chunks(_process_chunk, items, *args, workers=n if parallel else 1,
-                                 chunk_size=CHUNK, progress=show, desc="captures",
+            engine = f"{n} local processes" if n > 1 and len(items) > CHUNK else "this process"
+            results = run_chunks(_process_chunk, items, *args, workers=n, chunk_size=CHUNK,
+                                 parallel_from=CHUNK + 1, progress=show, desc="captures",
                                  unit="capture")
     finally:
         if bar is not None:
