@@ -42,6 +42,7 @@ from kit.capture import CaptureError
 from kit.network.coerce import name_of, network_of, reference_ohm
 from kit.network.immittance import z_from_series_through
 from kit.resonators.models import bvd_figures
+from kit.resonators.peak_errors import GRID_FACTOR
 from kit.resonators.peaks import clean_trace, half_power_points, peak_by_reciprocal, vertex_min
 from kit.resonators.registry import get_model
 from kit.results import Result, nan_if_none
@@ -114,7 +115,8 @@ def _noise_rms(v) -> float:
     return float(1.4826 * np.median(np.abs(d2)) / math.sqrt(6.0)) if len(d2) else math.nan
 
 
-def complex_route_flags(capture, method: str = "series-through") -> tuple[str, ...]:
+def complex_route_flags(capture, method: str = "series-through",
+                        span_hz=None) -> tuple[str, ...]:
     """Why the complex impedance of a series-through capture cannot be trusted (empty: it can).
 
     Parameters
@@ -123,6 +125,8 @@ def complex_route_flags(capture, method: str = "series-through") -> tuple[str, .
         A two-port capture.
     method : str
         The impedance method; only "series-through" is examined (others give ``()``).
+    span_hz : (float, float), optional
+        Examine only this range [Hz], the one the analysis reads.
 
     Returns
     -------
@@ -140,7 +144,7 @@ def complex_route_flags(capture, method: str = "series-through") -> tuple[str, .
     """
     if method != "series-through":
         return ()
-    f, s21, _, z0, _, _ = _s21_trace(capture)
+    f, s21, _, z0, _, _ = _s21_trace(capture, span_hz)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         z = z_from_series_through(s21, z0, f)
@@ -157,13 +161,13 @@ def complex_route_flags(capture, method: str = "series-through") -> tuple[str, .
     return tuple(out)
 
 
-def needs_magnitude(capture, method: str = "series-through") -> bool:
+def needs_magnitude(capture, method: str = "series-through", span_hz=None) -> bool:
     """True when a series-through capture must be read from |S21| alone.
 
     See :func:`complex_route_flags` for the tests (negative resistance over a significant
     share of the span, or a resistive path away from resonance: the fixture is not removed).
     """
-    return bool(complex_route_flags(capture, method))
+    return bool(complex_route_flags(capture, method, span_hz))
 
 
 # --------------------------------------------------------------------------- extrema
@@ -205,7 +209,19 @@ class MagnitudeResonance(Result):
     _ROWS = (("fs_hz", "fs (max |S21|)", unit_of("fs_hz")),
              ("fp_hz", "fp (min |S21| above fs)", unit_of("fp_hz")),
              ("s21_peak", "|S21| at fs", ""), ("r1_ohm", "R1", unit_of("r1_ohm")),
-             ("step_hz", "frequency step", unit_of("step_hz")))
+             ("step_hz", "frequency step", unit_of("step_hz")),
+             ("fs_stderr_hz", "standard error of fs and fp", unit_of("fs_stderr_hz")))
+
+    @property
+    def fs_stderr_hz(self) -> float:
+        """Standard uncertainty of fs [Hz]: one frequency step over sqrt(12), the reading of an
+        extremum known to one step (GUM, JCGM 100:2008, 4.3.7)."""
+        return GRID_FACTOR * self.step_hz
+
+    @property
+    def fp_stderr_hz(self) -> float:
+        """Standard uncertainty of fp [Hz] (as for fs; NaN without an anti-resonance)."""
+        return GRID_FACTOR * self.step_hz if math.isfinite(self.fp_hz) else math.nan
 
     def __post_init__(self):
         for key in ("fs_hz", "fp_hz", "s21_peak", "s21_min", "r1_ohm", "step_hz"):

@@ -169,7 +169,9 @@ def fit(capture, model: str = "bvd", span_hz=None, modes: int = 1, method: str =
         raise ValueError(f"unknown data {data!r}; choose auto, complex or magnitude")
     if method == "series-through" and model == "bvd" and modes == 1 and data != "complex":
         from kit.resonators import crystal
-        why = () if data == "magnitude" or z is not None else crystal.complex_route_flags(capture)
+
+        why = (() if data == "magnitude" or z is not None
+               else crystal.complex_route_flags(capture, span_hz=span_hz))
         if data == "magnitude" or why:
             return FitResult(**crystal.magnitude_fit(capture, span_hz=span_hz, name=name,
                                                      flags=why, keep_data=keep_data,

@@ -362,7 +362,7 @@ def resonance(capture_or_f, z=None, span_hz=None, method: str = "reflection",
     if method == "series-through" and not src.from_arrays:
         from kit.resonators import crystal
 
-        why = crystal.complex_route_flags(capture_or_f, method)
+        why = crystal.complex_route_flags(capture_or_f, method, span_hz)
         if why:  # a crystal behind its fixture: only the magnitude of S21 can be read
             return _read_magnitude(crystal.magnitude_resonance(capture_or_f, span_hz), src,
                                    span_hz, why)
@@ -374,8 +374,8 @@ def _read_magnitude(mag, src, span_hz, why) -> Resonance:
 
     fs is the frequency of maximum |S21| and fp that of the minimum above it; k_eff follows
     from them; |Z| at fs is R1 = 2 Z0 (1/|S21| - 1) (the crystal is resistive there). Their
-    standard errors are the frequency step over sqrt(12), the standard uncertainty of a
-    reading known to one step (GUM, JCGM 100:2008, 4.3.7). Qm is left to the magnitude fit.
+    standard errors are those of the extrema reading
+    (:attr:`kit.resonators.crystal.MagnitudeResonance.fs_stderr_hz`). Qm is left to the magnitude fit.
 
     References
     ----------
@@ -385,7 +385,6 @@ def _read_magnitude(mag, src, span_hz, why) -> Resonance:
     from kit.resonators.coupling import k_eff as _k_eff
 
     fs, fp = mag.fs_hz, mag.fp_hz
-    u = mag.step_hz / math.sqrt(12.0)
     keff = float(_k_eff(fs, fp)) if math.isfinite(fp) and fp > fs > 0 else math.nan
     lo_hi = span_hz if span_hz is not None else (float(src.f_hz.min()), float(src.f_hz.max()))
     return Resonance(fm_hz=math.nan, fn_hz=math.nan, fs_hz=fs, fp_hz=fp, fr_hz=math.nan,
@@ -394,8 +393,8 @@ def _read_magnitude(mag, src, span_hz, why) -> Resonance:
                      f2_hz=math.nan, k_eff=keff, qm=math.nan,
                      flags=tuple(dict.fromkeys((*why, *mag.flags))), span_hz=lo_hi,
                      points=int(len(src.f_hz)), step_hz=mag.step_hz, name=src.name,
-                     method=src.method, fs_stderr_hz=u,
-                     fp_stderr_hz=u if math.isfinite(fp) else math.nan)
+                     method=src.method, fs_stderr_hz=mag.fs_stderr_hz,
+                     fp_stderr_hz=mag.fp_stderr_hz)
 
 
 def _read_complex(src, span_hz) -> Resonance:
