@@ -18,7 +18,8 @@ import math
 
 import numpy as np
 
-__all__ = ["SUFFIXES", "PREFIXES", "unit_of", "circuit_unit", "scale_for", "eng"]
+__all__ = ["SUFFIXES", "PREFIXES", "unit_of", "circuit_unit", "scale_for", "eng", "to_unit",
+           "from_unit"]
 
 #: name suffix -> unit symbol. `_s` is seconds only; siemens is `_siemens`.
 SUFFIXES: tuple[tuple[str, str], ...] = (
@@ -91,3 +92,43 @@ def eng(value: float, unit: str, digits: int = 4) -> str:
         return f"{value:g} {unit}".strip()
     factor, prefixed = scale_for([value], unit)
     return f"{value * factor:.{digits}g} {prefixed}".strip()
+
+
+def _prefix_exp(unit: str) -> int:
+    """Power of ten of the prefix of ``unit`` (0 without a prefix), e.g. -3 for "mS"."""
+    bases = {u for _, u in SUFFIXES}
+    if unit in bases:
+        return 0
+    for exp, p in PREFIXES.items():
+        if p and unit.startswith(p) and unit[len(p):] in bases:
+            return exp
+    raise ValueError(f"unknown display unit {unit!r}: an SI prefix and one of "
+                     f"{', '.join(sorted(bases))}")
+
+
+def to_unit(values, unit: str):
+    """Values in SI units expressed in the prefixed ``unit``: ``to_unit(2e-3, "mS") == 2.0``.
+
+    The one home of fixed display units of views and widgets (admittance in mS, span
+    controls in MHz, group delay in ns); the prefixes are those of :data:`PREFIXES`.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
+       prefixes).
+    """
+    return _scale(values, -_prefix_exp(unit))
+
+
+def from_unit(values, unit: str):
+    """Values given in the prefixed ``unit`` back in SI units: ``from_unit(1.5, "MHz") == 1.5e6``.
+
+    The inverse of :func:`to_unit` (same prefixes, BIPM SI brochure Table 7).
+    """
+    return _scale(values, _prefix_exp(unit))
+
+
+def _scale(values, exp: int):
+    """values * 10**exp, multiplying or dividing by an exact power of ten."""
+    v = values if np.isscalar(values) else np.asarray(values)
+    return v * 10.0 ** exp if exp >= 0 else v / 10.0 ** -exp

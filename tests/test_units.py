@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pytest
 
-from kit.units import eng, scale_for, unit_of
+from kit.units import eng, from_unit, scale_for, to_unit, unit_of
 
 
 @pytest.mark.parametrize("name, unit", [
@@ -32,3 +33,15 @@ def test_eng_prints_prefixed_values():
     assert eng(3.9e-8, "H") == "39 nH"
     assert eng(3.316e-6, "H") == "3.316 µH"
     assert eng(math.nan, "H") == "not found"
+
+
+def test_display_units_follow_the_si_prefixes():
+    """mS, MHz, ns and ps scale by 1e3, 1e-6, 1e9 and 1e12 (BIPM SI brochure, 9th ed., Table 7)."""
+    assert to_unit(2e-3, "mS") == pytest.approx(2.0)
+    assert to_unit(3.2e-9, "ns") == pytest.approx(3.2)
+    assert np.allclose(to_unit([1.5e6, 2e6], "MHz"), [1.5, 2.0])
+    assert from_unit(1.5, "MHz") == pytest.approx(1.5e6)
+    assert from_unit(12.0, "ps") == pytest.approx(12e-12)
+    assert to_unit(7.0, "Hz") == 7.0
+    with pytest.raises(ValueError, match="unit"):
+        to_unit(1.0, "Mhz")

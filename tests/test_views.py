@@ -243,18 +243,6 @@ def test_demo_capture_draws(demo_dir):
     assert kv.plot_chart(b, t, "z_mag")[0].get_label() == "pzd7-01"
 
 
-def test_display_units_follow_the_si_prefixes():
-    """mS, MHz, ns and ps scale by 1e3, 1e-6, 1e9 and 1e12 (BIPM SI brochure, 9th ed., Table 7)."""
-    assert kv.to_unit(2e-3, "mS") == pytest.approx(2.0)
-    assert kv.to_unit(3.2e-9, "ns") == pytest.approx(3.2)
-    assert np.allclose(kv.to_unit([1.5e6, 2e6], "MHz"), [1.5, 2.0])
-    assert kv.from_unit(1.5, "MHz") == pytest.approx(1.5e6)
-    assert kv.from_unit(12.0, "ps") == pytest.approx(12e-12)
-    assert kv.to_unit(7.0, "Hz") == 7.0
-    with pytest.raises(ValueError, match="unit"):
-        kv.to_unit(1.0, "Mhz")
-
-
 def test_trace_keeps_the_capture_reference():
     """A 75 ohm capture: Z from Gamma in 75 ohm (Z = Z0 (1+G)/(1-G), Pozar from memory), Gamma = S11."""
     rf = pytest.importorskip("skrf")
@@ -299,5 +287,10 @@ def test_plane_coordinates_of_trace_and_marker_agree():
         x, y = kv.plane_xy(t, kind, columns=10_000)
         px, py = kv.plane_point(r, kind)
         assert np.min(np.hypot(x - px, y - py)) < 1e-9, kind
+    # and the absolute scale: the circle is Y = 1/Z in mS, the Smith plane Gamma itself
+    y200 = 1.0 / z[200]
+    assert kv.plane_point(r, "circle") == pytest.approx((1e3 * y200.real, 1e3 * y200.imag))
+    g200 = (z[200] - 50.0) / (z[200] + 50.0)  # 50 ohm for bare arrays (methods sheet 0)
+    assert kv.plane_point(r, "smith:z") == pytest.approx((g200.real, g200.imag))
     with pytest.raises(ValueError, match="plane"):
         kv.plane_xy(t, "bode", 100)

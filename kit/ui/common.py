@@ -21,7 +21,7 @@ import io
 import warnings
 from typing import Any, Callable
 
-from kit.views.data import from_unit, to_unit
+from kit.units import from_unit, to_unit
 
 #: Message colours (error, note).
 ERROR_FG = "#8c1d18"

@@ -18,8 +18,7 @@ from kit import views as kv
 from kit.network.coerce import reference_ohm
 from kit.network.immittance import SingularPointsWarning
 from kit.ui.common import FigureHost, MessageBar, classed, guess, section, show, touchstone_names
-from kit.units import eng
-from kit.views.data import from_unit
+from kit.units import eng, from_unit
 
 NONE = "(none)"
 

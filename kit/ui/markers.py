@@ -14,6 +14,7 @@ from typing import Any
 from kit import views as kv
 from kit.ui.common import MessageBar, classed, show
 from kit.ui.lot_browser import LotBrowser
+from kit.units import from_unit
 
 
 class MarkerPanel:
@@ -89,7 +90,7 @@ class MarkerPanel:
         if not traces:
             raise ValueError("select at least one capture in the lot browser first")
         t = traces.get(self.target.value) or self.browser.traces[0]
-        idx = kv.find_marker(t, self.kind.value, f_hz=kv.from_unit(self.freq_mhz.value, "MHz"),
+        idx = kv.find_marker(t, self.kind.value, f_hz=from_unit(self.freq_mhz.value, "MHz"),
                              span_hz=self.browser.span_hz())
         r = kv.marker_readout(t, idx, name=f"M{len(self.readouts) + 1}")
         self.readouts.append(r)

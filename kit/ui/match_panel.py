@@ -19,6 +19,7 @@ from kit import match as km
 from kit import views as kv
 from kit.match.circuit import UNITS, eng
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
+from kit.units import from_unit, to_unit
 
 #: (label, key) of the designs offered.
 DESIGNS: tuple[tuple[str, str], ...] = (
@@ -126,8 +127,8 @@ class MatchPanel:
                                               description="design",
                                               layout=w.Layout(width="330px")), "match-design")
         self.f_mhz = classed(w.BoundedFloatText(
-            value=kv.to_unit(f_hz, "MHz"), min=kv.to_unit(f[0], "MHz"),
-            max=kv.to_unit(f[-1], "MHz"), step=0.0001, description="at [MHz]",
+            value=to_unit(f_hz, "MHz"), min=to_unit(f[0], "MHz"),
+            max=to_unit(f[-1], "MHz"), step=0.0001, description="at [MHz]",
             layout=w.Layout(width="200px")), "match-freq")
         self.band_mhz = span_slider(f[0], f[-1], "band [MHz]")
         set_span_hz(self.band_mhz, lo, hi)
@@ -176,7 +177,7 @@ class MatchPanel:
     def update(self) -> None:
         """Design, evaluate and draw with the current controls."""
         self.design = self.rounded = self.response_after = self.limit = self.stress = None
-        f_hz = float(kv.from_unit(self.f_mhz.value, "MHz"))
+        f_hz = float(from_unit(self.f_mhz.value, "MHz"))
         f_lo, f_hi = span_hz(self.band_mhz)
         q = self.q()
         d = make_design(self.design_kind.value, self.capture, f_hz, f_lo, f_hi,

@@ -23,7 +23,7 @@ from typing import Any
 
 from kit.resonators.registry import MODEL_NAMES
 from kit.ui.common import MessageBar, classed, guess, section, show, touchstone_names
-from kit.views.data import from_unit, to_unit
+from kit.units import from_unit, to_unit
 
 NONE = "(none)"
 NO_FIT = "(no fit)"

@@ -16,8 +16,8 @@ This module gathers the whole drawing API:
   :func:`marker_readout`, :func:`readout_text`, :func:`draw_marker`, :func:`draw_readout`,
   :func:`markers_table`, :func:`plot_limits`;
 * fits: :func:`plot_fit` (the model curve of a fit result);
-* data (:mod:`kit.views.data`): :func:`trace`, :class:`Trace`, :data:`PALETTE`, and the
-  fixed display units :func:`to_unit` / :func:`from_unit`;
+* data (:mod:`kit.views.data`): :func:`trace`, :class:`Trace`, :data:`PALETTE` (fixed
+  display units come from :func:`kit.units.to_unit` / :func:`kit.units.from_unit`);
 * reflection-plane coordinates for widgets that update lines: :func:`plane_xy`,
   :func:`plane_point`.
 
@@ -40,10 +40,8 @@ from kit.views.data import (
     PALETTE,
     Trace,
     color,
-    from_unit,
     group_delay_s,
     reciprocal,
-    to_unit,
     trace,
 )
 from kit.views.decimate import columns_of, minmax_indices, window
@@ -72,12 +70,12 @@ from kit.views.smith import (
 
 __all__ = [
     "CHARTS", "color", "columns_of", "db20", "draw_marker", "draw_readout", "find_marker",
-    "fit_polar_radius", "frame_return_loss", "frequency_axis", "from_unit", "gamma_from_z",
+    "fit_polar_radius", "frame_return_loss", "frequency_axis", "gamma_from_z",
     "group_delay_s", "MARKER_KINDS", "marker_readout", "markers_table", "overlay", "PALETTE",
     "plane_point", "plane_xy", "plot_admittance_circle", "plot_chart", "plot_fit", "plot_g_b",
     "plot_group_delay", "plot_limits", "plot_polar", "plot_r_x", "plot_return_loss", "plot_s_db",
     "plot_smith", "plot_vswr", "plot_z_mag_phase", "readout_text", "return_loss_db", "smith_grid",
-    "smith_xy", "style_admittance_circle", "style_chart", "to_unit", "trace", "Trace",
+    "smith_xy", "style_admittance_circle", "style_chart", "trace", "Trace",
     "update_line", "vswr", "write_markers_csv", "xy_for_display",
 ]
 

@@ -14,8 +14,8 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from kit.units import eng
-from kit.views.data import LIMIT_COLOR, MARKER_COLOR, Trace, return_loss_db, to_unit, vswr
+from kit.units import eng, to_unit
+from kit.views.data import LIMIT_COLOR, MARKER_COLOR, Trace, return_loss_db, vswr
 
 #: Marker searches offered by :func:`find_marker`.
 MARKER_KINDS: dict[str, str] = {

@@ -9,7 +9,8 @@ from typing import Any
 
 import numpy as np
 
-from kit.views.data import GRID_Y, GRID_Z, Trace, color, to_unit, trace
+from kit.units import to_unit
+from kit.views.data import GRID_Y, GRID_Z, Trace, color, trace
 from kit.views.decimate import columns_of, minmax_indices, window
 
 #: Normalised resistance / reactance values of the grid (our choice of circles).
