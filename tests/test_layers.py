@@ -116,3 +116,20 @@ def test_modules_stay_small():
     big = {str(p.relative_to(KIT)): n for p in KIT.rglob("*.py")
            if (n := len(p.read_text(encoding="utf-8").splitlines())) >= MAX_LINES}
     assert big == {}, f"modules at or over {MAX_LINES} lines: {big}"
+
+
+def test_contributor_guide_maps_every_module():
+    """DEVELOPERS.md's module map names every module of kit/ (by file or by its folder)."""
+    guide = (KIT.parent / "DEVELOPERS.md").read_text(encoding="utf-8")
+    a, b = guide.index("## Module map"), guide.index("## How to add things")
+    table = guide[a:b]
+    missing = []
+    for p in sorted(KIT.rglob("*.py")):
+        rel = p.relative_to(KIT)
+        if p.name in ("__init__.py", "__main__.py"):
+            continue
+        folder = f"`{rel.parent.as_posix()}/`"
+        if p.name not in table and folder not in table:
+            missing.append(rel.as_posix())
+    assert missing == [], f"modules missing from the module map of DEVELOPERS.md: {missing}"
+    assert guide.index("## The data path") < guide.index("## The layer contract") < a
