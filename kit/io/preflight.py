@@ -27,7 +27,7 @@ from kit.io.keywords import LineState, keyword_line, reference_values
 from kit.io.names import suffix_of
 from kit.io.options import DEFAULT_OPTION, option_text, parse_option
 from kit.io.portref import PREFIX, check_blocks, float_block
-from kit.io.records import numbers, records_of
+from kit.io.records import Block, bulk_rows, numbers, records_of
 
 SUFFIX_RE = re.compile(r"^\.s(\d+)p$", re.IGNORECASE)
 #: Comment lines scikit-rf's reader takes for something else than a comment.
@@ -57,8 +57,11 @@ class Scan:
     freq_lines: Any = field(default_factory=list)
     values: Any = field(default_factory=list)
     noise_rows: int = 0
+    noise: Any = None  # ndarray (rows, 5) of the noise block, as written
     port_impedance: bool = False  # per-frequency references in '! Port Impedance' comments
-    reader_text: str = ""  # what the reader reads, line for line (see scan_text)
+    reader_lines: list[str] = field(default_factory=list)  # see reader_text
+    lines: list[str] = field(default_factory=list)
+    bulk_spans: list[tuple[int, int]] = field(default_factory=list)
 
     def add(self, severity: str, message: str, line: int | None = None, fix: str | None = None,
             code: str = "") -> None:
@@ -67,6 +70,17 @@ class Scan:
     @property
     def has_error(self) -> bool:
         return any(f.severity == "error" for f in self.findings)
+
+    @property
+    def reader_text(self) -> str:
+        """What scikit-rf's reader reads, line for line (see :func:`scan_text`); '' after
+        an error. Data lines read in bulk are filled in here, only when asked for."""
+        if not self.reader_lines:
+            return ""
+        reader = list(self.reader_lines)
+        for a, b in self.bulk_spans:
+            reader[a:b] = [ln.strip() for ln in self.lines[a:b]]
+        return "\n".join(reader) + "\n"
 
 
 def _decode(data: bytes, scan: Scan) -> str:
@@ -130,7 +144,9 @@ def scan_text(text: str, path: str, scan: Scan | None = None) -> Scan:
     suffix_ports = _ports_from_name(path, scan)
     # lines end at CR, LF or CR LF only (as the specification and scikit-rf's reader have
     # it), not at the other breaks of str.splitlines (form feed, U+2028, ...)
-    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    text = text.replace("\r\n", "\n").replace("\r", "\n")
+    lines = text.split("\n")
+    scan.lines = lines
     if not any(ln.strip() for ln in lines):
         scan.add("error", "the file is empty", None, "re-export the capture from the analyser",
                  "empty")
@@ -140,6 +156,7 @@ def scan_text(text: str, path: str, scan: Scan | None = None) -> Scan:
     data_lines: list[tuple[int, list[str]]] = []  # (line, tokens)
     noise_lines: list[tuple[int, list[str]]] = []
     blocks: list[tuple[int, list[float]]] = []  # per-frequency port references
+    at = [0, 0, 0]  # bulk reading: [line, its offset in text, no bulk before this line]
     idx = 0
     while idx < len(lines):
         raw = lines[idx]
@@ -202,12 +219,45 @@ def scan_text(text: str, path: str, scan: Scan | None = None) -> Scan:
                      "put '[Network Data]' before the first data line", "no-network-data")
             st.in_data = True
         st.data_started = True
+        if not bang and idx > at[2]:
+            block = _bulk(text, lines, idx - 1, at)
+            if block is not None:
+                data_lines.append(block)
+                scan.bulk_spans.append((block.start, block.stop))
+                idx = block.stop
+                continue
         data_lines.append((lineno, s.split()))
         reader[lineno - 1] = s
     if st.ref_index is not None and scan.reference:
         reader[st.ref_index] = "[Reference] " + " ".join(repr(r) for r in scan.reference)
     _finish(scan, st, reader, data_lines, noise_lines, blocks, suffix_ports)
     return scan
+
+
+def _bulk(text: str, lines: list[str], i: int, at: list[int]) -> Block | None:
+    """Plain data lines from ``lines[i]`` on (up to the next comment, option line or
+    keyword), read at once by :func:`kit.io.records.bulk_rows`; None to read line by line.
+
+    The lines read this way are the ones the line loop would read as data lines with the
+    same state (no '!', '#' or '[' in them), so both ways give the same records.
+    """
+    off = at[1] + sum(len(ln) + 1 for ln in lines[at[0]:i])
+    at[0], at[1] = i, off
+    stop = len(text)  # the stretch ends at a comment, an option line or a keyword
+    for mark in "![#":
+        q = text.find(mark, off, stop)
+        if q >= 0:
+            stop = q
+    end = len(text) if stop == len(text) else text.rfind("\n", off, stop) + 1
+    at[2] = max(i + text.count("\n", off, end), i + 1)  # one attempt per stretch
+    if end <= off:
+        return None
+    got = bulk_rows(text[off:end], i, lines)
+    if got is None:
+        return None
+    block, used = got
+    at[0], at[1] = block.stop, off + used
+    return block
 
 
 def _finish(scan: Scan, st: LineState, reader: list[str], data_lines, noise_lines, blocks,
@@ -280,7 +330,7 @@ def _finish(scan: Scan, st: LineState, reader: list[str], data_lines, noise_line
         if "TWO-PORT DATA ORDER" in st.seen:
             reader[st.seen["TWO-PORT DATA ORDER"] - 1] = ""
         reader[st.seen["MATRIX FORMAT"] - 1] += "\n[Two-Port Data Order] 12_21"
-    scan.reader_text = "\n".join(reader) + "\n"
+    scan.reader_lines = reader
     _reference_findings(scan)
     _one_path_finding(scan)
 

@@ -14,12 +14,69 @@ References
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from kit.io.options import FREQ_UNITS
 
 #: Values per line of noise parameters: frequency, NFmin, |Gamma_opt|, angle, Rn/Z0 (spec).
 NOISE_VALUES = 5
+#: A stretch of fewer plain data lines is read line by line (numpy's start-up is not worth it).
+BULK_MIN_LINES = 16
+#: Characters of a plain stretch: digits, signs, point, exponent letter, space, tab, newline.
+_PLAIN = b"0123456789+-.eE \t\n"
+
+
+@dataclass
+class Block:
+    """Consecutive plain data lines read at once (internal): ``lines[start:stop]`` of the
+    file, ``rows`` the numbers of each line that is not blank (one line per row, the same
+    count on each), ``linenos`` their 1-based line numbers."""
+
+    start: int
+    stop: int
+    rows: np.ndarray
+    linenos: np.ndarray
+    lines: list
+
+    def token_lines(self) -> list[tuple[int, list[str]]]:
+        """The same lines as ``(line, tokens)``, as the line-by-line scan keeps them."""
+        return [(i + 1, t) for i in range(self.start, self.stop) if (t := self.lines[i].split())]
+
+
+def bulk_rows(chunk: str, start: int, lines: list) -> tuple[Block, int] | None:
+    """Read a stretch of plain data lines (no comment, keyword or option line) in one go.
+
+    ``chunk`` is the text of ``lines[start:...]`` (whole lines). Returns the block (up to its
+    last line that is not blank) and the number of characters it covers, or None when the
+    stretch must be read line by line: fewer than :data:`BULK_MIN_LINES` lines, characters
+    other than those of plain decimal numbers, a token that is not a number, or lines with
+    different counts of values.
+
+    Numbers are read by numpy's text reader (``numpy.loadtxt``), which converts each token
+    with CPython's ``PyOS_string_to_double``, the conversion behind Python's ``float`` that
+    scikit-rf's reader uses: on the characters allowed here a token is read exactly when
+    ``float`` reads it, to the same double (checked by tests/test_touchstone_fuzz.py).
+    """
+    body = chunk.rstrip()
+    nlines = body.count("\n") + 1
+    if nlines < BULK_MIN_LINES or not body.isascii():
+        return None
+    raw = body.encode("ascii")
+    if raw.translate(None, _PLAIN):
+        return None
+    try:
+        rows = np.loadtxt(body.split("\n"), dtype=float, comments=None, ndmin=2)
+    except ValueError:
+        return None
+    stop = start + nlines
+    if len(rows) == nlines:
+        linenos = np.arange(start + 1, stop + 1, dtype=np.int64)
+    else:  # blank lines inside the stretch (rare): the lines of the rows one by one
+        linenos = np.array([i + 1 for i in range(start, stop) if lines[i].strip()],
+                           dtype=np.int64)
+    return Block(start, stop, rows, linenos, lines), len(body) + 1
 
 
 def values_per_record(nports: int, matrix_format: str) -> int:
@@ -127,16 +184,39 @@ def noise_ok(scan, noise_lines) -> bool:
                      "correct or delete the noise block", "noise-data")
             return False
     scan.noise_rows = len(noise_lines)
+    scan.noise = np.array([t for _, toks in noise_lines for t in toks],
+                          dtype=float).reshape(-1, NOISE_VALUES)
     return True
 
 
-def records_of(scan, data_lines, noise_lines) -> list | None:
-    """Group the data lines into records and check the noise lines; None after an error."""
+def _whole_block(scan, data_lines, per: int) -> Block | None:
+    """The data as one :class:`Block` of one record per line, when they are that."""
+    if len(data_lines) != 1 or not isinstance(data_lines[0], Block):
+        return None
+    block = data_lines[0]
+    if block.rows.shape[1] != per:
+        return None
+    if scan.nports == 2 and not scan.version.startswith("2") and \
+            np.any(block.rows[1:, 0] < block.rows[:-1, 0]):
+        return None  # a falling frequency: the noise block or an error, read line by line
+    return block
+
+
+def records_of(scan, data_lines, noise_lines) -> list | Block | None:
+    """Group the data lines into records and check the noise lines; None after an error.
+
+    Data read as one :class:`Block` of one record per line come back as that block.
+    """
     per = values_per_record(scan.nports, scan.matrix_format)
     if not data_lines:
         scan.add("error", "the file has no data lines", None,
                  "re-export the capture from the analyser", "empty")
         return None
+    block = _whole_block(scan, data_lines, per)
+    if block is not None:
+        return block if noise_ok(scan, noise_lines) else None
+    data_lines = [x for d in data_lines
+                  for x in (d.token_lines() if isinstance(d, Block) else (d,))]
     if not scan.version.startswith("2") and scan.nports <= 2:
         records, v1_noise = _line_records(scan, data_lines, per)
         noise_lines = list(noise_lines) + list(v1_noise or [])
@@ -149,8 +229,9 @@ def records_of(scan, data_lines, noise_lines) -> list | None:
 
 def numbers(scan, records) -> bool:
     """Convert the records, check values and frequencies; fills ``scan.freqs``, ``values``."""
+    if isinstance(records, Block):
+        return _checked(scan, records.rows, records.linenos)
     per = len(records[0][1])
-    mult = FREQ_UNITS[scan.option["unit"]]
     # one numpy conversion (about 3x faster than float() per token); the per-record path
     # runs only to name the line of a bad token
     try:
@@ -164,6 +245,12 @@ def numbers(scan, records) -> bool:
                 return False
         raise  # pragma: no cover - numpy and float() read the same tokens
     lines_arr = np.fromiter((ln for ln, _ in records), dtype=np.int64, count=len(records))
+    return _checked(scan, arr, lines_arr)
+
+
+def _checked(scan, arr: np.ndarray, lines_arr: np.ndarray) -> bool:
+    """Check finite values and rising frequencies of the records' numbers."""
+    mult = FREQ_UNITS[scan.option["unit"]]
     finite = np.isfinite(arr).all(axis=1)
     if not finite.all():
         scan.add("error", "NaN or infinite value in the data", int(lines_arr[np.argmin(finite)]),
