@@ -15,9 +15,12 @@ import warnings
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import kit
 from kit import CaptureError
+from kit.io.records import BULK_MIN_LINES, bulk_rows
 
 S1P = "! one-port\n# Hz S MA R 50\n1e6 0.5 10\n2e6 0.5 20\n3e6 0.5 30\n"
 S2P_NOISE = """! two-port with a noise block
@@ -97,6 +100,10 @@ MIXED = """[Version] 2.0
 [End]
 """
 H2P = "# MHz H MA R 50\n1 0.5 10 0.1 20 0.2 30 0.01 40\n2 0.6 15 0.15 25 0.25 35 0.02 45\n"
+#: Long enough (24 plain lines) for the scan to read its data lines in one pass.
+S2P_LONG = "! long two-port\n# kHz S DB R 50\n" + "".join(
+    f"{k + 1}.5 -{k % 7}.25 {10 * k - 120} -3.{k} {k - 12}.5 -3.{k} {k - 12}.5 -{k % 5}.75 "
+    f"{5 * k}\n" for k in range(24))
 TOKENS = ["nan", "inf", "-inf", "1e308", "1e-320", "-1", "0", "1D3", "1_0", "abc", "!", "#",
           "[", "(50+1j)", "R", "MHz", "kHz", "GHz", "Hz", "S", "Z", "Y", "H", "G", "DB", "RI",
           "MA", "\u0663", "\uff11", "12_21", "21_12", "Lower", "Full", "Upper", "2.0", "2", "3"]
@@ -234,7 +241,7 @@ def test_ten_thousand_mutated_files_check_agrees_with_load(tmp_path):
     the file too, frequency, S and z0 are its values (scikit-rf 2.x as the reference)."""
     bases = [("f.s1p", S1P), ("f.s2p", S2P_NOISE), ("f.s3p", S3P_DB), ("f.s1p", Z1P),
              ("f.ts", TS2), ("f.ts", TS3_LOWER), _port_impedance_file(), ("f.s4p", S4P),
-             ("f.ts", MIXED), ("f.s2p", H2P)]
+             ("f.ts", MIXED), ("f.s2p", H2P), ("f.s2p", S2P_LONG)]
     rng = random.Random(20261202)
     stats = {"loaded": 0, "refused": 0, "compared": 0}
     disagreements, raw = [], []
@@ -284,3 +291,42 @@ def test_ten_thousand_mutated_files_check_agrees_with_load(tmp_path):
     assert not raw, raw[:3]
     # the mutations must exercise both outcomes, and the comparison with scikit-rf
     assert stats["loaded"] > 1000 and stats["refused"] > 1000 and stats["compared"] > 500
+
+
+# --------------------------------------------------------------------- one-pass number reading
+NUMBER_TOKENS = st.one_of(
+    st.floats(allow_nan=False, allow_infinity=False).map(repr),
+    st.floats(allow_nan=False, allow_infinity=False).map("{:.5e}".format),
+    st.integers(-10**30, 10**30).map(str),
+    st.sampled_from(["1e999", "-1e-999", "4.9e-324", "1.", ".5", "+.5e+3", "00012", "5E-0",
+                     "0.1000000000000000055511151231257827", "2.4703282292062328e-324"]))
+#: Any token of the allowed characters: a number for float or not ('1e', '+-1', '1.2.3' ...).
+ANY_PLAIN_TOKEN = st.one_of(st.text(alphabet="0123456789+-.eE", min_size=1, max_size=7),
+                            st.sampled_from(["1e", "+-1", "1-2", "1.2.3", "e5", ".", "-", "1e+"]))
+
+
+@settings(max_examples=400, deadline=None)
+@given(k=st.integers(1, 4), nlines=st.integers(BULK_MIN_LINES, 30), data=st.data())
+def test_one_pass_reading_reads_numbers_as_float_does(k, nlines, data):
+    """The scan reads plain data lines in one numpy pass (kit.io.records.bulk_rows). Python's
+    float (what scikit-rf's reader uses, the reference) decides: where every token is a
+    float, the numbers are float's, to the bit; where a token is not, the stretch is left to
+    the line-by-line reading (None)."""
+    rows = [data.draw(st.lists(NUMBER_TOKENS, min_size=k, max_size=k)) for _ in range(nlines)]
+    if data.draw(st.booleans()):  # one token of the allowed characters that may not be a number
+        rows[data.draw(st.integers(0, nlines - 1))][data.draw(st.integers(0, k - 1))] = \
+            data.draw(ANY_PLAIN_TOKEN)
+    sep = data.draw(st.sampled_from([" ", "\t", "  ", " \t "]))
+    text = "\n".join(sep.join(r) for r in rows) + "\n"
+    got = bulk_rows(text, 0, text.split("\n"))
+    try:
+        expected = np.array([[float(t) for t in r] for r in rows])
+    except ValueError:
+        assert got is None
+        return
+    assert got is not None
+    block, used = got
+    assert used == len(text) and block.stop == nlines
+    assert block.rows.shape == expected.shape
+    assert np.array_equal(block.rows.view(np.int64), expected.view(np.int64))  # bit for bit
+    assert np.array_equal(block.linenos, np.arange(1, nlines + 1))

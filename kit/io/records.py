@@ -40,6 +40,9 @@ class Block:
     linenos: np.ndarray
     lines: list
 
+    def __len__(self) -> int:
+        return len(self.rows)
+
     def token_lines(self) -> list[tuple[int, list[str]]]:
         """The same lines as ``(line, tokens)``, as the line-by-line scan keeps them."""
         return [(i + 1, t) for i in range(self.start, self.stop) if (t := self.lines[i].split())]
