@@ -17,7 +17,7 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from kit.units import quantity, table, to_unit
+from kit.units import quantity, table
 from kit.views.data import LIMIT_COLOR, PIN_COLOR, Trace, return_loss_db, vswr
 
 #: Pin searches offered by :func:`find_pin`.
