@@ -199,9 +199,9 @@ def draw_pins(ax, pins, **kw) -> list[Any]:
     -----
     Heads are placed one after the other in display space: each takes the first offset of
     :data:`HEAD_OFFSETS` at which its bounding box meets none of the heads already placed
-    (a greedy search, common practice for label placement, no source); when none is free
-    the last is kept. The figure's renderer measures the text, so the boxes are those
-    drawn.
+    and stays inside the axes (a greedy search, common practice for label placement, no
+    source); failing that the first free offset, and when none is free the last. The
+    figure's renderer measures the text, so the boxes are those drawn.
     """
     kw.setdefault("color", PIN_COLOR)
     canvas = ax.figure.canvas
@@ -221,11 +221,18 @@ def draw_pins(ax, pins, **kw) -> list[Any]:
                   "ec": kw["color"]},
             arrowprops={"arrowstyle": "-", "color": kw["color"], "lw": 0.9,
                         "shrinkA": 0, "shrinkB": 3})
+        frame = ax.get_window_extent(renderer)
+        free = None
         for offset in HEAD_OFFSETS:
             head.set_position(offset)
             box = _head_box(head, renderer)
-            if not any(box.overlaps(b) for b in placed):
-                break
+            if any(box.overlaps(b) for b in placed):
+                continue
+            free = free or offset
+            if frame.contains(box.x0, box.y0) and frame.contains(box.x1, box.y1):
+                break  # free and inside the axes
+        else:
+            head.set_position(free or HEAD_OFFSETS[-1])
         placed.append(_head_box(head, renderer))
         arts += [dot, head]
     return arts
