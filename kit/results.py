@@ -25,7 +25,8 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from kit._text import fmt_value, html_rows
+from kit._text import html_rows
+from kit.units import quantity
 
 __all__ = ["Result", "nan_if_none", "plain"]
 
@@ -105,14 +106,23 @@ class Result:
 
     # -- text and HTML ------------------------------------------------------------
     def view_rows(self) -> list[tuple[str, str]]:
-        """(label, formatted value with unit) for each row of ``_ROWS``."""
+        """(label, value with unit) for each row of ``_ROWS``, by :func:`kit.units.quantity`:
+        an SI prefix, "± standard error" where :meth:`stderr_of` gives one, frequencies to
+        six significant digits (four otherwise) when no uncertainty sets the precision;
+        "not found" for a missing value."""
         out = []
         for key, label, unit in self._ROWS:
             v = getattr(self, key, None)
-            if isinstance(v, float) and math.isnan(v):
-                v = None
-            out.append((label, fmt_value(v, unit)))
+            if v is None or (isinstance(v, float) and math.isnan(v)):
+                out.append((label, "not found"))
+                continue
+            se = self.stderr_of(key)
+            out.append((label, quantity(v, unit, stderr=se, digits=6 if unit == "Hz" else 4)))
         return out
+
+    def stderr_of(self, key: str) -> float | None:
+        """Standard error of the row ``key`` (None when the result states none)."""
+        return None
 
     def _footer(self) -> list[str]:
         lines = []

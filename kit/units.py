@@ -3,8 +3,9 @@
 Every public parameter, result field and summary column that carries a unit ends in the
 suffix of that unit (SI, no prefixes): see :data:`SUFFIXES` and ``docs/nomenclature.md``.
 :func:`unit_of` reads the unit off a name; :func:`scale_for` and :func:`eng` turn values
-into prefixed units for axes, tables and reports, so that no widget or report scales by
-hand.
+into prefixed units for axes, and the number formatter (:func:`quantity`, :func:`delta`,
+:func:`percent`, :func:`column_label`, :func:`table`) writes every number a user reads, so
+that no widget or report scales or rounds by hand.
 
 References
 ----------
@@ -18,8 +19,8 @@ import math
 
 import numpy as np
 
-__all__ = ["SUFFIXES", "PREFIXES", "unit_of", "circuit_unit", "scale_for", "eng", "to_unit",
-           "from_unit"]
+__all__ = ["SUFFIXES", "PREFIXES", "UNPREFIXED", "unit_of", "circuit_unit", "scale_for", "eng",
+           "to_unit", "from_unit", "quantity", "delta", "percent", "column_label", "table"]
 
 #: name suffix -> unit symbol. `_s` is seconds only; siemens is `_siemens`.
 SUFFIXES: tuple[tuple[str, str], ...] = (
@@ -32,6 +33,11 @@ SUFFIXES: tuple[tuple[str, str], ...] = (
 #: Decimal prefixes by power of ten (BIPM SI brochure, Table 7); "µ" is the micro sign.
 PREFIXES: dict[int, str] = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k",
                             6: "M", 9: "G", 12: "T"}
+
+#: Units that take no SI prefix: logarithmic and relative units, angles, the degree
+#: Celsius, and compound units where a prefix would be ambiguous (BIPM SI brochure,
+#: 9th ed., sections 4 and 5.4; "mdB" or "k°" are not written).
+UNPREFIXED: frozenset[str] = frozenset({"dB", "°", "°C", "%", "ppm", "dB/m", "m²/N", "1"})
 
 #: Circuit element symbols (first letters of fit parameters) -> unit.
 _ELEMENTS = {"R": "Ω", "L": "H", "C": "F", "G": "S"}
@@ -70,11 +76,12 @@ def scale_for(values, unit: str) -> tuple[float, str]:
     """Factor and prefixed unit that bring ``values`` to between 1 and 1000.
 
     ``x * factor`` is in the returned unit, e.g. ``scale_for([1.6e6, 2.4e6], "Hz") ==
-    (1e-6, "MHz")``. Chosen from the largest finite magnitude; (1.0, unit) for none.
+    (1e-6, "MHz")``. Chosen from the largest finite magnitude; (1.0, unit) for none, for a
+    dimensionless quantity and for the units of :data:`UNPREFIXED`.
     """
     v = np.abs(np.asarray(values, dtype=float))
     v = v[np.isfinite(v) & (v > 0)]
-    if v.size == 0 or not unit:
+    if v.size == 0 or not unit or unit in UNPREFIXED:
         return 1.0, unit
     exp = int(math.floor(math.log10(float(v.max())) / 3.0) * 3)
     exp = max(min(PREFIXES), min(max(PREFIXES), exp))
@@ -132,3 +139,262 @@ def _scale(values, exp: int):
     """values * 10**exp, multiplying or dividing by an exact power of ten."""
     v = values if np.isscalar(values) else np.asarray(values)
     return v * 10.0 ** exp if exp >= 0 else v / 10.0 ** -exp
+
+
+# -- the number formatter --------------------------------------------------------------------
+#
+# One rule for every number a user reads (tables, reasons, reports, read-outs):
+#
+# * a value is printed with ``digits`` significant digits, trailing zeros kept, in the SI
+#   prefix that puts it between 1 and 1000, a space before the unit (none before "°");
+# * a negative number carries the true minus sign U+2212 ("−"), never a hyphen;
+# * a standard uncertainty is printed "value ± u" with ``u`` to two significant digits in
+#   its *own* prefix ("2.032 nF ± 1.5 pF"), and the value is never printed finer than the
+#   last digit of ``u`` (GUM 7.2.6); the "±" here states a standard uncertainty, not an
+#   interval of a high level of confidence (GUM 7.2.2, fourth form, and its note);
+# * a missing value reads "not available", an infinite one "∞".
+
+MINUS = "\u2212"
+MISSING = "not available"
+
+
+def _missing(value) -> bool:
+    if value is None:
+        return True
+    try:
+        return math.isnan(float(value))
+    except (TypeError, ValueError):
+        return True
+
+
+def _place(x: float, digits: int) -> int:
+    """Power of ten of the last of ``digits`` significant digits of ``x`` (x != 0), after
+    rounding (999.96 at four digits rounds up to 1000, whose last digit is the ones)."""
+    e = math.floor(math.log10(abs(x)))
+    r = round(abs(x), digits - 1 - e)
+    if r >= 10.0 ** (e + 1):
+        e += 1
+    return e - (digits - 1)
+
+
+def _prefix_for(x: float, unit: str) -> int:
+    """Power of ten of the SI prefix that brings the (rounded) ``x`` between 1 and 1000."""
+    if not unit or unit in UNPREFIXED or x == 0:
+        return 0
+    exp = int(math.floor(math.log10(abs(x)) / 3.0) * 3)
+    return max(min(PREFIXES), min(max(PREFIXES), exp))
+
+
+def _join(number: str, unit: str) -> str:
+    if not unit:
+        return number
+    return f"{number}{unit}" if unit == "°" else f"{number} {unit}"
+
+
+def _fixed(x: float, decimals: int) -> str:
+    """``x`` with ``decimals`` decimals, the true minus sign, no negative zero."""
+    text = f"{abs(x):.{max(decimals, 0)}f}"
+    return (MINUS if x < 0 and float(text) != 0 else "") + text
+
+
+def _parts(value: float, unit: str, place: int) -> tuple[str, str]:
+    """(number, prefixed unit) of ``value`` rounded at the power of ten ``place``."""
+    rounded = round(value, -place)
+    exp = _prefix_for(rounded if rounded != 0 else value, unit)
+    return _fixed(rounded / 10.0 ** exp, exp - place), (PREFIXES[exp] if exp else "") + unit
+
+
+def _infinite(value: float, unit: str) -> str:
+    return _join(("" if value > 0 else MINUS) + "∞", unit)
+
+
+def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
+    """A value with its unit in an SI prefix, and its standard uncertainty if given.
+
+    Parameters
+    ----------
+    value : float or None
+        The value in the SI unit ``unit`` (no prefix) [unit].
+    unit : str
+        Unit symbol without prefix ("Hz", "F", "Ω", "dB", "°", "" for a number).
+    stderr : float, optional
+        Standard uncertainty of ``value`` [unit]; NaN says it could not be estimated.
+    digits : int
+        Significant digits of the value (trailing zeros kept).
+
+    Returns
+    -------
+    str
+        ``quantity(1975126.7, "Hz") == "1.975 MHz"``, ``quantity(2.03226e-9, "F",
+        1.5e-12) == "2.032 nF ± 1.5 pF"``; "not available" for None or NaN, "∞ Hz" for an
+        infinite value. Units of :data:`UNPREFIXED` and numbers without unit take no
+        prefix; a dimensionless number outside 10^-3..10^6 is written with a power of ten.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019: prefixes
+       (Table 7); a space between number and unit except for the degree of plane angle
+       (8th ed. section 5.3.3, 9th ed. section 5.4.3, from memory).
+    .. [2] JCGM 100:2008 (GUM), section 7.2.2: how a result is stated with its combined
+       standard uncertainty (the "±" form names the standard uncertainty and not a
+       confidence interval); section 7.2.6: the uncertainty to at most two significant
+       digits, the estimate rounded consistently (from memory).
+    """
+    if _missing(value):
+        return MISSING
+    x = float(value)
+    if math.isinf(x):
+        return _infinite(x, unit)
+    digits = max(int(digits), 1)
+    if x == 0:
+        head = _join(_fixed(0.0, digits - 1), unit)
+    elif (not unit or unit in UNPREFIXED) and not 1e-3 <= abs(x) < 1e6:
+        head = _join(_power_of_ten(x, digits), unit)
+    else:
+        place = _place(x, digits)
+        u = None if stderr is None else float(stderr)
+        if u is not None and math.isfinite(u) and u > 0:
+            place = max(place, _place(u, 2))
+        head = _join(*_parts(x, unit, place))
+    if stderr is None:
+        return head
+    return head + " ± " + _uncertainty(stderr, unit)
+
+
+def _uncertainty(stderr, unit: str) -> str:
+    if _missing(stderr):
+        return MISSING
+    u = abs(float(stderr))
+    if math.isinf(u):
+        return _infinite(u, unit)
+    if u == 0:
+        return _join("0", unit)
+    if (not unit or unit in UNPREFIXED) and not 1e-3 <= u < 1e6:
+        return _join(_power_of_ten(u, 2), unit)
+    return _join(*_parts(u, unit, _place(u, 2)))
+
+
+_SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def _power_of_ten(x: float, digits: int) -> str:
+    """"1.234 × 10⁻⁷": a mantissa of ``digits`` significant digits and a power of ten."""
+    place = _place(x, digits)
+    e = place + digits - 1
+    mantissa = _fixed(round(x, -place) / 10.0 ** e, digits - 1)
+    return f"{mantissa} × 10{str(e).translate(_SUPERSCRIPT)}"
+
+
+def percent(fraction, digits: int = 2, signed: bool = False) -> str:
+    """A fraction as a percentage to ``digits`` significant digits: ``0.0366 -> "3.7 %"``.
+
+    ``signed`` writes "+" or the true minus sign; NaN or None give "not available". The
+    space before "%" follows the BIPM SI brochure (9th ed., section 5.4.7, from memory).
+    """
+    if _missing(fraction):
+        return MISSING
+    p = 100.0 * float(fraction)
+    if math.isinf(p):
+        return _infinite(p, "%")
+    text = quantity(p if signed else abs(p), "%", digits=digits) if p else "0 %"
+    return "+" + text if signed and p > 0 else text
+
+
+def delta(value, unit: str = "", relative_to=None, digits: int = 3) -> str:
+    """A signed difference with its unit, and relative to a reference if given.
+
+    ``delta(-75126.7, "Hz", relative_to=1.95e6) == "−75.1 kHz (−3.9 %)"``: always a sign
+    ("+" or the true minus U+2212), ``digits`` significant digits; the percentage is
+    ``value / |relative_to|`` (omitted when the reference is zero or missing).
+    """
+    if _missing(value):
+        return MISSING
+    x = float(value)
+    text = quantity(abs(x), unit, digits=digits)
+    if x > 0:
+        text = "+" + text
+    elif x < 0:
+        text = MINUS + text
+    if relative_to is not None and not _missing(relative_to) and float(relative_to) != 0:
+        text += f" ({percent(x / abs(float(relative_to)), signed=True)})"
+    return text
+
+
+_ELEMENT_STEM = ("c0", "c1", "c2", "r0", "r1", "r2", "l1", "l2", "esr", "esl", "cp", "rs")
+
+
+def column_label(name: str) -> tuple[str, str]:
+    """(label, unit) of a column by the suffix rule: ``"fs_hz" -> ("fs", "Hz")``,
+    ``"c0_f" -> ("C0", "F")``, ``"k_eff" -> ("k_eff", "")``; circuit elements in capitals."""
+    unit = unit_of(name)
+    low = name.lower()
+    stem = name
+    for suffix, u in sorted(SUFFIXES, key=lambda su: -len(su[0])):
+        if low.endswith(suffix) and u == unit:
+            stem = name[: -len(suffix)]
+            break
+    head, _, rest = stem.partition("_")
+    if head.lower() in _ELEMENT_STEM or (head[:1].lower() in "rlc" and head[1:].isdigit()
+                                         and head[1:] != ""):
+        head = head.upper()
+    label = head + (" " + rest.replace("_", " ") if rest else "")
+    return label, unit
+
+
+def table(frame, digits=4, labels: dict | None = None):
+    """A DataFrame for reading: unit-suffixed columns get "label [prefixed unit]" headers
+    and formatted cells; other columns are kept as they are.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        Columns named by the suffix rule (``fs_hz``, ``c0_f``, ``qm``...); the frame is
+        not modified.
+    digits : int or dict
+        Significant digits of the largest value of a column (one for all, or by column
+        name, default 4 for the others).
+    labels : dict, optional
+        Column name -> label where the one of :func:`column_label` does not suit
+        (``{"r_ohm": "R"}``); the unit is still read off the name.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Text cells. A numeric column whose values lie within a factor of 1000 shares one
+        prefix, named in its header ("fs [MHz]" over "1.975"); a wider column gives each
+        cell its own prefix and unit. Missing values are empty cells.
+    """
+    import pandas as pd
+
+    out = {}
+    for name in frame.columns:
+        col = frame[name]
+        n = digits.get(name, 4) if isinstance(digits, dict) else int(digits)
+        numeric = pd.api.types.is_numeric_dtype(col) and not pd.api.types.is_bool_dtype(col)
+        if not numeric:
+            out[str(name)] = col
+            continue
+        label, unit = column_label(str(name))
+        label = (labels or {}).get(name, label)
+        if pd.api.types.is_integer_dtype(col) and not unit:
+            out[label] = col.map(str)
+            continue
+        header, cells = _column(col.to_numpy(dtype=float), unit, n)
+        out[label + (f" [{header}]" if header else "")] = cells
+    return pd.DataFrame(out, index=frame.index)
+
+
+def _column(v: np.ndarray, unit: str, digits: int) -> tuple[str, list[str]]:
+    """Header unit and cells of one numeric column (see :func:`table`)."""
+    finite = np.abs(v[np.isfinite(v) & (v != 0)])
+    if finite.size and finite.max() / finite.min() >= 1000.0 or (
+            finite.size and (not unit or unit in UNPREFIXED)
+            and not 1e-3 <= finite.max() < 1e6):
+        return "", ["" if _missing(x) else quantity(x, unit, digits=digits) for x in v]
+    top = float(finite.max()) if finite.size else 1.0
+    exp = _prefix_for(top, unit)
+    place = _place(top, digits)
+    shown = (PREFIXES[exp] if exp else "") + unit
+    cells = ["" if _missing(x) else (_infinite(x, "") if math.isinf(x)
+             else _fixed(round(x, -place) / 10.0 ** exp, exp - place)) for x in v]
+    return shown, cells

@@ -1,8 +1,8 @@
 """Real browser: JupyterLab on loopback, headless Debian Chromium driven by Playwright.
 
 Runs the lot review notebook top to bottom, then uses the workbench as a person would
-(select a capture, switch the chart, move the span, place a marker) and checks that the
-readout and the figure change. A second test does the same with the lot browser on two
+(select a capture, switch the chart, move the span, place a pin) and checks that the
+pin table and the figure change. A second test does the same with the lot browser on two
 100,001 point captures written into the server's folder by the test. Each interaction's
 latency (from the action to changed canvas pixels) is printed as a table at the end of
 the module; the goal is under 100 ms, but nothing asserts on time. Screenshots go to the
@@ -210,7 +210,7 @@ def _stage_notebooks(root: Path) -> None:
 
 
 def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
-    """Run-all works; selecting, chart choice, span and marker each redraw the figure."""
+    """Run-all works; selecting, chart choice, span and pin each redraw the figure."""
     _stage_notebooks(lab[2])
     expect, fig, panel = pw.expect, ".sb-lot-figure", ".sb-lot-browser"
     timings: dict[str, float] = {}
@@ -221,17 +221,17 @@ def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
         expect(status).to_contain_text("3 captures", timeout=30_000)
         before = _select_chart_span(page, panel, fig, "pzd7-05 · 1601 pts", before, timings)
 
-        # place a marker: the readout appears and the figure shows it
-        page.locator(".sb-marker-kind select").select_option(label="minimum |Z|")
+        # place a pin: its reading appears in the table and the figure shows it
+        page.locator(".sb-pin-kind select").select_option(label="minimum |Z|")
         t0 = time.perf_counter()
-        page.locator("button.sb-marker-place").click()
-        expect(page.locator(".sb-readout")).to_contain_text("M1", timeout=15_000)
-        expect(status).to_contain_text("1 marker", timeout=15_000)
-        _until_changed(page, fig, before, t0, "place marker", timings)
-        text = page.locator(".sb-readout").inner_text()
+        page.locator("button.sb-pin-place").click()
+        expect(page.locator(".sb-pin-table")).to_contain_text("f [MHz]", timeout=15_000)
+        expect(status).to_contain_text("1 pin", timeout=15_000)
+        _until_changed(page, fig, before, t0, "place pin", timings)
+        text = page.locator(".sb-pin-table").inner_text()
         assert "MHz" in text and "Ω" in text and "VSWR" in text
-        assert "pzd7-05" in page.locator(".sb-marker-table").inner_text()
-        assert page.locator(".sb-marker-target select").input_value() == "pzd7-05"
+        assert "pzd7-05" in page.locator(".sb-pin-table").inner_text()
+        assert page.locator(".sb-pin-target select").input_value() == "pzd7-05"
         page.locator(fig).scroll_into_view_if_needed()
         shot = _shot(page, tmp_path, "lot_review_workbench", page.locator(".sb-workbench"))
         assert shot.stat().st_size > 20_000

@@ -38,7 +38,7 @@ def test_panel_fits_on_build_and_shows_table(panel):
     # Fixture A of the methods sheet 1.2 (IEEE 176 BVD): the fit must find C0 = 1 nF.
     r = panel.result
     assert r.ok and r.params["C0"] == pytest.approx(1e-9, rel=1e-3)
-    assert "std. error" in panel.table.value and html.escape("disc <1>") in panel.table.value
+    assert "standard uncertainty" in panel.table.value and html.escape("disc <1>") in panel.table.value
     assert "<1>" not in panel.table.value
     assert panel.host.renders >= 1 and panel.host.widget.value[:4] == b"\x89PNG"
     assert len(panel.ax_circle.lines) == 2  # measured circle and model

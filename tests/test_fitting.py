@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -376,7 +377,7 @@ def test_round_trip_report_html_and_plot():
     np.testing.assert_allclose(back.z, r.z)
     failed = kit.fit(f[:4], z=z[:4])
     assert FitResult.from_dict(json.loads(failed.to_json())).reason == failed.reason
-    assert "+/-" in r.report() and "C1" in r.report()
+    assert " ± " in r.report() and "C1" in r.report()
     page = r._repr_html_()
     assert "<script>" not in page and "&lt;script&gt;" in page
     axes = r.plot()
@@ -447,7 +448,8 @@ def test_report_gives_every_number_its_unit():
     w = 2 * np.pi * f
     z = 1 / (1j * w * c0 + 1 / (r1 + 1j * w * l1 + 1 / (1j * w * c1)))
     text = kit.fit(f, z=z * (1 + 1e-4 * np.cos(37 * w / w[0])), model="bvd").report()
-    assert " F +/- " in text and " H +/- " in text and " Ω +/- " in text and " Hz +/- " in text
+    for unit in ("F", "H", "Ω", "Hz"):  # each parameter in its SI-prefixed unit (SI Table 7)
+        assert re.search(rf"\d [fpnµmkMG]?{unit} ± \d+(\.\d+)? [fpnµmkMG]?{unit}\b", text), unit
 
 
 def test_fit_uses_the_captures_own_reference_impedance():
@@ -482,3 +484,13 @@ def test_fit_uses_the_captures_own_reference_impedance():
     # a reference that contradicts the capture's is refused, not silently used
     with pytest.raises(CaptureError, match="75"):
         kit.fit(cap, weighting="reflection", z0_ohm=50.0)
+
+
+def test_fit_report_writes_value_and_standard_uncertainty():
+    """"C0 = 2.032 nF ± 1.5 pF": the GUM's (JCGM 100:2008, 7.2.2) "±" form of a standard
+    uncertainty, the uncertainty to two significant digits (7.2.6), SI prefixes (BIPM SI
+    brochure, Table 7); the same string in the HTML view."""
+    r = FitResult("bvd", params={"C0": 2.03226e-9}, stderr={"C0": 1.5e-12}, ok=True)
+    assert "C0 = 2.032 nF ± 1.5 pF  (0.074 %)" in r.report()
+    assert "2.032 nF ± 1.5 pF" in r._repr_html_()
+    assert "not a confidence interval" in r.report()

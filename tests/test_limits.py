@@ -80,6 +80,21 @@ def test_quantity_margins_and_words():
     assert v.worst.name == "fs_hz"
 
 
+def test_reason_reads_like_the_issue_example():
+    """Numbers in words by kit.units.quantity: SI prefix, four significant digits, the
+    margin to three, the relative margin in percent (BIPM SI brochure, Table 7; the space
+    before % by its section 5.4.7, from memory). 2.05 MHz - 1975126.7 Hz = 74 873.3 Hz,
+    3.7 % of 2.05 MHz (worked by hand)."""
+    from kit.review.limits import QuantityLimit
+    from kit.review.verdicts import check_quantity
+
+    c = check_quantity(QuantityLimit("fs_hz", min=2.05e6, max=2.4e6, label="fs"),
+                       {"fs_hz": 1975126.7})
+    assert c.reason == ("fs = 1.975 MHz is below the minimum 2.050 MHz by 74.9 kHz "
+                        "(3.7 % of the bound)")
+    assert dict(c.view_rows())["relative margin"] == "−3.7 %"
+
+
 def test_incomplete_and_fail_precedence():
     """Missing values give 'incomplete'; a failing check makes the verdict 'fail' anyway."""
     lim = parse_limits(EXAMPLE)
@@ -251,7 +266,7 @@ def test_verdict_and_checks_follow_the_result_protocol():
     assert v.to_dict()["reasons"] == v.reasons
     assert "Verdict: incomplete" in v.report() and "fs_hz" in v.report()
     fs = next(c for c in v.checks if c.name == "fs_hz")
-    assert "10 kHz" in fs.report()  # margin 2.05 MHz - 2.04 MHz, printed with an SI prefix
+    assert "10.00 kHz" in fs.report()  # margin 2.05 MHz - 2.04 MHz, printed with an SI prefix
     hostile = Check("<script>", "quantity", "pass", "a < b & c")
     assert "<script>" not in hostile._repr_html_() and "&lt;script&gt;" in hostile._repr_html_()
 

@@ -140,7 +140,11 @@ def test_extension_letter_case_and_metadata(tmp_path):
     assert cap.meta["date"] == "2026-03-04 10:11"
     assert "OSL" in cap.meta["correction_state"]
     assert cap.meta["reference_ohm"] == [50.0]
-    assert cap.fields == {"lot": "LOTA", "serial": 17}
+    assert cap.fields == {"lot": "LOTA", "serial": "017"}  # text as written in the name
+    typed = kit.load(p, name_pattern="{lot}-{serial:int}")  # the pattern says "a number"
+    assert typed.fields == {"lot": "LOTA", "serial": 17}
+    with pytest.raises(ValueError, match="unknown type"):
+        kit.load(p, name_pattern="{lot}-{serial:str}")
     import hashlib
     assert cap.sha256 == hashlib.sha256(p.read_bytes()).hexdigest()
 
@@ -246,7 +250,7 @@ def test_crystal_max_s21_reproduces_the_published_table():
     """Frequency of max |S21| per crystal capture matches the published table in
     shared/realdata/README.md (crystal-series-through, CC-BY-SA-4.0) to its 1 Hz rounding."""
     folder = realdata_path("crystal-series-through")
-    table = kit.load_folder(folder, pattern="{mode}_{temperature_c}C")
+    table = kit.load_folder(folder, pattern="{mode}_{temperature_c:int}C")
     assert set(table["status"]) <= {"ok", "warning"}
     from kit.io.folder import capture_of
 

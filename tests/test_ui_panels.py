@@ -154,41 +154,44 @@ def test_corrected_toggle_uses_the_correction(lot):
     assert np.allclose(b.traces[0].z, raw - 10.0)
 
 
-def test_marker_panel_places_lists_and_exports(lot, tmp_path):
-    """Markers are found with kit.views.find_marker, listed, drawn and written to CSV."""
+def test_pin_panel_places_lists_and_exports(lot, tmp_path):
+    """Pins are found with kit.views.find_pin, listed in a table beside the figure (units
+    in the headers), drawn without a read-out box and written to CSV."""
     import pandas as pd
 
     from kit.ui.lot_browser import lot_browser
-    from kit.ui.markers import marker_panel
+    from kit.ui.pins import pin_panel
 
     b = lot_browser(lot, select=[1, 2], display=False, interactive=False)
-    m = marker_panel(b, csv_path=tmp_path / "m.csv", display=False)
+    m = pin_panel(b, csv_path=tmp_path / "m.csv", display=False)
     assert m.target.options == ("pzd7-01", "pzd7-02")
     m.kind.value = "min_z"
     m.place.click()
     t = b.traces[0]
-    assert m.readouts[0]["index"] == kv.find_marker(t, "min_z", span_hz=b.span_hz())
-    assert "Ω" in m.readout.value and "M1" in m.table_html.value
+    assert m.readings[0]["index"] == kv.find_pin(t, "min_z", span_hz=b.span_hz())
+    assert "f [MHz]" in m.table_html.value and "|Z| [Ω]" in m.table_html.value
     m.add("nearest", 2.2)
-    assert abs(m.readouts[1]["f_hz"] - 2.2e6) < 2e3
-    assert len(b.marker_artists) == 2 * 2 * 2 + 1  # 2 markers x 2 views x (dot, label) + readout
+    assert abs(m.readings[1]["f_hz"] - 2.2e6) < 2e3
+    assert len(b.pin_artists) == 2 * 2 * 2  # 2 pins x 2 views x (dot, head); no read-out box
+    assert not any(getattr(a, "get_bbox_patch", lambda: None)() is not None
+                   and a.get_text().count("\n") for a in b.pin_artists)
     m.export.click()
     back = pd.read_csv(tmp_path / "m.csv")
-    assert list(back["marker"]) == ["M1", "M2"] and "wrote 2" in m.message.last
-    assert m.csv_text.value.startswith("marker,trace,f_hz")
-    b.chart.value = "r"  # markers follow a chart change
-    assert len(b.marker_artists) == 9
+    assert list(back["pin"]) == [1, 2] and "wrote 2" in m.message.last
+    assert m.csv_text.value.startswith("pin,trace,f_hz")
+    b.chart.value = "r"  # pins follow a chart change
+    assert len(b.pin_artists) == 8
     m.clear.click()
-    assert b.marker_artists == [] and m.readouts == []
+    assert b.pin_artists == [] and m.readings == []
 
 
-def test_marker_panel_reports_impossible_search(lot):
+def test_pin_panel_reports_impossible_search(lot):
     """A search that finds nothing says why in the panel."""
     from kit.ui.lot_browser import lot_browser
-    from kit.ui.markers import marker_panel
+    from kit.ui.pins import pin_panel
 
     b = lot_browser(lot, display=False, interactive=False)
-    m = marker_panel(b, display=False)
+    m = pin_panel(b, display=False)
     m.place.click()
     assert "select at least one capture" in m.message.last
     b.select.value = _rows(lot, "pzd7-01")
@@ -199,14 +202,14 @@ def test_marker_panel_reports_impossible_search(lot):
 
 
 def test_workbench_stacks_sections(lot, tmp_path):
-    """The workbench stacks the lot and marker sections (no tabs) and adds extra panels."""
+    """The workbench stacks the lot and pin sections (no tabs) and adds extra panels."""
     import ipywidgets as w
 
     from kit.ui.workbench import workbench
 
     wb = workbench(lot, select=[1], display=False, interactive=False,
-                   markers_csv=str(tmp_path / "m.csv"), extras=False)
-    assert list(wb.sections) == ["Lot", "Markers"]
+                   pins_csv=str(tmp_path / "m.csv"), extras=False)
+    assert list(wb.sections) == ["Lot", "Pins"]
     assert not any(isinstance(c, w.Tab) for c in wb.widget.children)
     wb.add_section("Notes", w.Label("free text"))
     assert wb.widget.children[-1] is wb.sections["Notes"]
@@ -224,7 +227,7 @@ def test_workbench_hosts_the_other_panels(lot, demo_dir):
 
     wb = workbench(lot, select=[1], display=False, interactive=False,
                    corrections_source=demo_dir)
-    built = set(wb.sections) - {"Lot", "Markers"}
+    built = set(wb.sections) - {"Lot", "Pins"}
     assert built | set(wb.skipped) == {"Corrections", "Resonator fits", "Review and report",
                                         "Matching", "Procedure"}
     assert "review_log" in wb.skipped.get("Review and report", "review_log")

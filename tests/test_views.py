@@ -119,12 +119,13 @@ def test_long_sweep_is_decimated_without_altering_data():
 
 @pytest.mark.parametrize("chart", list(kv.CHARTS))
 def test_every_chart_labels_units_and_returns_its_line(chart):
-    """Each named chart draws one line and labels x as frequency [Hz] and y with a unit."""
+    """Each named chart draws one line and labels x as frequency in the unit of its ticks
+    and y with a unit."""
     f, z, _ = _bvd(n=801)
     _, ax = _axes()
     arts = kv.plot_chart(ax, (f, z), chart, label="x")
     assert len(arts) == 1 and arts[0].get_label() == "x"
-    assert ax.get_xlabel() == "frequency [Hz]"
+    assert ax.get_xlabel() == "frequency [MHz]"  # the prefix of the ticks (SI Table 7)
     assert "[" in ax.get_ylabel() and ax.get_ylabel().endswith("]")
 
 
@@ -157,57 +158,62 @@ def test_admittance_circle_diameter_is_one_over_r1():
     assert g_ms.max() == pytest.approx(100.0, rel=1e-3)  # 1/R1 = 0.1 S
 
 
-def test_marker_searches_find_series_resonance():
+def test_pin_searches_find_series_resonance():
     """min |Z|, max G and zero phase fall at fs = 1/(2 pi sqrt(L1 C1)) of a low-loss BVD (methods 2.1)."""
     f, z, fs = _bvd(n=20001, r1=1.0)
     t = kv.trace((f, z), label="bvd")
     step = f[1] - f[0]
     for kind in ("min_z", "max_g", "zero_phase"):
-        assert abs(f[kv.find_marker(t, kind)] - fs) < 0.002 * fs, kind
-    i = kv.find_marker(t, "nearest", f_hz=1.12e6)
+        assert abs(f[kv.find_pin(t, kind)] - fs) < 0.002 * fs, kind
+    i = kv.find_pin(t, "nearest", f_hz=1.12e6)
     assert abs(f[i] - 1.12e6) <= step / 2
-    assert f[kv.find_marker(t, "max_z")] > fs
+    assert f[kv.find_pin(t, "max_z")] > fs
     with pytest.raises(ValueError, match="frequency"):
-        kv.find_marker(t, "nearest")
+        kv.find_pin(t, "nearest")
     with pytest.raises(ValueError, match="does not cross zero"):
-        kv.find_marker(t, "zero_phase", span_hz=(f[0], f[10]))
-    with pytest.raises(ValueError, match="unknown marker"):
-        kv.find_marker(t, "peak")
+        kv.find_pin(t, "zero_phase", span_hz=(f[0], f[10]))
+    with pytest.raises(ValueError, match="unknown pin"):
+        kv.find_pin(t, "peak")
 
 
-def test_marker_readout_is_consistent():
-    """The readout gives Y = 1/Z, Gamma = (Z-Z0)/(Z+Z0) and VSWR of |Gamma| (methods 0 and 8.3)."""
+def test_pin_reading_is_consistent():
+    """The reading gives Y = 1/Z, Gamma = (Z-Z0)/(Z+Z0) and VSWR of |Gamma| (methods 0 and 8.3)."""
     t = kv.trace((np.array([1e6, 2e6]), np.array([25 + 0j, 100 + 50j])), label="p")
-    r = kv.marker_readout(t, 0, "A")
+    r = kv.pin_reading(t, 0, "A")
     assert r["f_hz"] == 1e6 and r["z_ohm"] == 25 and r["g_siemens"] == pytest.approx(0.04)
     assert r["gamma"] == pytest.approx(-1 / 3) and r["vswr"] == pytest.approx(2.0)
-    text = kv.readout_text(r)
+    text = kv.reading_text(r)
     for unit in ("MHz", "Ω", "mS", "°", "VSWR"):
         assert unit in text
+    assert "1.000000 MHz" in text and "40.00 mS" in text  # Y = 1/25 ohm (SI prefixes, Table 7)
     with pytest.raises(IndexError):
-        kv.marker_readout(t, 5)
+        kv.pin_reading(t, 5)
 
 
-def test_markers_csv_written_atomically(tmp_path):
-    """The markers table goes to CSV with units in the column names, and reads back."""
+def test_pins_csv_written_atomically(tmp_path):
+    """The pins table goes to CSV with units in the column names, and reads back; the shown
+    table has the units in its headers and SI-prefixed numbers (SI brochure, Table 7)."""
     import pandas as pd
 
     t = kv.trace((np.array([1e6, 2e6]), np.array([25 + 0j, 100 + 50j])), label="p")
-    table = kv.markers_table([kv.marker_readout(t, i, f"M{i + 1}") for i in range(2)])
-    out = kv.write_markers_csv(table, tmp_path / "m.csv")
+    table = kv.pins_table([kv.pin_reading(t, i, str(i + 1)) for i in range(2)])
+    out = kv.write_pins_csv(table, tmp_path / "m.csv")
     back = pd.read_csv(out)
-    assert list(back["marker"]) == ["M1", "M2"] and back["x_ohm"][1] == 50.0
+    assert list(back["pin"]) == [1, 2] and back["x_ohm"][1] == 50.0
     assert "f_hz" in back.columns and not list(tmp_path.glob("*.tmp"))
+    shown = kv.pins_display(table)
+    assert list(shown["f [MHz]"]) == ["1.000000", "2.000000"]
+    assert list(shown["X [Ω]"]) == ["0.00", "50.00"] and "|Z| [Ω]" in shown.columns
 
 
-def test_limits_and_markers_draw_where_asked():
-    """Limit segments sit at their value over their span; a marker sits at its point."""
+def test_limits_and_pins_draw_where_asked():
+    """Limit segments sit at their value over their span; a pin sits at its point."""
     _, ax = _axes()
     arts = kv.plot_limits(ax, [(1e6, 2e6, 3.0), (2e6, 3e6, 1.0, "lower")])
     assert list(arts[0].get_xdata()) == [1e6, 2e6] and list(arts[0].get_ydata()) == [3.0, 3.0]
     with pytest.raises(ValueError, match="side"):
         kv.plot_limits(ax, [(1, 2, 3, "middle")])
-    dot, _ = kv.draw_marker(ax, 1.5e6, 2.0)
+    dot, _ = kv.draw_pin(ax, 1.5e6, 2.0)
     assert list(dot.get_xdata()) == [1.5e6]
 
 
@@ -278,11 +284,11 @@ def test_plot_fit_draws_the_registry_model():
     assert not failed.ok and kv.plot_fit(failed, ax_m) == []
 
 
-def test_plane_coordinates_of_trace_and_marker_agree():
-    """A marker's plane point lies on the trace's plane curve (Gamma, polar, G/B in mS)."""
+def test_plane_coordinates_of_trace_and_pin_agree():
+    """A pin's plane point lies on the trace's plane curve (Gamma, polar, G/B in mS)."""
     f, z, fs = _bvd(n=401)
     t = kv.trace((f, z), label="bvd")
-    r = kv.marker_readout(t, 200)
+    r = kv.pin_reading(t, 200)
     for kind in ("smith:z", "polar", "circle"):
         x, y = kv.plane_xy(t, kind, columns=10_000)
         px, py = kv.plane_point(r, kind)
@@ -294,3 +300,44 @@ def test_plane_coordinates_of_trace_and_marker_agree():
     assert kv.plane_point(r, "smith:z") == pytest.approx((g200.real, g200.imag))
     with pytest.raises(ValueError, match="plane"):
         kv.plane_xy(t, "bode", 100)
+
+
+def test_heads_of_close_pins_never_overlap():
+    """Pins on neighbouring points of a steep curve: after drawing, the bounding boxes of
+    their heads (as the renderer draws them) do not intersect, and each needle still ends
+    at its own point (geometry checked by matplotlib's own Bbox.overlaps)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    fig, ax = _axes()
+    FigureCanvasAgg(fig)
+    f = np.linspace(1e6, 3e6, 2001)
+    ax.plot(f, np.sin(f / 1e5))
+    kv.frequency_axis(ax)
+    pins = [(f[i], np.sin(f[i] / 1e5), str(k + 1)) for k, i in enumerate(range(1000, 1012, 2))]
+    arts = kv.draw_pins(ax, pins)
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    heads = arts[1::2]
+    boxes = [h.get_bbox_patch().get_window_extent(renderer) for h in heads]  # drawn circles
+    for i in range(len(boxes)):
+        for j in range(i + 1, len(boxes)):
+            assert not boxes[i].overlaps(boxes[j]), (i, j)
+    for h, (x, y, _) in zip(heads, pins):
+        assert h.xy == (x, y)
+
+
+def test_frequency_axis_names_the_unit_of_its_ticks():
+    """Under ticks in MHz the label reads "frequency [MHz]", under kHz "[kHz]" (SI Table 7)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    fig, ax = _axes()
+    FigureCanvasAgg(fig)
+    ax.plot([1.6e6, 2.4e6], [1, 2])
+    kv.frequency_axis(ax)
+    fig.canvas.draw()
+    assert ax.get_xlabel() == "frequency [MHz]"
+    texts = [t.get_text() for t in ax.get_xticklabels()]
+    assert np.allclose([float(t) for t in texts], ax.get_xticks() * 1e-6)  # ticks in MHz
+    ax.set_xlim(1e3, 9e5)
+    fig.canvas.draw()
+    assert ax.get_xlabel() == "frequency [kHz]"

@@ -62,7 +62,7 @@ class _StandardsCorrection(Correction):
             if not (_all_near(z0, ref) and _all_near(zs, ref)):
                 raise CaptureError(
                     f"reference impedances differ: the capture {cap.name!r} is on "
-                    f"{_refs(z0)} ohm, the {_role(key)} {std.name!r} on {_refs(zs)} ohm; "
+                    f"{_refs(z0)} Ω, the {_role(key)} {std.name!r} on {_refs(zs)} Ω; "
                     "renormalise them to one reference first", cap.path)
             if not same_grid(cap.f_hz, std.f_hz):
                 s_on_grid(cap, std, _role(key), self.resample)  # raises with both grids

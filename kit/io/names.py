@@ -1,7 +1,9 @@
 """Metadata fields from file names, with patterns such as ``"{lot}-{serial}"``.
 
 A pattern is literal text with ``{field}`` place-holders. It must match the whole file
-stem. Values that read as integers or decimal numbers become ``int`` or ``float``.
+stem. A field is text as written in the name (``{serial}`` keeps "01"); the pattern says
+when it is a number: ``{serial:int}`` matches digits and gives an ``int``,
+``{temp_c:float}`` a decimal number and gives a ``float``.
 """
 
 from __future__ import annotations
@@ -13,7 +15,11 @@ from typing import Any
 
 from kit.capture import Finding
 
-_FIELD = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)\}")
+_FIELD = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)(?::(int|float))?\}")
+
+#: What a typed field matches, and how it is read.
+_TYPES = {None: (".+?", str), "int": ("[+-]?[0-9]+", int),
+          "float": ("[+-]?(?:[0-9]+\\.?[0-9]*|\\.[0-9]+)(?:[eE][+-]?[0-9]+)?", float)}
 
 
 @lru_cache(maxsize=64)
@@ -28,23 +34,21 @@ def compile_pattern(pattern: str) -> re.Pattern[str]:
         if name in names:
             raise ValueError(f"name pattern {pattern!r} uses {{{name}}} twice")
         names.add(name)
-        parts.append(f"(?P<{name}>.+?)")
+        parts.append(f"(?P<{name}>{_TYPES[m.group(2)][0]})")
         pos = m.end()
     parts.append(re.escape(pattern[pos:]))
+    bad = re.search(r"\{[A-Za-z_][A-Za-z0-9_]*:[^}]*\}", _FIELD.sub("", pattern))
+    if bad:
+        raise ValueError(f"name pattern {pattern!r}: {bad.group(0)} has an unknown type; "
+                         "write {name} for text, {name:int} or {name:float} for a number")
     if not names:
         raise ValueError(f"name pattern {pattern!r} has no {{field}}")
     return re.compile("^" + "".join(parts) + "$")
 
 
-def _convert(text: str) -> Any:
-    try:
-        return int(text)
-    except ValueError:
-        pass
-    try:
-        return float(text)
-    except ValueError:
-        return text
+def _types(pattern: str) -> dict[str, Any]:
+    """Field name -> reader (str, int or float) by the pattern's ``{name:type}``."""
+    return {m.group(1): _TYPES[m.group(2)][1] for m in _FIELD.finditer(pattern)}
 
 
 def parse_name(stem: str, pattern: str, path: str | None = None) -> tuple[dict[str, Any], Finding | None]:
@@ -53,7 +57,8 @@ def parse_name(stem: str, pattern: str, path: str | None = None) -> tuple[dict[s
     Returns
     -------
     fields : dict
-        Field name to value (int, float or str); empty when the name does not match.
+        Field name to value: text, or int / float where the pattern says ``{name:int}`` /
+        ``{name:float}``; empty when the name does not match.
     finding : Finding or None
         A warning when the name does not match the pattern.
     """
@@ -62,7 +67,8 @@ def parse_name(stem: str, pattern: str, path: str | None = None) -> tuple[dict[s
     if not m:
         return {}, Finding("warning", f"file name {stem!r} does not match the pattern {pattern!r}",
                            None, "rename the file or change the pattern", "name-pattern", path)
-    return {k: _convert(v) for k, v in m.groupdict().items()}, None
+    read = _types(pattern)
+    return {k: read[k](v) for k, v in m.groupdict().items()}, None
 
 
 def suffix_of(path: str | Path) -> str:

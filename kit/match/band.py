@@ -12,9 +12,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from kit.match.circuit import MatchDesign, Part, eng, load_grid, load_name, load_z
+from kit.match.circuit import MatchDesign, Part, load_grid, load_name, load_z
 from kit.match.designs import REF_L, l_network
 from kit.match.response import ladder_waves, return_loss_db
+from kit.units import eng
 
 OBJECTIVES = ("return-loss", "gain")
 

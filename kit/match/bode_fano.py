@@ -37,6 +37,7 @@ import numpy as np
 from kit.match.circuit import load_grid, load_z, measured_z
 from kit.resonators.peaks import clean_trace, conductance_peak, half_power_points, q_half_power
 from kit.results import Result
+from kit.units import quantity
 
 REF_FANO = ("R. M. Fano, J. Franklin Inst. 249 (1950); Pozar, Microwave Engineering, 4th ed., "
             "section 5.9 (from memory for the section)")
@@ -156,7 +157,7 @@ class FanoLimit(Result):
     def reason(self) -> str:
         """Why ``ok`` is False ("" when ok)."""
         return "" if self.ok else (f"the limit is not a finite positive number: R = "
-                                   f"{self.r_ohm:.4g} ohm, C = {self.c_f:.4g} F")
+                                   f"{quantity(self.r_ohm, 'Ω')}, C = {quantity(self.c_f, 'F')}")
 
     @property
     def log_budget(self) -> float:
@@ -207,10 +208,11 @@ class FanoLimit(Result):
 
     def summary(self) -> str:
         """Plain text."""
-        eq = f"R = {self.r_ohm:.4g} ohm, C = {self.c_f:.4g} F"
+        eq = f"R = {quantity(self.r_ohm, 'Ω')}, C = {quantity(self.c_f, 'F')}"
         if self.model != "parallel-rc":
-            eq += f", L = {self.l_h:.4g} H"
-        lines = [f"Bode-Fano limit ({self.model}: {eq}) over {self.f_lo_hz:.6g}..{self.f_hi_hz:.6g} Hz",
+            eq += f", L = {quantity(self.l_h, 'H')}"
+        lines = [f"Bode-Fano limit ({self.model}: {eq}) over "
+                 f"{quantity(self.f_lo_hz, 'Hz', digits=6)}..{quantity(self.f_hi_hz, 'Hz', digits=6)}",
                  f"  limit on the integral of ln(1/|Gamma|) d omega = {self.bound_rad_s:.4g} "
                  "rad/s; best constant |Gamma| over the band "
                  f"{self.gamma_min:.4g} (return loss {self.rl_max_db:.2f} dB)"]
@@ -350,8 +352,10 @@ def bode_fano(load=None, f_lo_hz: float = None, f_hi_hz: float = None, *,
             r, l, c, q_rel, (f1, fs, f2) = _series_rlc_estimate(f, z)
             # Qm from the grid: R1 exact at the peak only to the grid; C1, L1 follow Qm
             l_std, c_std = l * q_rel, c * q_rel
-            flags.append(f"motional branch from the conductance peak at {fs:.6g} Hz and its "
-                         f"half-power points {f1:.6g}, {f2:.6g} Hz (grid-limited estimate)")
+            flags.append(f"motional branch from the conductance peak at "
+                         f"{quantity(fs, 'Hz', digits=6)} and its half-power points "
+                         f"{quantity(f1, 'Hz', digits=6)}, {quantity(f2, 'Hz', digits=6)} "
+                         "(grid-limited estimate)")
         else:
             g, g_std, coef, std, resid = _fit(f, z, model)
             if g <= 0:

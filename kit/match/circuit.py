@@ -24,7 +24,7 @@ import numpy as np
 from kit.capture import Capture, CaptureError
 from kit.network.coerce import is_network, network_of, sweep
 from kit.results import Result, plain
-from kit.units import eng as _eng
+from kit.units import eng, quantity
 
 PART_KINDS = ("L", "C", "T")
 PLACEMENTS = ("series", "shunt", "transformer")
@@ -123,16 +123,6 @@ class Part:
         return f"{self.name} {self.placement} {what} {eng(self.value, UNITS[self.kind])}"
 
 
-def eng(value: float, unit: str, digits: int = 4) -> str:
-    """Engineering notation, e.g. ``eng(3.9e-8, "H") == "39 nH"``."""
-    if not np.isfinite(value) or value == 0:
-        return f"{value:g} {unit}"
-    prefixes = {-15: "f", -12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G"}
-    exp = int(np.floor(np.log10(abs(value)) / 3.0) * 3)
-    exp = max(-15, min(9, exp))
-    return f"{value / 10.0**exp:.{digits}g} {prefixes[exp]}{unit}"
-
-
 def chain(parts, f_hz, q_inductor=None, q_capacitor=None) -> np.ndarray:
     """ABCD matrix of a ladder (source first), shape (points, 2, 2); identity if empty."""
     f = np.atleast_1d(np.asarray(f_hz, dtype=float))
@@ -171,7 +161,8 @@ def load_name(load) -> str:
         return f"function {getattr(load, '__name__', 'load')}"
     if np.ndim(load) == 0:
         z = complex(load)
-        return f"Z = {z.real:.6g} {'+' if z.imag >= 0 else '-'} j{abs(z.imag):.6g} ohm"
+        return (f"Z = {quantity(z.real, 'Ω', digits=6)} {'+' if z.imag >= 0 else '−'} "
+                f"j{quantity(abs(z.imag), 'Ω', digits=6)}")
     return "impedance array"
 
 
@@ -217,8 +208,10 @@ def load_z(load, f_hz) -> np.ndarray:
         if np.any(f < lo - tol) or np.any(f > hi + tol):
             path = getattr(load, "path", None)
             raise CaptureError(
-                f"frequency {f.min():.6g}..{f.max():.6g} Hz is outside the capture's range "
-                f"{lo:.6g}..{hi:.6g} Hz; choose frequencies inside the measured sweep", path)
+                f"frequency {quantity(f.min(), 'Hz', digits=6)}..{quantity(f.max(), 'Hz', digits=6)}"
+                f" is outside the capture's range {quantity(lo, 'Hz', digits=6)}.."
+                f"{quantity(hi, 'Hz', digits=6)}; choose frequencies inside the measured sweep",
+                path)
         ok = np.isfinite(z)
         if not np.all(ok):
             fg, z = fg[ok], z[ok]
@@ -298,7 +291,7 @@ class MatchDesign(Result):
         rows = [(k, "not used" if v == "not found" else v) for k, v in super().view_rows()]
         return rows + [
             (f"{p.name} ({p.placement})",
-             _eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {p.value:.4g}")
+             eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {p.value:.4g}")
             for p in self.parts]
 
     def _footer(self) -> list[str]:
@@ -401,7 +394,7 @@ class MatchDesign(Result):
 
     def summary(self) -> str:
         """Plain text: title, parts (source to load), notes."""
-        lines = [self.heading, f"  source {self.r_source_ohm:g} ohm -> "
+        lines = [self.heading, f"  source {quantity(self.r_source_ohm, 'Ω')} -> "
                  + " -> ".join(p.name for p in self.parts) + " -> load"]
         lines += ["  " + p.label() for p in self.parts]
         lines += ["  note: " + n for n in self.notes]

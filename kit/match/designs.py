@@ -15,7 +15,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from kit.match.circuit import MatchDesign, Part, eng, load_grid, load_name, load_z
+from kit.match.circuit import MatchDesign, Part, load_grid, load_name, load_z
+from kit.units import eng, quantity
 
 REF_L = ("D. M. Pozar, Microwave Engineering, 4th ed., Wiley 2012, section 5.1, L-section "
          "matching (equation numbers from memory)")
@@ -28,7 +29,7 @@ REF_XFMR = ("Ideal transformer Zp = (Np/Ns)^2 Zs (common practice, no source; me
 def _z_at(load, f_hz: float) -> complex:
     z = complex(load_z(load, f_hz)[0])
     if not np.isfinite(z):
-        raise ValueError(f"the load impedance at {f_hz:.6g} Hz is not finite ({z})")
+        raise ValueError(f"the load impedance at {quantity(f_hz, 'Hz', digits=6)} is not finite ({z})")
     return z
 
 
@@ -116,17 +117,19 @@ def tuning_inductor(c0_f, f_hz: float, kind: str = "shunt", r_source_ohm: float 
             b = (1.0 / z).imag
             if b <= 0:
                 raise ValueError(
-                    f"the load is inductive at {f:.6g} Hz (Im Y = {b:.4g} S): a shunt inductor "
+                    f"the load is inductive at {quantity(f, 'Hz', digits=6)} (Im Y = "
+                    f"{quantity(b, 'S')}): a shunt inductor "
                     "cannot cancel it; choose a frequency where the element is capacitive")
             val = 1.0 / (w * b)
-            basis = f"measured susceptance Im Y = {b:.6g} S at {f:.6g} Hz"
+            basis = f"measured susceptance Im Y = {quantity(b, 'S')} at {quantity(f, 'Hz', digits=6)}"
         else:
             if z.imag >= 0:
                 raise ValueError(
-                    f"the load is inductive at {f:.6g} Hz (Im Z = {z.imag:.4g} ohm): a series "
+                    f"the load is inductive at {quantity(f, 'Hz', digits=6)} (Im Z = "
+                    f"{quantity(z.imag, 'Ω')}): a series "
                     "inductor cannot cancel it; choose a frequency where it is capacitive")
             val = -z.imag / w
-            basis = f"measured reactance Im Z = {z.imag:.6g} ohm at {f:.6g} Hz"
+            basis = f"measured reactance Im Z = {quantity(z.imag, 'Ω')} at {quantity(f, 'Hz', digits=6)}"
     else:
         c0 = float(c0_f)
         if not (np.isfinite(c0) and c0 > 0):
@@ -202,13 +205,13 @@ def transformer(r_load_ohm, r_source_ohm: float = 50.0, *, f_hz: float | None = 
             raise ValueError("give f_hz: the real part of a complex or measured load is taken there")
         f = _check_f(f_hz)
         z = _z_at(load, f)
-        rl = _check_r(z.real, f"Re Z of the load at {f:.6g} Hz")
+        rl = _check_r(z.real, f"Re Z of the load at {quantity(f, 'Hz', digits=6)}")
     n = float(np.sqrt(rs / rl))
     turns = _turns(n, max_turns)
     part = Part("T1", "T", "transformer", n, turns=turns)
     return MatchDesign(
         kind="transformer",
-        title=f"ideal transformer Np/Ns = {n:.4g} ({rl:.4g} ohm -> {rs:.4g} ohm)",
+        title=f"ideal transformer Np/Ns = {n:.4g} ({quantity(rl, 'Ω')} -> {quantity(rs, 'Ω')})",
         parts=(part,), r_source_ohm=rs, f_design_hz=f, z_load_design_ohm=z,
         params={"r_load_ohm": rl, "r_source_ohm": rs, "f_hz": f_hz,
                 "load": None if is_num else load_name(load)},
@@ -285,7 +288,8 @@ def _l_solutions(zl: complex, z0: float, topology: str):
                 out.append(("shunt-load", sign, x, b))
         elif topology == "shunt-load":
             raise ValueError(
-                f"no shunt-at-load L-network: Re(1/ZL) > 1/R0 for ZL = {zl:.6g} ohm, R0 = {z0:g}")
+                f"no shunt-at-load L-network: Re(1/ZL) > 1/R0 for ZL = {zl:.6g} Ω, "
+                f"R0 = {quantity(z0, 'Ω')}")
     if topology in ("series-load", "all"):
         if rl <= z0:
             for sign in (+1, -1):
@@ -293,7 +297,8 @@ def _l_solutions(zl: complex, z0: float, topology: str):
                 b = sign * np.sqrt((z0 - rl) / rl) / z0
                 out.append(("series-load", sign, x, b))
         elif topology == "series-load":
-            raise ValueError(f"no series-at-load L-network: Re ZL = {rl:.6g} ohm > R0 = {z0:g}")
+            raise ValueError(f"no series-at-load L-network: Re ZL = {quantity(rl, 'Ω')} > R0 = "
+                             f"{quantity(z0, 'Ω')}")
     return out
 
 
@@ -344,7 +349,8 @@ def l_network(z_load_ohm, f_hz: float, r_source_ohm: float = 50.0,
     z0 = _check_r(r_source_ohm, "r_source_ohm")
     zl = _z_at(z_load_ohm, f)
     if zl.real <= 0:
-        raise ValueError(f"the load has no resistance at {f:.6g} Hz (Re Z = {zl.real:.4g} ohm); "
+        raise ValueError(f"the load has no resistance at {quantity(f, 'Hz', digits=6)} (Re Z = "
+                         f"{quantity(zl.real, 'Ω')}); "
                          "a lossless L-network cannot match it")
     if topology == "auto":
         topology = "shunt-load" if zl.real > z0 else "series-load"

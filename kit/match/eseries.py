@@ -18,7 +18,8 @@ import dataclasses
 
 import numpy as np
 
-from kit.match.circuit import UNITS, MatchDesign, Part, eng
+from kit.match.circuit import UNITS, MatchDesign, Part
+from kit.units import eng
 
 E12: tuple[float, ...] = (1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2)
 E24: tuple[float, ...] = (1.0, 1.1, 1.2, 1.3, 1.5, 1.6, 1.8, 2.0, 2.2, 2.4, 2.7, 3.0,

@@ -27,7 +27,7 @@ from kit.network.reflection import (  # noqa: F401
     vswr,
 )
 from kit.results import Result
-from kit.units import scale_for
+from kit.units import percent, quantity, scale_for
 
 
 def ladder_waves(design: MatchDesign | None, z_load, f_hz, v_source=1.0, r_source_ohm=50.0,
@@ -167,7 +167,7 @@ def bandwidth(f_hz, rl_db_values, rl_db: float = 10.0) -> Bandwidth:
     if r[k] < rl_db:
         return Bandwidth(rl_db, nan, nan, f[k], nan, nan, False,
                          f"no point reaches {rl_db:g} dB return loss (best {r[k]:.2f} dB at "
-                         f"{f[k]:.6g} Hz)")
+                         f"{quantity(f[k], 'Hz', digits=6)})")
     lo = k
     while lo > 0 and ok[lo - 1] and r[lo - 1] >= rl_db:
         lo -= 1
@@ -186,8 +186,9 @@ def bandwidth(f_hz, rl_db_values, rl_db: float = 10.0) -> Bandwidth:
     f_lo, f_hi = edge(lo, lo - 1), edge(hi, hi + 1)
     width = f_hi - f_lo
     frac = width / np.sqrt(f_lo * f_hi) if f_lo > 0 else nan
-    msg = (f"RL >= {rl_db:g} dB from {f_lo:.6g} to {f_hi:.6g} Hz (width {width:.4g} Hz, "
-           f"{100 * frac:.3g} %)") + ("; " + notes[0] if notes else "")
+    msg = (f"RL ≥ {rl_db:g} dB from {quantity(f_lo, 'Hz', digits=6)} to "
+           f"{quantity(f_hi, 'Hz', digits=6)} (width {quantity(width, 'Hz')}, {percent(frac)})"
+           + ("; " + notes[0] if notes else ""))
     return Bandwidth(rl_db, f_lo, f_hi, f[k], width, frac, True, msg)
 
 

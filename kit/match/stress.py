@@ -25,18 +25,19 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from kit._text import html_rows
-from kit.match.circuit import MatchDesign, eng, load_z
+from kit.match.circuit import MatchDesign, load_z
 from kit.match.response import gamma_from_z, ladder_waves
 from kit.results import Result
-from kit.units import scale_for
+from kit.units import eng, quantity, scale_for
 
 
 def assumption_text(drive_w: float, r_source_ohm: float) -> str:
     """The drive assumption in words, with numbers."""
     vs = 2.0 * np.sqrt(drive_w * r_source_ohm)
-    return (f"source: ideal sine voltage source behind {r_source_ohm:g} ohm with available "
-            f"power {drive_w:g} W (open-circuit {vs:.4g} V RMS; it would deliver {drive_w:g} W "
-            f"into a matched {r_source_ohm:g} ohm load). RMS values; peak = 1.414 x RMS. "
+    return (f"source: ideal sine voltage source behind {quantity(r_source_ohm, 'Ω')} with "
+            f"available power {quantity(drive_w, 'W')} (open-circuit {quantity(vs, 'V')} RMS; it "
+            f"would deliver {quantity(drive_w, 'W')} into a matched {quantity(r_source_ohm, 'Ω')} "
+            "load). RMS values; peak = 1.414 x RMS. "
             "Linear parts; steady state.")
 
 
@@ -188,12 +189,14 @@ class StressReport(Result):
         return pd.DataFrame([{**r.__dict__, "v_peak": r.v_peak} for r in self.rows])
 
     def summary(self) -> str:
-        """Plain text table with the assumption."""
-        lines = [f"stress at {self.drive_w:g} W available drive",
-                 f"{'item':<14} {'V rms':>10} {'V peak':>10} {'I rms':>10} {'P':>10}  at f"]
+        """Plain text table with the assumption, every cell with its unit
+        (:func:`kit.units.quantity`)."""
+        lines = [f"stress at {quantity(self.drive_w, 'W')} available drive",
+                 f"{'item':<14} {'V rms':>11} {'V peak':>11} {'I rms':>11} {'P':>11}  at f"]
         for r in self.rows:
-            lines.append(f"{r.name:<14} {r.v_rms:10.4g} {r.v_peak:10.4g} {r.i_rms:10.4g} "
-                         f"{r.p_w:10.4g}  {eng(r.f_at_v_hz, 'Hz')}")
+            lines.append(f"{r.name:<14} {quantity(r.v_rms, 'V'):>11} "
+                         f"{quantity(r.v_peak, 'V'):>11} {quantity(r.i_rms, 'A'):>11} "
+                         f"{quantity(r.p_w, 'W'):>11}  {quantity(r.f_at_v_hz, 'Hz')}")
         lines.append(self.assumptions)
         return "\n".join(lines)
 

@@ -124,8 +124,8 @@ def sweep(obj: Any, z: Any = None, *, method: str = "reflection", port: int = 1,
         z0 = reference_ohm(obj, ref_port)
         if z0_ohm is not None and not np.isclose(float(z0_ohm), z0):
             path = getattr(obj, "path", None)
-            raise CaptureError(f"{what}: the capture's reference is {z0:g} ohm, not {z0_ohm:g} "
-                               "ohm; leave z0_ohm unset for a capture", path)
+            raise CaptureError(f"{what}: the capture's reference is {z0:g} Ω, not {z0_ohm:g} "
+                               "Ω; leave z0_ohm unset for a capture", path)
         path = getattr(obj, "path", None)
         return Sweep(np.asarray(ntwk.frequency.f, dtype=float), np.asarray(zz, dtype=complex),
                      z0, name_of(obj), method, None if path is None else str(path), ntwk, port)

@@ -18,12 +18,11 @@ from typing import Any
 
 import numpy as np
 
-from kit._text import fmt_value
 from kit.capture import CaptureError
 from kit.network.coerce import sweep
 from kit.resonators.peaks import crossing, sort_merge, vertex_min
 from kit.results import Result, nan_if_none, plain
-from kit.units import eng, scale_for, unit_of
+from kit.units import eng, quantity, scale_for, unit_of
 
 __all__ = ["ComponentFigures", "component_figures"]
 
@@ -126,7 +125,7 @@ class ComponentFigures(Result):
 
     def view_rows(self) -> list[tuple[str, str]]:
         """The rows of ``_ROWS`` and one per estimated circuit value."""
-        return super().view_rows() + [(f"{k} (estimate)", fmt_value(v, unit_of(k)))
+        return super().view_rows() + [(f"{k} (estimate)", quantity(v, unit_of(k)))
                                  for k, v in self.estimate.items()]
 
     def to_dict(self, arrays: bool = False) -> dict[str, Any]:
@@ -168,7 +167,7 @@ class ComponentFigures(Result):
                        label=f"self-resonance {eng(self.srf_hz, 'Hz')}")
         if math.isfinite(self.q_max):
             ax.plot([self.f_q_max_hz * factor], [self.q_max], "o", color="C2",
-                    label=f"highest Q {fmt_value(self.q_max, '', '.4g')}")
+                    label=f"highest Q {quantity(self.q_max, '')}")
         ax.set_xlabel(f"frequency [{unit}]")
         ax.set_ylabel("Q [1]")
         ax.set_title(self.heading if self.ok else f"{self.heading}\n{self.reason}", fontsize="small")

@@ -15,7 +15,7 @@ import numpy as np
 
 from kit.resonators.registry import get_model
 from kit.results import Result
-from kit.units import unit_of
+from kit.units import percent, quantity, scale_for, unit_of
 
 __all__ = ["FitResult", "param_unit"]
 
@@ -166,6 +166,12 @@ class FitResult(Result):
                 e = self.derived_stderr.get(p, np.nan)
                 yield p, v, e, abs(e / v) * 100 if v else np.nan
 
+    def _value(self, p, v, e) -> str:
+        """"C0 = 2.032 nF ± 1.5 pF": :func:`kit.units.quantity` (GUM 7.2.2 "±" form of a
+        standard uncertainty); frequencies to six significant digits without an error."""
+        u = param_unit(p)
+        return quantity(v, u, stderr=e, digits=6 if u == "Hz" else 4)
+
     def report(self) -> str:
         """Plain-text summary: values with standard errors, derived figures, flags."""
         lines = [self.heading, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
@@ -175,10 +181,9 @@ class FitResult(Result):
                  f"{self.residual_to_noise:.3g}",
                  f"points: {self.n_points}; "
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]
+        lines.append("values ± standard uncertainty (not a confidence interval)")
         for p, v, e, rel in self._rows():
-            u = param_unit(p)
-            u = f" {u}" if u else ""
-            lines.append(f"  {p:>10s} = {v:.6g}{u} +/- {e:.2g}{u}  ({rel:.2g} %)")
+            lines.append(f"  {p:>10s} = {self._value(p, v, e)}  ({percent(rel / 100)})")
         return "\n".join(lines)
 
     def __str__(self) -> str:
@@ -187,16 +192,16 @@ class FitResult(Result):
     def _repr_html_(self) -> str:
         esc = html.escape
         rows = "".join(
-            f"<tr><td>{esc(p)} [{esc(param_unit(p) or '1')}]</td><td>{v:.6g}</td><td>{e:.2g}</td>"
-            f"<td>{rel:.2g} %</td></tr>"
+            f"<tr><td>{esc(p)}</td><td style='text-align:right'>{esc(self._value(p, v, e))}</td>"
+            f"<td style='text-align:right'>{esc(percent(rel / 100))}</td></tr>"
             for p, v, e, rel in self._rows())
         flags = esc(", ".join(self.flags) or "none")
         status = "ok" if self.ok else "NOT ok: " + esc(self.reason)
         return (f"<div><b>{esc(self.model)}</b> fit of {esc(self.name or '<arrays>')} &mdash; "
                 f"{status}<br>flags: {flags}; residual {self.residual_rel:.3g}; noise "
                 f"{self.noise_rms:.3g} (ratio {self.residual_to_noise:.3g})"
-                "<table><tr><th>parameter</th><th>value</th><th>std. error</th>"
-                f"<th>relative</th></tr>{rows}</table></div>")
+                "<table><tr><th>parameter</th><th>value ± standard uncertainty</th>"
+                f"<th>relative uncertainty</th></tr>{rows}</table></div>")
 
     # -- round trip
     def to_dict(self, include_data: bool = False) -> dict:
@@ -257,21 +262,23 @@ class FitResult(Result):
         if f is None:
             lo, hi = self.span_hz or (0.5 * self.fs_hz, 1.5 * self.fp_hz)
             f = np.linspace(lo, hi, 801)
+        k, f_unit = scale_for(f, "Hz")
+        f = np.asarray(f, float) * k  # drawn in the prefixed unit the axis label names
         if self.z is not None:
             axes[0].semilogy(f, np.abs(self.z), ".", ms=2, label="measured")
             if len(axes) > 1:
                 axes[1].plot(f, np.degrees(np.angle(self.z)), ".", ms=2, label="measured")
         try:
             ff = np.linspace(np.min(f), np.max(f), max(801, len(f)))
-            zm = self.model_z(ff)
+            zm = self.model_z(ff / k)
             axes[0].semilogy(ff, np.abs(zm), "-", label=f"model {self.model}")
             if len(axes) > 1:
                 axes[1].plot(ff, np.degrees(np.angle(zm)), "-", label=f"model {self.model}")
         except ValueError:
             axes[0].set_title(f"no model: {self.reason}")
-        axes[0].set_ylabel("|Z| [ohm]")
+        axes[0].set_ylabel("|Z| [Ω]")
         if len(axes) > 1:
-            axes[1].set_ylabel("phase [deg]")
-        axes[-1].set_xlabel("frequency [Hz]")
+            axes[1].set_ylabel("phase [°]")
+        axes[-1].set_xlabel(f"frequency [{f_unit}]")
         axes[0].legend(loc="best", fontsize="small")
         return axes

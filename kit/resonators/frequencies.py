@@ -245,15 +245,10 @@ class Resonance(Result):
         """Plain JSON data: every field (NaN where not found), plus ``ok`` and ``reason``."""
         return {**super().to_dict(), "ok": self.ok, "reason": self.reason}
 
-    def view_rows(self) -> list[tuple[str, str]]:
-        """(label, value with unit) per row, with "± standard error" where there is one."""
-        out = []
-        for (key, _, unit), (label, text) in zip(self._ROWS, super().view_rows()):
-            err = getattr(self, STDERR_FIELDS.get(key, ""), math.nan)
-            if math.isfinite(getattr(self, key)) and math.isfinite(err):
-                text += f" ± {eng(err, unit, 2)}"
-            out.append((label, text))
-        return out
+    def stderr_of(self, key: str) -> float | None:
+        """The standard error of a row (:data:`STDERR_FIELDS`; the report prints "± error")."""
+        err = getattr(self, STDERR_FIELDS.get(key, ""), math.nan)
+        return err if math.isfinite(err) else None
 
     def _footer(self) -> list[str]:
         return super()._footer() + [f"interpolation: {self.interpolation}",

@@ -26,7 +26,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit._text import fmt_value
 from kit.capture import CaptureError
 from kit.network.accept import s_term
 from kit.network.coerce import name_of, network_of
@@ -178,16 +177,9 @@ class QFactor(Result):
                 f"{self.fit}, {self.iterations} iterations, "
                 f"{'converged' if self.converged else 'NOT converged'})")
 
-    def view_rows(self) -> list[tuple[str, str]]:
-        """Rows of ``_ROWS``, each value with its standard error where there is one."""
-        out = []
-        for (key, _, unit), (label, text) in zip(self._ROWS, super().view_rows()):
-            se = getattr(self, f"{key}_stderr", None)
-            if se is not None and math.isfinite(getattr(self, key)):
-                text += (f" ± {fmt_value(se, unit, '.3g')}" if math.isfinite(se)
-                         else " (no uncertainty)")
-            out.append((label, text))
-        return out
+    def stderr_of(self, key: str) -> float | None:
+        """The ``<key>_stderr`` field (the report prints "value ± error")."""
+        return getattr(self, f"{key}_stderr", None)
 
     def __repr__(self) -> str:
         return self.report()

@@ -22,7 +22,7 @@ import numpy as np
 
 from kit.results import Result
 from kit.review.limits import SPAN_TOL, Limits, Mask, QuantityLimit, s_ports
-from kit.units import eng, scale_for, unit_of
+from kit.units import percent, quantity, scale_for, unit_of
 
 __all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict"]
 
@@ -57,9 +57,10 @@ class Check(Result):
     def view_rows(self) -> list[tuple[str, str]]:
         """(label, value with unit) rows: the check's own unit, not a fixed one."""
         u = self.unit
-        out = [(label, eng(v, unit)) for label, v, unit in (
+        out = [(label, quantity(v, unit)) for label, v, unit in (
             ("value", self.value, u), ("bound", self.bound, u), ("margin", self.margin, u),
-            ("relative margin", self.margin_rel, ""), ("tightest at", self.f_hz, "Hz"))]
+            ("tightest at", self.f_hz, "Hz"))]
+        out.insert(3, ("relative margin", percent(self.margin_rel, signed=True)))
         return out + [("reason", self.reason)]
 
 
@@ -107,7 +108,7 @@ class Verdict(Result):
 
     def view_rows(self) -> list[tuple[str, str]]:
         """One row per check: its status and margin in its unit."""
-        return [(c.name, c.status + (f", margin {eng(c.margin, c.unit)}"
+        return [(c.name, c.status + (f", margin {quantity(c.margin, c.unit)}"
                                      if math.isfinite(c.margin) else ""))
                 for c in self.checks]
 
@@ -124,7 +125,8 @@ class Verdict(Result):
 
 
 def _fmt(x: float, unit: str) -> str:
-    return f"{x:.6g} {unit}".strip()
+    """A value in words: :func:`kit.units.quantity` (SI prefix, four significant digits)."""
+    return quantity(x, unit)
 
 
 def _span(f0_hz: float, f1_hz: float) -> str:
@@ -134,8 +136,7 @@ def _span(f0_hz: float, f1_hz: float) -> str:
 
 
 def _at(f_hz: float) -> str:
-    k, unit = scale_for([f_hz], "Hz")
-    return f"{f_hz * k:.6g} {unit}"
+    return quantity(f_hz, "Hz")
 
 
 def _rel(margin: float, bound: float) -> float:
@@ -171,7 +172,7 @@ def check_quantity(q: QuantityLimit, row: Any) -> Check:
         cands.append((q.max - x, q.max, "max"))
     margin, bound, which = min(cands, key=lambda c: c[0])
     rel = _rel(margin, bound)
-    rel_txt = f" ({abs(rel):.3g} of the bound)" if math.isfinite(rel) else ""
+    rel_txt = f" ({percent(rel)} of the bound)" if math.isfinite(rel) else ""
     if margin >= 0:
         status = "pass"
         reason = (f"{label} = {_fmt(x, unit)} is within limits; nearest bound {which} "
@@ -180,7 +181,7 @@ def check_quantity(q: QuantityLimit, row: Any) -> Check:
         status = "fail"
         word = "below the minimum" if which == "min" else "above the maximum"
         reason = (f"{label} = {_fmt(x, unit)} is {word} {_fmt(bound, unit)} by "
-                  f"{_fmt(-margin, unit)}{rel_txt}")
+                  f"{quantity(-margin, unit, digits=3)}{rel_txt}")
     return Check(q.name, "quantity", status, reason, x, bound, margin, rel, unit)
 
 

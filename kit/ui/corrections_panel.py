@@ -87,7 +87,7 @@ class CorrectionsPanel:
             layout=w.Layout(width="230px")), "corr-number")
         self.dut = dd("capture", duts or [NONE], duts[0] if duts else NONE)
         self.check = dd("check part", [NONE] + one, guess(one, "check"))
-        self.check_ohms = ft("check [ohm]", 100.0)
+        self.check_ohms = ft("check [Ω]", 100.0)
         self.compensation = classed(w.Dropdown(
             description="standards", options=["off", "open/short/load", "open/short"],
             value="open/short/load" if guess(one, "open") != NONE else "off",
@@ -95,11 +95,11 @@ class CorrectionsPanel:
         self.open = dd("open", [NONE] + one, guess(one, "open"))
         self.short = dd("short", [NONE] + one, guess(one, "short"))
         self.load = dd("load", [NONE] + one, guess(one, "load"))
-        self.load_ohms = ft("load [ohm]", 50.0)
+        self.load_ohms = ft("load [Ω]", 50.0)
         self.use_cable = classed(w.Checkbox(description="remove cable", value=False), "corr-cable")
         self.cable_length_m = ft("length [m]", 1.5)
         self.cable_vf = ft("velocity factor", 0.66)
-        self.cable_z0_ohm = ft("Z0 [ohm]", 50.0)
+        self.cable_z0_ohm = ft("Z0 [Ω]", 50.0)
         self.cable_loss_db_per_m = ft("loss [dB/m]", 0.0)
         self.cable_loss_ref_mhz = ft("at [MHz]", 10.0)
         self.use_fixture = classed(w.Checkbox(description="remove fixture file", value=False),

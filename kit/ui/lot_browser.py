@@ -17,7 +17,7 @@ from typing import Any, Callable
 
 from kit import views as kv
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
-from kit.units import eng
+from kit.units import table
 
 PLANE_OPTIONS = [("Smith chart, Z grid", "smith:z"), ("Smith chart, Y grid", "smith:y"),
                  ("Smith chart, Z and Y", "smith:both"), ("polar |Γ|", "polar"),
@@ -52,7 +52,7 @@ class LotBrowser:
     table_html : ipywidgets.HTML
         The filtered table (class ``sb-lot-table``).
     status : ipywidgets.HTML
-        One line under the figure: captures, chart, span, markers (class ``sb-status``);
+        One line under the figure: captures, chart, span, pins (class ``sb-status``);
         written just before each redraw.
     host : FigureHost
         The figure; ``host.fig``, ``ax_plane`` and ``ax_rect`` are its axes.
@@ -72,8 +72,8 @@ class LotBrowser:
         self.traces: list[kv.Trace] = []
         self.lines_plane: list[Any] = []
         self.lines_rect: list[Any] = []
-        self.marker_artists: list[Any] = []
-        self.markers: list[dict[str, Any]] = []
+        self.pin_artists: list[Any] = []
+        self.pins: list[dict[str, Any]] = []
         self._listeners: list[Callable[[], None]] = []
 
         self.name_filter = classed(w.Text(placeholder="part of the name", description="name",
@@ -114,7 +114,6 @@ class LotBrowser:
         self._empty = self.ax_rect.text(0.5, 0.5, "select captures on the left", ha="center",
                                         va="center", transform=self.ax_rect.transAxes,
                                         color="#777777")
-        self.readout_text = None
         self._span_selector = None
         if self.host.interactive:
             self._add_span_selector()
@@ -156,10 +155,7 @@ class LotBrowser:
         self.select.options = [(_row_label(t.loc[i]), i) for i in t.index]
         self.select.value = tuple(keep)
         cols = [c for c in t.columns if c not in ("path", "sha256", "message", "warnings")]
-        shown = t[cols].copy()
-        for c in ("f_start_hz", "f_stop_hz"):
-            if c in shown:
-                shown[c] = shown[c].map(lambda v: "" if v != v else eng(float(v), "Hz", 6))
+        shown = table(t[cols], digits={"f_start_hz": 6, "f_stop_hz": 6})
         self.table_html.value = (
             '<div style="max-height:210px;overflow:auto;font-size:12px">'
             + shown.to_html(escape=True, index=False, na_rep="", border=0,
@@ -268,50 +264,50 @@ class LotBrowser:
             leg.remove()
         if 0 < len(self.traces) <= 12:
             self.ax_rect.legend(fontsize=7, frameon=False, ncols=2 if len(self.traces) > 6 else 1)
-        self._draw_markers()
+        self._draw_pins()
         self._show_status()
         self.host.refresh()
         for fn in self._listeners:
             fn()
 
-    # -- markers -------------------------------------------------------------------------
+    # -- pins ----------------------------------------------------------------------------
     def on_change(self, fn: Callable[[], None]) -> None:
-        """Call ``fn()`` after every redraw (the marker panel follows the selection)."""
+        """Call ``fn()`` after every redraw (the pin panel follows the selection)."""
         self._listeners.append(fn)
 
-    def set_markers(self, readouts: list[dict[str, Any]]) -> None:
-        """Show these marker readouts (from :func:`kit.views.marker_readout`) on both views."""
-        self.markers = list(readouts)
-        self._draw_markers()
+    def set_pins(self, readings: list[dict[str, Any]]) -> None:
+        """Show these pins (readings from :func:`kit.views.pin_reading`) on both views."""
+        self.pins = list(readings)
+        self._draw_pins()
         self._show_status()
         self.host.refresh()
 
     def _show_status(self) -> None:
         lo, hi = self.span.value  # as the slider reads them (MHz)
-        n, k = len(self.traces), len(self.markers)
+        n, k = len(self.traces), len(self.pins)
         self.status.value = (
             f'<span style="color:#4d5b5e;font-size:12px">{n} capture{"s" * (n != 1)} · '
             f"{kv.CHARTS[self.chart.value].title} · span {lo:.4f}–{hi:.4f} MHz · "
-            f'{k} marker{"s" * (k != 1)}</span>')
+            f'{k} pin{"s" * (k != 1)}</span>')
 
-    def _draw_markers(self) -> None:
-        for a in self.marker_artists:
+    def _draw_pins(self) -> None:
+        """Pins on both views, heads kept apart; their readings are in the pin panel's table,
+        never over the data."""
+        for a in self.pin_artists:
             a.remove()
-        self.marker_artists = []
+        self.pin_artists = []
         chart = kv.CHARTS[self.chart.value]
         by_label = {t.label: t for t in self.traces}
-        pax = self._plane_ax()
-        for r in self.markers:
+        rect, plane = [], []
+        for r in self.pins:
             t = by_label.get(r["trace"])
             if t is None:
                 continue
-            i = r["index"]
-            yv = chart.quantity(t)[i]
-            self.marker_artists += kv.draw_marker(self.ax_rect, r["f_hz"], yv, r["marker"])
-            self.marker_artists += kv.draw_marker(pax, *kv.plane_point(r, self.plane.value),
-                                                  r["marker"])
-        if self.markers:
-            self.marker_artists.append(kv.draw_readout(self.ax_rect, self.markers[-1]))
+            rect.append((r["f_hz"], chart.quantity(t)[r["index"]], r["pin"]))
+            plane.append((*kv.plane_point(r, self.plane.value), r["pin"]))
+        if rect:
+            self.pin_artists += kv.draw_pins(self.ax_rect, rect)
+            self.pin_artists += kv.draw_pins(self._plane_ax(), plane)
 
     # -- span selection on the plot (ipympl only) -----------------------------------------
     def _add_span_selector(self) -> None:

@@ -17,9 +17,9 @@ import numpy as np
 
 from kit import match as km
 from kit import views as kv
-from kit.match.circuit import UNITS, eng
+from kit.match.circuit import UNITS
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
-from kit.units import from_unit, to_unit
+from kit.units import eng, from_unit, quantity, to_unit
 
 #: (label, key) of the designs offered.
 DESIGNS: tuple[tuple[str, str], ...] = (
@@ -70,7 +70,8 @@ def parts_table_html(design, rounded, stress) -> str:
 
     def cells(name, a, b):
         s = by_name.get(name)
-        v = "" if s is None else f"{s.v_rms:.4g} V</td><td>{s.v_peak:.4g} V</td><td>{s.i_rms:.4g} A"
+        v = "" if s is None else "</td><td>".join(
+            html.escape(quantity(x, u)) for x, u in ((s.v_rms, "V"), (s.v_peak, "V"), (s.i_rms, "A")))
         return f"<tr><td>{html.escape(name)}</td><td>{a}</td><td>{b}</td><td>{v}</td></tr>"
 
     rows.append(cells("element", "", ""))

@@ -1,7 +1,7 @@
-"""The workbench: one stacked layout hosting the lot browser, markers and the other panels.
+"""The workbench: one stacked layout hosting the lot browser, pins and the other panels.
 
 Sections are titled blocks, one under the other, each folding on its header (no tabs):
-"Lot" (the browser), "Markers", then whatever other panels are available (corrections,
+"Lot" (the browser), "Pins", then whatever other panels are available (corrections,
 fits, review, matching). Another panel joins with :meth:`Workbench.add_section`, or
 automatically through :data:`PANEL_BUILDERS` when it can be built (a panel whose module is
 missing, or which lacks its input, is listed in ``Workbench.skipped`` with the reason).
@@ -13,7 +13,7 @@ from typing import Any, Callable
 
 from kit.ui.common import classed, plain_error, section, show
 from kit.ui.lot_browser import LotBrowser, lot_browser
-from kit.ui.markers import MarkerPanel, marker_panel
+from kit.ui.pins import PinPanel, pin_panel
 
 
 def _corrections(wb: "Workbench"):
@@ -91,7 +91,7 @@ class Workbench:
     widget : ipywidgets.VBox
         The stacked layout (class ``sb-workbench``).
     browser : LotBrowser
-    markers : MarkerPanel
+    pins : PinPanel
     sections : dict of str -> ipywidgets.VBox
         Each section by title (``.header`` toggles it, ``.body`` is the panel).
     panels : dict of str -> object
@@ -100,7 +100,7 @@ class Workbench:
         Optional panels that could not be added, with the reason.
     """
 
-    def __init__(self, browser: LotBrowser, markers: MarkerPanel, **options: Any) -> None:
+    def __init__(self, browser: LotBrowser, pins: PinPanel, **options: Any) -> None:
         from pathlib import Path
 
         import ipywidgets as w
@@ -108,16 +108,16 @@ class Workbench:
         self.options = options
         self.folder = Path(browser.table.attrs.get("folder") or ".")
         self.browser = browser
-        self.markers = markers
+        self.pins = pins
         self.sections: dict[str, Any] = {}
-        self.panels: dict[str, Any] = {"Lot": browser, "Markers": markers}
+        self.panels: dict[str, Any] = {"Lot": browser, "Pins": pins}
         self.skipped: dict[str, str] = {}
         title = classed(w.HTML('<div style="font-size:15px;font-weight:600;color:#23414a;'
                                'border-bottom:2px solid #1f6f78;padding:2px 0 4px 0">'
                                "sweepbook workbench</div>"), "workbench-title")
         self.widget = classed(w.VBox([title]), "workbench")
         self.add_section("Lot", browser.widget, css="lot")
-        self.add_section("Markers", markers.widget, css="markers")
+        self.add_section("Pins", pins.widget, css="pins")
 
     def add_section(self, title: str, panel: Any, css: str | None = None,
                     open_: bool = True) -> Any:
@@ -146,7 +146,7 @@ class Workbench:
 
 
 def workbench(source, pattern: str | None = None, select=None, chart: str = "z_mag",
-              plane: str = "smith:z", correction=None, markers_csv: str = "markers.csv",
+              plane: str = "smith:z", correction=None, pins_csv: str = "pins.csv",
               extras: bool = True, corrections_source=None, review_log=None,
               display: bool = True, interactive: bool | None = None) -> Workbench:
     """Build the workbench over a folder of captures (or its :func:`kit.load_folder` table).
@@ -162,8 +162,8 @@ def workbench(source, pattern: str | None = None, select=None, chart: str = "z_m
         Starting views (see :func:`kit.ui.lot_browser.lot_browser`).
     correction : callable, optional
         Capture -> Capture for the "corrected" view.
-    markers_csv : str
-        Where the marker panel writes its CSV.
+    pins_csv : str
+        Where the pin panel writes its CSV.
     extras : bool
         Add the optional panels that exist (see :data:`PANEL_BUILDERS`).
     corrections_source : str or Path, optional
@@ -180,7 +180,7 @@ def workbench(source, pattern: str | None = None, select=None, chart: str = "z_m
     """
     b = lot_browser(source, pattern=pattern, correction=correction, select=select, chart=chart,
                     plane=plane, display=False, interactive=interactive)
-    m = marker_panel(b, csv_path=markers_csv, display=False)
+    m = pin_panel(b, csv_path=pins_csv, display=False)
     wb = Workbench(b, m, corrections_source=corrections_source, review_log=review_log)
     if extras:
         wb.add_available_panels()

@@ -12,9 +12,9 @@ This module gathers the whole drawing API:
   :func:`plot_return_loss`, :func:`plot_vswr`, :func:`plot_group_delay`, :func:`overlay`;
 * reflection plane (:mod:`kit.views.smith`): :func:`smith_grid`, :func:`plot_smith`,
   :func:`plot_polar`, :func:`plot_admittance_circle`;
-* markers and limits (:mod:`kit.views.markers`): :func:`find_marker`,
-  :func:`marker_readout`, :func:`readout_text`, :func:`draw_marker`, :func:`draw_readout`,
-  :func:`markers_table`, :func:`plot_limits`;
+* pins and limits (:mod:`kit.views.pins`): :func:`find_pin`, :func:`pin_reading`,
+  :func:`reading_text`, :func:`draw_pins`, :func:`draw_pin`, :func:`pins_table`,
+  :func:`pins_display`, :func:`write_pins_csv`, :func:`plot_limits`;
 * fits: :func:`plot_fit` (the model curve of a fit result);
 * data (:mod:`kit.views.data`): :func:`trace`, :class:`Trace`, :data:`PALETTE` (fixed
   display units come from :func:`kit.units.to_unit` / :func:`kit.units.from_unit`);
@@ -35,6 +35,7 @@ from typing import Any, Iterable
 import numpy as np
 
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
+from kit.units import quantity, scale_for
 from kit.views.data import (
     CHARTS,
     PALETTE,
@@ -45,16 +46,17 @@ from kit.views.data import (
     trace,
 )
 from kit.views.decimate import columns_of, minmax_indices, window
-from kit.views.markers import (
-    MARKER_KINDS,
-    draw_marker,
-    draw_readout,
-    find_marker,
-    marker_readout,
-    markers_table,
+from kit.views.pins import (
+    PIN_SEARCHES,
+    draw_pin,
+    draw_pins,
+    find_pin,
+    pin_reading,
+    pins_display,
+    pins_table,
     plot_limits,
-    readout_text,
-    write_markers_csv,
+    reading_text,
+    write_pins_csv,
 )
 from kit.views.smith import (
     fit_polar_radius,
@@ -69,25 +71,53 @@ from kit.views.smith import (
 )
 
 __all__ = [
-    "CHARTS", "color", "columns_of", "db20", "draw_marker", "draw_readout", "find_marker",
+    "CHARTS", "color", "columns_of", "db20", "draw_pin", "draw_pins", "find_pin",
     "fit_polar_radius", "frame_return_loss", "frequency_axis", "gamma_from_z",
-    "group_delay_s", "MARKER_KINDS", "marker_readout", "markers_table", "overlay", "PALETTE",
-    "plane_point", "plane_xy", "plot_admittance_circle", "plot_chart", "plot_fit", "plot_g_b",
-    "plot_group_delay", "plot_limits", "plot_polar", "plot_r_x", "plot_return_loss", "plot_s_db",
-    "plot_smith", "plot_vswr", "plot_z_mag_phase", "readout_text", "return_loss_db", "smith_grid",
-    "smith_xy", "style_admittance_circle", "style_chart", "trace", "Trace",
-    "update_line", "vswr", "write_markers_csv", "xy_for_display",
+    "group_delay_s", "PIN_SEARCHES", "pin_reading", "pins_display", "pins_table", "overlay",
+    "PALETTE", "plane_point", "plane_xy", "plot_admittance_circle", "plot_chart", "plot_fit",
+    "plot_g_b", "plot_group_delay", "plot_limits", "plot_polar", "plot_r_x", "plot_return_loss",
+    "plot_s_db", "plot_smith", "plot_vswr", "plot_z_mag_phase", "reading_text",
+    "return_loss_db", "smith_grid", "smith_xy", "style_admittance_circle", "style_chart",
+    "trace", "Trace", "update_line", "vswr", "write_pins_csv", "xy_for_display",
 ]
 
 
-def frequency_axis(ax) -> None:
-    """Label the x axis as frequency with SI-prefixed tick labels in Hz."""
-    from matplotlib.ticker import EngFormatter, MaxNLocator
+def _prefixed_formatter(unit: str, name: str):
+    """A tick formatter that writes the ticks in the SI prefix of the visible range and puts
+    that prefixed unit into the axis label ("frequency [MHz]" over "1.8  2.0  2.2")."""
+    from matplotlib.ticker import ScalarFormatter
 
-    ax.xaxis.set_major_formatter(EngFormatter(unit="Hz", places=None, sep=" "))
+    class PrefixedFormatter(ScalarFormatter):
+        def __init__(self) -> None:
+            super().__init__(useOffset=False)
+            self.factor, self.shown = 1.0, unit
+
+        def set_locs(self, locs) -> None:
+            lo, hi = self.axis.get_view_interval()
+            self.factor, self.shown = scale_for([lo, hi], unit)
+            super().set_locs(np.asarray(locs, float) * self.factor)
+            self.locs = locs
+            self.axis.set_label_text(f"{name} [{self.shown}]")
+
+        def __call__(self, x, pos=None) -> str:
+            return super().__call__(x * self.factor, pos)
+
+        def format_data_short(self, value) -> str:  # the cursor read-out of ipympl
+            return quantity(value, unit, digits=7)
+
+    return PrefixedFormatter()
+
+
+def frequency_axis(ax) -> None:
+    """Frequency on the x axis (data in Hz): ticks in the SI prefix of the visible span and
+    the axis label naming that unit ("frequency [MHz]"), kept in step on zoom."""
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_formatter(_prefixed_formatter("Hz", "frequency"))
     if ax.get_xscale() == "linear":
         ax.xaxis.set_major_locator(MaxNLocator(nbins=6))
-    ax.set_xlabel("frequency [Hz]")
+    lo, hi = ax.get_xlim()
+    ax.set_xlabel(f"frequency [{scale_for([lo, hi], 'Hz')[1]}]")
     ax.grid(True, which="major", color="#e4e0da", lw=0.6)
 
 
@@ -206,7 +236,7 @@ def _arr_trace(f_hz, z=None, s=None, gamma=None, label="trace", z0_ohm=50.0) -> 
 
 def plot_z_mag_phase(ax_mag, ax_phase, f_hz, z, label: str | None = None, i: int = 0,
                      columns: int | None = None, span_hz=None, **kw) -> list[Any]:
-    """|Z| [ohm] on a log scale on ``ax_mag`` and the phase of Z [deg] on ``ax_phase``.
+    """|Z| [Ω] on a log scale on ``ax_mag`` and the phase of Z [°] on ``ax_phase``.
 
     Returns
     -------
@@ -231,7 +261,7 @@ def _pair(ax, t: Trace, charts: tuple[str, str], names: tuple[str, str], ylabel:
 
 def plot_r_x(ax, f_hz, z, label: str | None = None, columns: int | None = None, span_hz=None,
              **kw) -> list[Any]:
-    """Resistance R and reactance X [ohm] against frequency on one axes (solid, dashed)."""
+    """Resistance R and reactance X [Ω] against frequency on one axes (solid, dashed)."""
     t = _arr_trace(f_hz, z=z, label=label or "Z")
     return _pair(ax, t, ("r", "x"), ("R", "X"), "R, X [Ω]", label, columns, span_hz, **kw)
 

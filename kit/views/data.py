@@ -22,11 +22,11 @@ from kit.units import to_unit
 PALETTE: tuple[str, ...] = (
     "#1f6f78", "#c8553d", "#6a4c93", "#588b3a", "#d19a1f", "#2f4858", "#b0416b", "#7d6b5d",
 )
-#: Colours of the Smith chart grids, limit lines and markers.
+#: Colours of the Smith chart grids, limit lines and pins.
 GRID_Z = "#c9bfb1"
 GRID_Y = "#9fc6cc"
 LIMIT_COLOR = "#b02e26"
-MARKER_COLOR = "#1d1d1d"
+PIN_COLOR = "#1d1d1d"
 
 
 def color(i: int) -> str:

@@ -245,7 +245,7 @@ def plane_xy(t: Trace, kind: str, columns: int, span_hz=None) -> tuple[np.ndarra
 
 
 def plane_point(readout: dict, kind: str) -> tuple[float, float]:
-    """Where a marker readout (:func:`kit.views.marker_readout`) sits in a plane view.
+    """Where a pin (a reading of :func:`kit.views.pin_reading`) sits in a plane view.
 
     Same coordinates as :func:`plane_xy`: Gamma for "smith", (angle, magnitude) for
     "polar", (G, B) [mS] for "circle".
