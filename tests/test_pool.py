@@ -91,3 +91,136 @@ def test_workers_start_without_fork_hazards():
     assert pool.default_start_method() == expected
     seen = pool.run_chunks(_start_methods, list(range(4)), workers=2, chunk_size=2)
     assert set(seen) == {expected}
+
+
+# --------------------------------------------------------------------- progress and cancelling
+def _marked(chunk, folder):
+    """Leave a start mark (with this worker's pid); chunk 0 returns at once, the others sleep
+    far longer than the test waits, then leave an end mark."""
+    import time
+    from pathlib import Path
+
+    Path(folder, f"start-{chunk[0]}-{os.getpid()}").touch()
+    if chunk[0] != 0:
+        time.sleep(60)
+    Path(folder, f"end-{chunk[0]}").touch()
+    return list(chunk)
+
+
+def _dies_on_seven(chunk):
+    if 7 in chunk:
+        os._exit(3)  # a worker killed mid-chunk (out of memory, a crash in a C library)
+    return list(chunk)
+
+
+class _Calls:
+    """An on_progress callback that records its calls and the thread they came from."""
+
+    def __init__(self, cancel=None, cancel_at=None):
+        self.calls, self.threads = [], set()
+        self.cancel, self.cancel_at = cancel, cancel_at
+
+    def __call__(self, done, total):
+        import threading
+
+        self.calls.append((done, total))
+        self.threads.add(threading.get_ident())
+        if self.cancel is not None and done >= self.cancel_at:
+            self.cancel.set()
+
+
+@pytest.mark.parametrize("workers", [1, 2])
+def test_progress_is_reported_per_chunk_in_the_calling_thread(workers):
+    """on_progress gets (0, n) first, then the running count after each chunk, ending at
+    (n, n), always in the thread that called run_chunks, with or without workers."""
+    import threading
+
+    calls = _Calls()
+    out = pool.run_chunks(_squares, list(range(23)), 0, workers=workers, chunk_size=5,
+                          on_progress=calls)
+    assert out == [x * x for x in range(23)]
+    assert calls.calls[0] == (0, 23) and calls.calls[-1] == (23, 23)
+    done = [d for d, _ in calls.calls]
+    assert done == sorted(done) and len(done) == 1 + 5  # five chunks: 5, 5, 5, 5, 3
+    assert sorted(d2 - d1 for d1, d2 in zip(done, done[1:])) == [3, 5, 5, 5, 5]
+    assert calls.threads == {threading.get_ident()}
+
+
+def test_cancel_in_this_process_stops_before_the_next_chunk():
+    """Set after the second chunk: no further chunk is computed, and Cancelled says how far
+    the run got."""
+    import threading
+
+    seen = []
+
+    def record(chunk):
+        seen.extend(chunk)
+        return list(chunk)
+
+    stop = threading.Event()
+    with pytest.raises(pool.Cancelled) as info:
+        pool.run_chunks(record, list(range(20)), workers=1, chunk_size=4,
+                        on_progress=_Calls(stop, cancel_at=8), cancel=stop)
+    assert seen == list(range(8))
+    assert (info.value.done, info.value.total) == (8, 20)
+
+
+def test_cancel_with_workers_stops_submitting_and_ends_the_busy_workers(tmp_path):
+    """Chunk 0 is quick and sets the flag; every other chunk would sleep 60 s. The run
+    raises Cancelled at once, never hands out more than two chunks per worker, and the
+    worker busy with a sleeping chunk no longer exists (it was terminated, not waited for)."""
+    import threading
+    import time
+
+    stop = threading.Event()
+    with pytest.raises(pool.Cancelled) as info:
+        pool.run_chunks(_marked, list(range(40)), str(tmp_path), workers=2, chunk_size=2,
+                        on_progress=_Calls(stop, cancel_at=2), cancel=stop)
+    assert info.value.done == 2 and info.value.total == 40
+    marks = sorted(p.name for p in tmp_path.iterdir())
+    starts = [m for m in marks if m.startswith("start-")]
+    assert [m for m in marks if m.startswith("end-")] == ["end-0"]
+    assert 1 <= len(starts) <= pool.AHEAD * 2  # handed out a few at a time, then no more
+    busy = [int(m.rsplit("-", 1)[1]) for m in starts if not m.startswith("start-0-")]
+    for pid in busy:  # the busy worker was stopped (it is gone, reaped by the fork server)
+        deadline = time.monotonic() + 10
+        while time.monotonic() < deadline:
+            try:
+                os.kill(pid, 0)
+            except ProcessLookupError:
+                break
+            time.sleep(0.05)
+        else:
+            pytest.fail(f"worker {pid} still runs after the run was cancelled")
+
+
+def test_a_worker_that_dies_gives_error_rows_for_the_chunks_it_took_down():
+    """A dead worker breaks the pool (concurrent.futures: BrokenProcessPool); with on_error
+    every chunk not finished by then becomes error rows, also those not yet handed out."""
+    rows = pool.run_chunks(_dies_on_seven, list(range(40)), workers=2, chunk_size=2,
+                           on_error=lambda chunk, exc: ["error"] * len(chunk))
+    assert len(rows) == 40
+    assert rows[6:8] == ["error", "error"]
+    assert all(r == i or r == "error" for i, r in enumerate(rows))
+
+
+def test_workers_start_from_a_thread_that_is_not_the_main_one():
+    """A notebook panel runs the pool from a background thread: the fork server starts and
+    serves workers from there too, and progress comes back in that thread."""
+    import threading
+
+    box = {}
+
+    def job():
+        calls = _Calls()
+        box["out"] = pool.run_chunks(_squares, list(range(30)), 1, workers=2, chunk_size=4,
+                                     on_progress=calls)
+        box["threads"] = calls.threads
+        box["me"] = threading.get_ident()
+
+    t = threading.Thread(target=job, daemon=True)
+    t.start()
+    t.join(timeout=120)
+    assert not t.is_alive()
+    assert box["out"] == [x * x + 1 for x in range(30)]
+    assert box["threads"] == {box["me"]} and box["me"] != threading.get_ident()

@@ -17,7 +17,7 @@ pytest.importorskip("ipywidgets")
 
 import kit  # noqa: E402
 from kit import batch  # noqa: E402
-from kit.batch.procedure import Procedure  # noqa: E402
+from kit.batch.procedure import Procedure, ProcedureError  # noqa: E402
 from kit.ui.procedure_panel import ProcedurePanel, procedure_panel, summary_html  # noqa: E402
 
 LIMITS = {"fs_hz": {"min": 1.8e6, "max": 1.9e6}, "k_eff": {"min": 0.4}}
@@ -127,9 +127,13 @@ def test_saved_file_runs_like_the_python_procedure(panel, demo_dir, small_lot):
 
 
 def test_run_button_shows_the_batch_summary(panel, demo_dir, small_lot):
-    """Run on folder calls kit.batch.run and shows its summary and a status line."""
+    """Run on folder calls kit.batch.run (in a background thread) and shows its summary,
+    a status line and a full progress bar."""
     panel.run_button.click()
+    assert panel.wait(timeout=300)
     assert not panel.message.last, panel.message.last
+    assert panel.job.progress.value == panel.job.progress.max == 2
+    assert panel.job.count.value == "2 / 2" and panel.job.state == "done"
     direct = batch.run(python_procedure(demo_dir), small_lot, workers=1, use_cache=False,
                        progress=False)
     pd.testing.assert_frame_equal(comparable(panel.result.summary), comparable(direct.summary))
@@ -159,6 +163,7 @@ def test_missing_folder_and_missing_standard_are_messages(panel):
     panel.folder.value = ""
     panel.run_button.click()
     assert "folder to run on" in panel.message.last
+    assert panel.job.state == "idle" and not panel.run_button.disabled
     panel.open.value = "(none)"
     assert "pick the open standard" in panel.message.last
 
@@ -212,3 +217,84 @@ def test_summary_table_escapes_names():
                        "error": ["bad & worse"], "fs_hz": [float("nan")]})
     out = summary_html(df)
     assert "&lt;script&gt;" in out and "<script>" not in out and "bad &amp; worse" in out
+
+
+# --------------------------------------------------------------------- the run in the background
+class Gate:
+    """Wraps kit.batch.engine.run so that the run's first progress report waits until the
+    test opens the gate: the states while a run goes can then be looked at without a race.
+    The run itself is the real one."""
+
+    def __init__(self, monkeypatch):
+        import threading
+
+        from kit.batch import engine
+
+        self.reached, self.open = threading.Event(), threading.Event()
+        real = engine.run
+
+        def gated(*args, on_progress=None, **kwargs):
+            def report(done, total):
+                self.reached.set()
+                assert self.open.wait(timeout=120), "the test never opened the gate"
+                on_progress(done, total)
+
+            return real(*args, on_progress=report, **kwargs)
+
+        monkeypatch.setattr(engine, "run", gated)
+
+
+def test_the_button_returns_at_once_and_the_buttons_follow_the_run(panel, monkeypatch):
+    """While the run goes, this thread (the kernel's) is free, Run is disabled, Cancel is
+    enabled and a second start is refused with a message; afterwards both come back."""
+    gate = Gate(monkeypatch)
+    panel.run_button.click()
+    assert gate.reached.wait(timeout=60)
+    assert panel.job.running and panel.run_button.disabled
+    assert not panel.job.cancel_button.disabled
+    assert panel.result is None and not panel.wait(timeout=0.05)
+    panel.run_button.click()  # a second start (a disabled button can still be clicked in code)
+    assert "run is in progress" in panel.message.last
+    panel.message.clear()
+    gate.open.set()
+    assert panel.wait(timeout=300)
+    assert panel.job.state == "done" and not panel.message.last, panel.message.last
+    assert not panel.run_button.disabled and panel.job.cancel_button.disabled
+    assert list(panel.result.summary["capture"]) == ["pzd7-01", "pzd7-04"]
+
+
+def test_cancel_keeps_no_result_and_writes_nothing(panel, monkeypatch, tmp_path):
+    """Cancel while the run goes: the run stops (kit.io.pool.Cancelled), no result is kept,
+    the output folder is not written, a note says so and the buttons come back."""
+    gate = Gate(monkeypatch)
+    panel.out.value = str(tmp_path / "out")
+    panel.run_button.click()
+    assert gate.reached.wait(timeout=60)
+    panel.job.cancel_button.click()
+    assert panel.job.cancel_button.disabled  # a second click has nothing to do
+    gate.open.set()
+    assert panel.wait(timeout=300)
+    assert panel.job.state == "cancelled" and panel.result is None
+    assert panel.message.kind == "note" and "cancelled after 0 of 2" in panel.message.last
+    assert not (tmp_path / "out").exists()
+    assert not panel.run_button.disabled and panel.job.cancel_button.disabled
+
+
+def test_a_failing_run_is_a_message_and_the_buttons_come_back(panel, tmp_path):
+    """A folder that does not exist fails inside the background run: the reason goes to
+    the message bar (kit.batch.run's own words), nothing is kept."""
+    panel.folder.value = str(tmp_path / "nowhere")
+    panel.run_button.click()
+    assert panel.wait(timeout=60)
+    assert panel.job.state == "error" and panel.result is None
+    assert panel.message.kind == "error" and "does not exist" in panel.message.last
+    assert panel.status.value == "run failed" and not panel.run_button.disabled
+
+
+def test_run_from_a_script_waits_and_raises(panel, tmp_path):
+    """run() (block=True) returns the result as it always did; a failure raises there."""
+    result = panel.run()
+    assert result is panel.result and len(result.summary) == 2
+    panel.folder.value = str(tmp_path / "nowhere")
+    with pytest.raises(ProcedureError, match="does not exist"):
+        panel.run()

@@ -265,7 +265,7 @@ def expand_inputs(inputs: Iterable[Any]) -> list[Any]:
 def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None = None,
         client: Any = None, scheduler: str | None = None, cache_dir: str | Path | None = None,
         use_cache: bool = True, progress: bool | None = None,
-        keep_captures: bool = True) -> BatchResult:
+        keep_captures: bool = True, on_progress: Any = None, cancel: Any = None) -> BatchResult:
     """Run a procedure over many captures.
 
     Parameters
@@ -290,10 +290,20 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         Keep every capture (raw and corrected) in the result, as exports of sweeps and
         reports need. ``False`` keeps only the summary rows: memory then stays flat for
         lots of any size (the summary and the provenance can still be written).
+    on_progress : callable, optional
+        ``on_progress(done, total)`` in captures, called in this process as chunks finish
+        (:func:`kit.io.pool.run_chunks`).
+    cancel : threading.Event or alike, optional
+        Once set (``is_set()``), the run stops and raises :class:`kit.io.pool.Cancelled`.
 
     Returns
     -------
     BatchResult
+
+    Raises
+    ------
+    kit.io.pool.Cancelled
+        When ``cancel`` was set before the run finished; nothing is returned.
     """
     from kit.outputs.summary import summary_frame
 
@@ -330,9 +340,18 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
             futures = client.map(_process_chunk, chunks, *[[a] * len(chunks) for a in args],
                                  [True] * len(chunks), pure=False)
             size = {fut.key: len(chunk) for fut, chunk in zip(futures, chunks)}
+            done = 0
             for fut in as_completed(futures):
+                if cancel is not None and cancel.is_set():
+                    from kit.io.pool import Cancelled
+
+                    client.cancel(futures)
+                    raise Cancelled(done, len(items))
+                done += size[fut.key]
                 if bar is not None:
                     bar.update(size[fut.key])
+                if on_progress is not None:
+                    on_progress(done, len(items))
             for part in client.gather(futures):
                 results.extend(part)
         else:
@@ -344,7 +363,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
             engine = f"{n} local processes" if n > 1 and len(items) > CHUNK else "this process"
             results = run_chunks(_process_chunk, items, *args, workers=n, chunk_size=CHUNK,
                                  parallel_from=CHUNK + 1, progress=show, desc="captures",
-                                 unit="capture")
+                                 unit="capture", on_progress=on_progress, cancel=cancel)
     finally:
         if bar is not None:
             bar.close()

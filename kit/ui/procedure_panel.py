@@ -10,6 +10,13 @@ the controls; *Run on folder* calls :func:`kit.batch.engine.run` on the folder a
 summary table. The panel only wires controls to those kit functions; every error goes to
 the panel's message bar.
 
+The button runs the lot in a background thread (:mod:`kit.ui.background`): the kernel stays
+free for other cells, a bar shows the captures done, and *Cancel* stops the run before its
+next chunk of captures (nothing is written then). From a script or a test,
+:meth:`ProcedurePanel.run` waits by default (``block=True``) and returns the result, as it
+always did; ``run(block=False)`` is what the button does, and :meth:`ProcedurePanel.wait`
+waits for it.
+
 The panel's correction order is the procedure's: a cable step (nearest the analyser)
 before the standards. The standards are applied as they were measured, so with both
 switched on they must have been measured through the same cable (see the note shown then).
@@ -22,7 +29,8 @@ from pathlib import Path
 from typing import Any
 
 from kit.resonators.registry import MODEL_NAMES
-from kit.ui.common import MessageBar, classed, guess, section, show, touchstone_names
+from kit.ui.background import BackgroundJob
+from kit.ui.common import MessageBar, classed, guess, plain_error, section, show, touchstone_names
 from kit.units import from_unit, to_unit
 
 NONE = "(none)"
@@ -114,6 +122,8 @@ class ProcedurePanel:
     path : ipywidgets.Text
         Procedure file for Save and Load.
     save_button, load_button, run_button : ipywidgets.Button
+    job : kit.ui.background.BackgroundJob
+        The run's progress bar, count and cancel button (``job.cancel_button``).
     workers : ipywidgets.BoundedIntText
         Local worker processes for the run (1: in the kernel's process).
     out : ipywidgets.Text
@@ -125,7 +135,8 @@ class ProcedurePanel:
         Summary of the last run (escaped).
     message : kit.ui.common.MessageBar
     result : kit.batch.engine.BatchResult or None
-        The last run.
+        The last run that finished (None while a run goes, or after a failed or cancelled
+        one).
     kept : dict
         Settings of a loaded procedure that the panel has no control for (resonance span,
         extra fit options, other limits, masks, name); they are kept in what it saves.
@@ -202,6 +213,7 @@ class ProcedurePanel:
                                            button_style="", tooltip="kit.batch.engine.run"), "proc-run")
         self.status = classed(w.HTML(""), "proc-status")
         self.table = classed(w.HTML(summary_html(None)), "proc-table")
+        self.job = BackgroundJob(self.run_button, prefix="proc")
 
         self._controls = [self.method, self.name_pattern, self.compensation, self.open,
                           self.short, self.load, self.load_ohms, self.use_cable,
@@ -214,7 +226,7 @@ class ProcedurePanel:
             c.observe(lambda _change: None if self._quiet else self._update(), names="value")
         self.save_button.on_click(self.message.guard(lambda _b: self.save()))
         self.load_button.on_click(self.message.guard(lambda _b: self.load_file()))
-        self.run_button.on_click(self.message.guard(lambda _b: self.run()))
+        self.run_button.on_click(self.message.guard(lambda _b: self.run(block=False)))
 
         imp = w.VBox([self.folder, self.method, self.name_pattern])
         corr = w.VBox([self.compensation, self.open, self.short, self.load, self.load_ohms,
@@ -223,11 +235,12 @@ class ProcedurePanel:
         lim = w.VBox(rows)
         body = w.HBox([w.VBox([imp, fit]), corr, lim], layout=w.Layout(flex_flow="row wrap"))
         files = w.HBox([self.path, self.save_button, self.load_button])
-        runrow = w.HBox([self.workers, self.out, self.run_button])
+        runrow = w.HBox([self.workers, self.out, self.run_button, self.job.cancel_button])
         self.widget = classed(w.VBox([
             section("Procedure", body, "proc-controls"), self.message.widget,
             section("Procedure file", w.VBox([files, self.toml]), "proc-file"),
-            section("Run", w.VBox([runrow, self.status, self.table]), "proc-run-section")]),
+            section("Run", w.VBox([runrow, self.job.widget, self.status, self.table]),
+                    "proc-run-section")]),
             "procedure-panel")
         self._update()
 
@@ -393,19 +406,58 @@ class ProcedurePanel:
             self.message.show(f"kept as loaded (no control here): {', '.join(what)}", "note")
 
     # ------------------------------------------------------------------ run
-    def run(self):
-        """Run the procedure on the folder with :func:`kit.batch.engine.run`; returns its result."""
+    def run(self, block: bool = True):
+        """Run the procedure on the folder with :func:`kit.batch.engine.run`.
+
+        Parameters
+        ----------
+        block : bool
+            True (scripts, tests): run here and return the
+            :class:`kit.batch.engine.BatchResult`; a failure raises (a cancelled run raises
+            :class:`kit.io.pool.Cancelled`). False (the *Run on folder* button): start the
+            run in a background thread and return that thread; the outcome goes to
+            ``result``, the table, the status line and the message bar.
+        """
         from kit.batch import engine as batch
+        from kit.io.pool import Cancelled
 
         target = self.folder.value.strip()
         if not target:
             raise ValueError("type the folder to run on")
+        if self.job.running:
+            raise RuntimeError("a run is in progress: wait for it to finish or cancel it")
         proc = self.procedure()
+        out, workers = self.out.value.strip(), int(self.workers.value)
         self.status.value = f"running on {html.escape(target)} &hellip;"
         self.result = None
         self.table.value = summary_html(None)
-        result = batch.run(proc, target, workers=int(self.workers.value),
-                           cache_dir=self.cache_dir, use_cache=self.use_cache, progress=False)
+
+        def work(on_progress, cancel):
+            result = batch.run(proc, target, workers=workers, cache_dir=self.cache_dir,
+                               use_cache=self.use_cache, progress=False,
+                               on_progress=on_progress, cancel=cancel)
+            if cancel.is_set():  # set after the last chunk: still nothing is written
+                n = len(result.summary)
+                raise Cancelled(n, n)
+            return result, (result.write(out) if out else None)
+
+        value = self.job.start(work, self._finished, block=block)
+        return self.result if block else value
+
+    def _finished(self, value=None, error=None) -> None:
+        """The end of a run (in the run's thread): result, table, status line, message."""
+        from kit.io.pool import Cancelled
+
+        if isinstance(error, Cancelled):
+            self.status.value = "cancelled"
+            self.message.show(f"run cancelled after {error.done} of {error.total} capture(s); "
+                              "no result kept and nothing written", "note")
+            return
+        if error is not None:
+            self.status.value = "run failed"
+            self.message.show(plain_error(error), "error")
+            return
+        result, written = value
         self.result = result
         self.table.value = summary_html(result.summary)
         s = result.stats
@@ -413,11 +465,19 @@ class ProcedurePanel:
         verdicts = ", ".join(f"{k} {v}" for k, v in counts.items()) or "none"
         line = (f"{s['inputs']} capture(s), {s['errors']} error row(s); verdicts: {verdicts}; "
                 f"engine: {s['engine']}")
-        if self.out.value.strip():
-            written = result.write(self.out.value.strip())
+        if written is not None:
             line += f"; written to {written}"
         self.status.value = html.escape(line)
-        return result
+
+    def wait(self, timeout: float | None = None) -> bool:
+        """Wait for a run started with ``run(block=False)`` (or the button); True when no run
+        goes any more, False when ``timeout`` [s] passed first. The outcome is in ``result``,
+        ``status`` and ``message``."""
+        return self.job.wait(timeout)
+
+    def cancel(self) -> None:
+        """Stop the running run before its next chunk (what the Cancel button does)."""
+        self.job.cancel()
 
     # ------------------------------------------------------------------ from other panels
     @classmethod
