@@ -296,7 +296,9 @@ def percent(fraction, digits: int = 2, signed: bool = False) -> str:
     p = 100.0 * float(fraction)
     if math.isinf(p):
         return _infinite(p, "%")
-    text = quantity(p if signed else abs(p), "%", digits=digits) if p else "0 %"
+    if p == 0:  # a signed zero keeps its sign: a tiny difference whose ratio underflowed
+        return ((MINUS if math.copysign(1.0, p) < 0 else "+") if signed else "") + "0 %"
+    text = quantity(p if signed else abs(p), "%", digits=digits)
     return "+" + text if signed and p > 0 else text
 
 
@@ -316,7 +318,8 @@ def delta(value, unit: str = "", relative_to=None, digits: int = 3) -> str:
     elif x < 0:
         text = MINUS + text
     if relative_to is not None and not _missing(relative_to) and float(relative_to) != 0:
-        text += f" ({percent(x / abs(float(relative_to)), signed=True)})"
+        ratio = x / abs(float(relative_to))
+        text += f" ({percent(math.copysign(ratio, x), signed=True)})"
     return text
 
 
