@@ -3,7 +3,7 @@
 Every function takes the axes to draw on, draws, labels the axes with units and returns
 the artists it made, so that a widget can later update them (``line.set_data`` then
 ``canvas.draw_idle``) instead of drawing again. Long sweeps are decimated for display
-(min/max per pixel column, :mod:`kit.views.decimate`); the data are never altered.
+(min/max per pixel column, :mod:`kit.outputs.decimate`); the data are never altered.
 
 This module gathers the whole drawing API:
 
@@ -44,7 +44,7 @@ from kit.views.data import (
     reciprocal,
     trace,
 )
-from kit.views.decimate import columns_of, minmax_indices, window
+from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.views.markers import (
     MARKER_KINDS,
     draw_marker,
