@@ -35,6 +35,7 @@ from typing import Any, Iterable
 import numpy as np
 
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
+from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.views.data import (
     CHARTS,
     PALETTE,
@@ -44,7 +45,6 @@ from kit.views.data import (
     reciprocal,
     trace,
 )
-from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.views.markers import (
     MARKER_KINDS,
     draw_marker,
