@@ -140,9 +140,11 @@ def test_needs_figure_rule():
     assert not needs_figure(good, "flagged") and needs_figure(good, "all")
     for change in ({"verdict": "fail"}, {"verdict": "incomplete"}, {"status": "error"},
                    {"fit_ok": False}, {"fit_flags": "at-bound:R1"}, {"review_verdict": "reject"},
-                   {"retest_requested": True}):
+                   {"retest_requested": True}, {"review_notes": 1}, {"review_tags": "odd"}):
         assert needs_figure({**good, **change}, "flagged"), change
         assert not needs_figure({**good, **change}, "none")
+    notes = {**good, "fit_flags": "errors-inflated; systematic-residual"}
+    assert not needs_figure(notes, "flagged")  # notes on the error estimate, not a problem
     with pytest.raises(ValueError, match="flagged"):
         needs_figure(good, "some")
 

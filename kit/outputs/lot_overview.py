@@ -87,6 +87,14 @@ def _label(q) -> str:
     return q.label or q.name
 
 
+def _axis_label(name: str, label: str, unit: str) -> str:
+    """"fs [MHz]": the column's stem (or the limit's label) and its prefixed unit."""
+    from kit.outputs.entries import split_unit
+
+    text = label or split_unit(name)[0]
+    return f"{text} [{unit}]" if unit else text
+
+
 # ---------------------------------------------------------------------- counts
 def counts_html(summary) -> str:
     """Counts by limits verdict, reviewer verdict and kind of reason, and the yield."""
@@ -146,7 +154,7 @@ def _histogram_png(values: np.ndarray, q, dpi: int = 80) -> bytes:
     for b, ls in zip((q.min, q.max), ("--", "-")):
         if b is not None:
             ax.axvline(b * k, color=PALETTE["vermilion"], ls=ls, lw=1.5)
-    ax.set_xlabel(f"{_label(q)} [{shown}]" if shown else _label(q), fontsize=8)
+    ax.set_xlabel(_axis_label(q.name, q.label, shown), fontsize=8)
     ax.set_ylabel("parts", fontsize=8)
     return encode_png(fig)
 
@@ -217,8 +225,8 @@ def scatter_html(summary, limits, pair: tuple[str, str] | None, dpi: int = 80) -
         for b in (() if q is None else (q.min, q.max)):
             if b is not None:
                 line(b * k, color=PALETTE["vermilion"], ls="--", lw=1.2)
-    ax.set_xlabel(f"{xn} [{ux}]" if ux else xn, fontsize=8)
-    ax.set_ylabel(f"{yn} [{uy}]" if uy else yn, fontsize=8)
+    ax.set_xlabel(_axis_label(xn, "", ux), fontsize=8)
+    ax.set_ylabel(_axis_label(yn, "", uy), fontsize=8)
     ax.legend(fontsize=7, loc="upper right", markerscale=1.5)
     return (f"<h2>{esc(xn)} against {esc(yn)}</h2>"
             f"<figure>{img_tag(encode_png(fig), f'{xn} against {yn}')}<figcaption>Each part "

@@ -198,7 +198,7 @@ def _section(i: int, row: dict, anchor: str, picture: bytes | None, history: Any
 
 #: The columns :func:`needs_figure` reads.
 _RULE_COLUMNS = ("status", "verdict", "fit_ok", "fit_flags", "resonance_flags",
-                 "review_verdict", "retest_requested")
+                 "review_verdict", "retest_requested", "review_tags", "review_notes")
 
 
 def _figures_choice(figures: Any) -> str:

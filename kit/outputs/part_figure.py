@@ -64,6 +64,16 @@ def _text(v: Any) -> str:
     return str(v).strip()
 
 
+def _severe(flags: str) -> bool:
+    """Whether a summary's ``fit_flags`` text holds a severe flag or a failed fit."""
+    from kit.resonators.solve import SEVERE_FLAGS
+
+    for flag in flags.split("; ") if flags else ():
+        if flag.split(":", 1)[0] in SEVERE_FLAGS or flag.startswith("fit failed"):
+            return True
+    return False
+
+
 def needs_figure(row: Mapping, figures: str) -> bool:
     """Whether a part of a lot gets a picture: the one rule for the report and batch runs.
 
@@ -75,9 +85,13 @@ def needs_figure(row: Mapping, figures: str) -> bool:
         "all": every part; "none": no part; "flagged": a part that did not pass or
         carries a flag, that is one whose ``status`` is not "ok", whose limits
         ``verdict`` is "fail" or "incomplete", whose fit did not succeed (``fit_ok`` False),
-        with any ``fit_flags`` or ``resonance_flags``, a reviewer verdict "reject" or
-        "retest", or a re-test request. Without limits (no verdict) only the other
-        conditions count.
+        with a severe fit flag (:data:`kit.resonators.solve.SEVERE_FLAGS`, e.g.
+        "at-bound:R1", "poor-fit"; the notes on the error estimate that nearly every fit
+        of real data carries, "errors-inflated" and "systematic-residual", do not count)
+        or any ``resonance_flags``, a reviewer verdict "reject" or
+        "retest", a re-test request, or a reviewer's note or tag (``review_notes``,
+        ``review_tags``: what a person said about the part is never left out). Without
+        limits (no verdict) only the other conditions count.
 
     Raises
     ------
@@ -99,9 +113,12 @@ def needs_figure(row: Mapping, figures: str) -> bool:
     if fit_ok is not None and not (isinstance(fit_ok, float) and math.isnan(fit_ok)) \
             and not bool(fit_ok):
         return True
-    if _text(get("fit_flags")) or _text(get("resonance_flags")):
+    if _text(get("resonance_flags")) or _severe(_text(get("fit_flags"))):
         return True
-    if _text(get("review_verdict")) in ("reject", "retest"):
+    if _text(get("review_verdict")) in ("reject", "retest") or _text(get("review_tags")):
+        return True
+    notes = get("review_notes")
+    if isinstance(notes, (int, float)) and math.isfinite(notes) and notes > 0:
         return True
     retest = get("retest_requested")
     return bool(retest) and not (isinstance(retest, float) and math.isnan(retest))
