@@ -78,7 +78,7 @@ def main() -> None:
 
 
 def kv_window(f, span):
-    from kit.views.decimate import window
+    from kit.outputs.decimate import window
 
     return window(f, *span)
 

@@ -10,7 +10,8 @@ import sys
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
-QUICK = {"bench_batch.py": ["200"], "bench_fit.py": [], "bench_corrections.py": []}
+QUICK = {"bench_batch.py": ["200"], "bench_report.py": ["1000"], "bench_fit.py": [],
+         "bench_corrections.py": []}
 
 
 def main() -> int:

@@ -7,7 +7,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
-from kit.views.decimate import minmax, minmax_indices, window
+from kit.outputs.decimate import minmax, minmax_indices, window
 
 
 def _column_extremes(y: np.ndarray, columns: int) -> list[tuple[float, float]]:

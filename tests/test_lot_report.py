@@ -84,35 +84,122 @@ def test_names_from_files_are_escaped(tmp_path):
 
 
 def test_self_contained_with_embedded_png(tmp_path):
-    """One file: images are base64 PNG data URIs, nothing refers to an outside resource."""
+    """One file: images are base64 PNG data URIs, links stay inside the page, nothing
+    refers to an outside resource, and the CSP forbids scripts and outside requests."""
     lot, caps = _lot(tmp_path)
     lim = parse_limits("[[mask]]\nname='z'\ncurve='z_mag_ohm'\nf_min_hz=1e6\nf_max_hz=3e6\n"
                        "upper=1000.0\n")
-    out = report(tmp_path / "r.html", caps, limits=lim)
+    out = report(tmp_path / "r.html", caps, limits=lim, figures="all")
     doc = out.read_text()
     parsed = _parse(doc)
-    srcs = [v for k, v in parsed.attrs if k in ("src", "href")]
-    assert len(srcs) == 2 and all(s.startswith("data:image/png;base64,") for s in srcs)
+    srcs = [v for k, v in parsed.attrs if k == "src"]
+    hrefs = [v for k, v in parsed.attrs if k == "href"]
+    assert len(srcs) == 3  # the overlay and one picture per part
+    assert all(s.startswith("data:image/png;base64,") for s in srcs)
+    assert hrefs and all(h.startswith("#part-") for h in hrefs)
     for s in srcs:
         png = base64.b64decode(s.split(",", 1)[1])
         assert png[:8] == bytes([137, 80, 78, 71, 13, 10, 26, 10])
     assert not re.search(r"(src|href)\s*=\s*[\"']?https?:", doc)
     assert "Content-Security-Policy" in doc and "default-src 'none'" in doc
+    assert "script-src" not in doc and "<script" not in doc
+
+
+def _judged(tmp_path):
+    """Two parts, one passing and one failing a bound on fs_hz."""
+    lot, caps = _lot(tmp_path)
+    lim = parse_limits("[quantity.fs_hz]\nmin = 1e6\n")
+    summ = summary(caps, resonances=[{"fs_hz": 2e6}, {"fs_hz": 0.5e6}], limits=lim)
+    return lot, caps, lim, summ
+
+
+def _sections(doc: str) -> list[str]:
+    return re.findall(r'<section id="(part-\d+)"', doc)
+
+
+@pytest.mark.parametrize("figures, expected", [("flagged", ["part-2"]),
+                                               ("all", ["part-1", "part-2"]), ("none", [])])
+def test_sections_follow_the_figures_rule(tmp_path, figures, expected):
+    """By default only the part that did not pass has a section (with its picture); "all"
+    gives every part one, "none" gives none."""
+    lot, caps, lim, summ = _judged(tmp_path)
+    doc = report(tmp_path / "r.html", caps, summary=summ, limits=lim,
+                 figures=figures).read_text()
+    assert _sections(doc) == expected
+    pictures = len(re.findall(r'<section id="part-\d+"><h3>[^\n]*\n[^\n]*\n<img', doc))
+    assert pictures == len(expected)
+
+
+def test_needs_figure_rule():
+    """The one rule: not passed or flagged -> a picture with "flagged"; always with "all",
+    never with "none"; an unknown choice is refused."""
+    from kit.outputs.part_figure import needs_figure
+
+    good = {"status": "ok", "verdict": "pass", "fit_ok": True, "fit_flags": "",
+            "resonance_flags": float("nan"), "review_verdict": None, "retest_requested": False}
+    assert not needs_figure(good, "flagged") and needs_figure(good, "all")
+    for change in ({"verdict": "fail"}, {"verdict": "incomplete"}, {"status": "error"},
+                   {"fit_ok": False}, {"fit_flags": "at-bound:R1"}, {"review_verdict": "reject"},
+                   {"retest_requested": True}, {"review_notes": 1}, {"review_tags": "odd"}):
+        assert needs_figure({**good, **change}, "flagged"), change
+        assert not needs_figure({**good, **change}, "none")
+    notes = {**good, "fit_flags": "errors-inflated; systematic-residual"}
+    assert not needs_figure(notes, "flagged")  # notes on the error estimate, not a problem
+    with pytest.raises(ValueError, match="flagged"):
+        needs_figure(good, "some")
 
 
 def test_summary_and_verdicts_shown(tmp_path):
-    """The summary table, the limits verdict with reasons and the reviewer verdict appear."""
-    lot, caps = _lot(tmp_path)
+    """The parts table (units in the headers), the limits verdict with its reasons, the
+    reason kinds, yield, Cp/Cpk row and the reviewer verdict appear."""
+    lot, caps, lim, _ = _judged(tmp_path)
     log = ReviewLog.for_folder(lot)
     log.add(caps[1], "verdict", value="accept", author="k.m")
-    lim = parse_limits("[quantity.fs_hz]\nmin = 1e6\n")
     summ = summary(caps, resonances=[{"fs_hz": 2e6}, {"fs_hz": 0.5e6}], limits=lim,
                    review_log=log)
-    out = report(tmp_path / "r.html", caps, summary=summ, review_log=log, title="Lot <7>")
-    text = "".join(_parse(out.read_text()).text)
+    out = report(tmp_path / "r.html", caps, summary=summ, review_log=log, limits=lim,
+                 title="Lot <7>")
+    doc = out.read_text()
+    text = "".join(_parse(doc).text)
     assert "Lot <7>" in text
-    assert "below the minimum" in text and "2,000,000.0" in text
-    assert re.search(r"reviewer verdict: (accept 1, none 1|none 1, accept 1)", text)
+    assert "below the minimum" in text and "fs [MHz]" in text
+    assert re.search(r"<td>0\.5</td>", doc) and re.search(r"<td>2</td>", doc)
+    assert "fs_hz: below the minimum" in text  # kind of reason, counted in the overview
+    assert "Yield: 1 of 2 part(s) passed" in text
+    assert "Cpk" in text and "Cp" in text
+    assert "accept" in text and "k.m" in text
+
+
+def test_capability_shown_against_independent_numbers(tmp_path):
+    """n, mean, std (numpy, ddof=1) and Cpk of a one-sided limit appear for the judged
+    quantity (Cpk = (mean - LSL) / 3s, NIST/SEMATECH e-Handbook 6.1.6)."""
+    import pandas as pd
+
+    fs = np.array([1.84e6, 1.85e6, 1.86e6, 1.87e6])
+    lim = parse_limits("[quantity.fs_hz]\nmin = 1.8e6\n")
+    summ = pd.DataFrame({"capture": [f"p{i}" for i in range(4)], "sha256": list("abcd"),
+                         "status": "ok", "fs_hz": fs, "verdict": "pass",
+                         "verdict_reasons": ""})
+    doc = report(tmp_path / "r.html", [], summary=summ, limits=lim).read_text()
+    cpk = (fs.mean() - 1.8e6) / (3 * np.std(fs, ddof=1))
+    assert f"<td class=num>{cpk:.3g}</td>" in doc
+    assert "12.91 kHz" in doc  # std 12,910 Hz by numpy (ddof=1), written by kit.units.eng
+
+
+def test_works_without_captures(tmp_path):
+    """captures=[] with summary, pictures and traces gives the whole page: the overview
+    (overlay from the traces), the table and the sections with the given pictures."""
+    from kit.outputs.part_figure import PartPainter
+
+    lot, caps, lim, summ = _judged(tmp_path)
+    painter = PartPainter()
+    pictures = {c.sha256: painter.png(c, lim) for c in caps}
+    traces = {c.sha256: painter.trace(c) for c in caps}
+    doc = report(tmp_path / "r.html", [], summary=summ, limits=lim, pictures=pictures,
+                 traces=traces, figures="all").read_text()
+    assert _sections(doc) == ["part-1", "part-2"]
+    assert doc.count("data:image/png;base64,") == 2 + 2  # overlay + histogram, 2 pictures
+    assert "All curves" in doc
 
 
 def test_report_refuses_input_folder_and_writes_atomically(tmp_path):
@@ -120,8 +207,8 @@ def test_report_refuses_input_folder_and_writes_atomically(tmp_path):
     lot, caps = _lot(tmp_path)
     with pytest.raises(ExportError, match="never written"):
         report(lot / "r.html", caps)
-    out = report(tmp_path / "r.html", caps, figures=False)
-    report(out, caps, figures=False)
+    out = report(tmp_path / "r.html", caps, figures="none")
+    report(out, caps, figures=False)  # the former switch still means no figures
     assert sorted(p.name for p in tmp_path.iterdir()) == ["lot", "r.html"]
 
 

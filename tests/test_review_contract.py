@@ -278,7 +278,7 @@ def test_note_with_markup_escaped_in_lot_report(new_target, lot_capture, tmp_pat
     _, cap = lot_capture
     evil = '<script>alert("x")</script><img src=x onerror=alert(1)>'
     ReviewLog(target).add(cap, "note", text=evil, author="<b>eve</b>")
-    out = kit.report(tmp_path / "out" / "lot.html", [cap], review_log=target, figures=False)
+    out = kit.report(tmp_path / "out" / "lot.html", [cap], review_log=target)  # a note: shown
     doc = out.read_text(encoding="utf-8")
     assert evil not in doc and "<b>eve</b>" not in doc
     assert html.escape(evil, quote=True) in doc and "&lt;b&gt;eve&lt;/b&gt;" in doc

@@ -15,6 +15,7 @@ References
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -24,7 +25,8 @@ from kit.results import Result
 from kit.review.limits import SPAN_TOL, Limits, Mask, QuantityLimit, s_ports
 from kit.units import percent, quantity, scale_for, unit_of
 
-__all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict"]
+__all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict",
+           "split_reasons", "reason_kinds"]
 
 
 @dataclass(frozen=True)
@@ -309,3 +311,71 @@ def verdict(summary_row: Any, limits: Limits, capture: Any = None) -> Verdict:
     states = {c.status for c in checks}
     status = "fail" if "fail" in states else ("incomplete" if "incomplete" in states else "pass")
     return Verdict(status, tuple(checks))
+
+
+# ---------------------------------------------------------------------- reading reasons back
+# The words above are the one home of the reasons; these read a summary's joined
+# ``verdict_reasons`` ("; " between reasons) back into reasons and kinds of reason.
+_CONTINUATION = re.compile(r"^(no check possible|nearest bound |tightest at |\d+ of \d+ points "
+                           r"outside)")
+_Q_OUT = re.compile(r"^(?P<label>.+?) = .* is (?P<word>below the minimum|above the maximum) ")
+_Q_MISSING = re.compile(r"^(?P<label>.+?): (is missing|could not be computed \(.*\))$")
+_MASK = re.compile(r"^mask (?P<name>'(?:[^'\\]|\\.)*'|\"(?:[^\"\\]|\\.)*\") \([^)]*\): "
+                   r"(?P<rest>.*)$")
+_MASK_KINDS = (("is below the lower bound", "below the lower bound"),
+               ("is above the upper bound", "above the upper bound"),
+               ("no capture given", "no capture"),
+               ("the curve could not be computed", "curve not computable"),
+               ("could not be computed", "points not computable"),
+               ("the capture covers", "span not covered"),
+               ("no measured point in the span", "span not covered"))
+
+
+def split_reasons(text: Any) -> list[str]:
+    """The reasons of a joined ``verdict_reasons`` text, one per check, in order.
+
+    Reasons are joined with "; ", which also occurs inside a reason ("...; no check
+    possible", "...; 3 of 40 points outside"): such pieces are put back on their reason.
+    A label that itself holds "; " is split there (the joined text cannot tell).
+    """
+    if text is None or (isinstance(text, float) and math.isnan(text)) or not str(text):
+        return []
+    out: list[str] = []
+    for piece in str(text).split("; "):
+        if out and _CONTINUATION.match(piece):
+            out[-1] += "; " + piece
+        else:
+            out.append(piece)
+    return out
+
+
+def reason_kinds(text: Any) -> list[str]:
+    """Kinds of the failed or incomplete checks in a ``verdict_reasons`` text.
+
+    E.g. "fs_hz: below the minimum", "k_eff: missing", "mask 'z': above the upper bound",
+    "mask 'z': span not covered", "no checks defined"; reasons of checks that passed
+    give none. A reason in other words is "other: <reason>". Each kind once, in order.
+    """
+    kinds: list[str] = []
+    for r in split_reasons(text):
+        kind = None
+        m = _MASK.match(r)
+        if m:
+            rest = m.group("rest")
+            if rest.startswith("inside"):
+                continue
+            what = next((k for w, k in _MASK_KINDS if w in rest), "not checked")
+            kind = f"mask {m.group('name')}: {what}"
+        elif " is within limits; " in r:
+            continue
+        elif (m := _Q_OUT.match(r)) is not None:
+            kind = f"{m.group('label')}: {m.group('word')}"
+        elif (m := _Q_MISSING.match(r.removesuffix("; no check possible"))) is not None:
+            kind = f"{m.group('label')}: missing"
+        elif r == "the limits define no check":
+            kind = "no checks defined"
+        else:
+            kind = f"other: {r}"
+        if kind not in kinds:
+            kinds.append(kind)
+    return kinds

@@ -3,7 +3,7 @@
 Every function takes the axes to draw on, draws, labels the axes with units and returns
 the artists it made, so that a widget can later update them (``line.set_data`` then
 ``canvas.draw_idle``) instead of drawing again. Long sweeps are decimated for display
-(min/max per pixel column, :mod:`kit.views.decimate`); the data are never altered.
+(min/max per pixel column, :mod:`kit.outputs.decimate`); the data are never altered.
 
 This module gathers the whole drawing API:
 
@@ -35,6 +35,7 @@ from typing import Any, Iterable
 import numpy as np
 
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
+from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.units import quantity, scale_for
 from kit.views.data import (
     CHARTS,
@@ -45,7 +46,6 @@ from kit.views.data import (
     reciprocal,
     trace,
 )
-from kit.views.decimate import columns_of, minmax_indices, window
 from kit.views.pins import (
     PIN_SEARCHES,
     draw_pin,

@@ -9,9 +9,9 @@ from typing import Any
 
 import numpy as np
 
+from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.units import to_unit
 from kit.views.data import GRID_Y, GRID_Z, Trace, color, trace
-from kit.views.decimate import columns_of, minmax_indices, window
 
 #: Normalised resistance / reactance values of the grid (our choice of circles).
 GRID_VALUES: tuple[float, ...] = (0.2, 0.5, 1.0, 2.0, 5.0)
