@@ -27,8 +27,8 @@ from kit.views import lot_plots as lp
 
 __all__ = ["LotOverview", "overview_cell", "open_in_browser"]
 
-_SCATTER_BOX = (0.07, 0.13, 0.42, 0.66)
-_HIST_BOX = (0.58, 0.13, 0.40, 0.66)
+_SCATTER_BOX = (0.10, 0.13, 0.39, 0.66)
+_HIST_BOX = (0.59, 0.13, 0.39, 0.66)
 
 
 def _selection_widget(browser):
@@ -218,10 +218,12 @@ class LotOverview:
     # -- clicks --------------------------------------------------------------------------
     def _on_pick(self, event) -> None:
         """A pick on any verdict's markers: open the part nearest to the click (once per
-        click, however many collections reported it)."""
+        click, however many collections reported it; not while the toolbar zooms or pans)."""
         me = event.mouseevent
-        if me is self._last_mouse or me.button not in (1, None):
-            return
+        toolbar = getattr(self.host.fig.canvas, "toolbar", None)
+        if me is self._last_mouse or me.button not in (1, None) or str(
+                getattr(toolbar, "mode", "")):
+            return  # one click, left button, and not while zooming or panning
         self._last_mouse = me
         i = lp.nearest_point(self.scatter.positions_px(), me.x, me.y)
         if i is not None:
@@ -272,13 +274,15 @@ def overview_cell(summary, limits=None, browser=None, display: bool = True,
     browser : kit.ui.lot_browser.LotBrowser, optional
         Where a clicked part opens (matched by sha256, else by capture name).
     display : bool
-        Show the cell now (False in tests).
+        Show the cell at once; False leaves showing ``cell.widget`` to the caller.
     interactive : bool, optional
-        Force or refuse an ipympl canvas (default: follow the matplotlib backend).
+        True for an ipympl canvas (clicks work), False for a PNG image; None follows the
+        matplotlib backend (``%matplotlib widget`` gives ipympl).
 
     Returns
     -------
     LotOverview
+        Its ``pick(i)`` clicks part ``i`` from Python.
     """
     cell = LotOverview(summary, limits=limits, browser=browser, interactive=interactive)
     if display:
