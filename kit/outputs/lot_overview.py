@@ -137,6 +137,17 @@ def counts_html(summary) -> str:
 
 
 # ---------------------------------------------------------------------- distributions
+def histogram_edges(x: np.ndarray, most: int = 80) -> np.ndarray:
+    """Bin edges for finite values ``x``: numpy's "auto" rule, at most ``most`` bins (the
+    one rule of the report's and the overview cell's histograms); one bin of width 1 around a single value."""
+    if x.size == 0:
+        return np.array([0.0, 1.0])
+    if x.min() == x.max():
+        return np.array([x.min() - 0.5, x.max() + 0.5])
+    edges = np.histogram_bin_edges(x, bins="auto")
+    return edges if edges.size <= most + 1 else np.linspace(x.min(), x.max(), most + 1)
+
+
 def _histogram_png(values: np.ndarray, q, dpi: int = 80) -> bytes:
     unit = unit_of(q.name)
     bounds = [b for b in (q.min, q.max) if b is not None]
@@ -144,9 +155,7 @@ def _histogram_png(values: np.ndarray, q, dpi: int = 80) -> bytes:
     fig, ax = _figure(dpi=dpi)
     x = values * k
     if x.size:
-        edges = np.histogram_bin_edges(x, bins="auto")
-        if edges.size > 81:
-            edges = np.linspace(x.min(), x.max(), 81)
+        edges = histogram_edges(x)
         counts, edges = np.histogram(x, bins=edges)
         ax.stairs(counts, edges, fill=True, color=PALETTE["blue"], alpha=0.85)
         ax.set_xlim(min(edges[0], *(b * k for b in bounds)), max(edges[-1], *(b * k for b in bounds)))

@@ -30,7 +30,7 @@ from typing import Any
 
 import numpy as np
 
-from kit.outputs.lot_overview import VERDICT_ORDER, verdict_of
+from kit.outputs.lot_overview import VERDICT_ORDER, histogram_edges, verdict_of
 from kit.outputs.part_figure import PALETTE, VERDICT_STYLE
 from kit.units import column_label, quantity, scale_for
 
@@ -105,17 +105,6 @@ def axis_label(name: str, values, bounds=_NAN2) -> tuple[str, float]:
     both = np.concatenate([np.asarray(values, float).ravel(), np.asarray(bounds, float)])
     k, shown = scale_for(both, unit)
     return (f"{label} [{shown}]" if shown else label), k
-
-
-def histogram_edges(x: np.ndarray, most: int = 80) -> np.ndarray:
-    """Bin edges for finite values ``x``: numpy's "auto" rule, at most ``most`` bins (the
-    rule of the lot report's histograms); one bin of width 1 around a single value."""
-    if x.size == 0:
-        return np.array([0.0, 1.0])
-    if x.min() == x.max():
-        return np.array([x.min() - 0.5, x.max() + 0.5])
-    edges = np.histogram_bin_edges(x, bins="auto")
-    return edges if edges.size <= most + 1 else np.linspace(x.min(), x.max(), most + 1)
 
 
 def padded_range(values, bounds=_NAN2, pad: float = 0.06) -> tuple[float, float]:
