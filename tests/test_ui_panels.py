@@ -201,41 +201,41 @@ def test_pin_panel_reports_impossible_search(lot):
     assert "does not cross zero" in m.message.last
 
 
-def test_workbench_stacks_sections(lot, tmp_path):
-    """The workbench stacks the lot and pin sections (no tabs) and adds extra panels."""
+def test_desk_stacks_sections(lot, tmp_path):
+    """The desk stacks the lot and pin sections (no tabs) and adds extra panels."""
     import ipywidgets as w
 
-    from kit.ui.workbench import workbench
+    from kit.ui.desk import desk
 
-    wb = workbench(lot, select=[1], display=False, interactive=False,
+    dk = desk(lot, select=[1], display=False, interactive=False,
                    pins_csv=str(tmp_path / "m.csv"), extras=False)
-    assert list(wb.sections) == ["Lot", "Pins"]
-    assert not any(isinstance(c, w.Tab) for c in wb.widget.children)
-    wb.add_section("Notes", w.Label("free text"))
-    assert wb.widget.children[-1] is wb.sections["Notes"]
+    assert list(dk.sections) == ["Lot", "Pins"]
+    assert not any(isinstance(c, w.Tab) for c in dk.widget.children)
+    dk.add_section("Notes", w.Label("free text"))
+    assert dk.widget.children[-1] is dk.sections["Notes"]
     def missing(_wb):
         import kit.ui.no_such_panel  # noqa: F401
 
-    wb.add_available_panels([("Nothing", missing)])
-    assert "not available" in wb.skipped["Nothing"]
+    dk.add_available_panels([("Nothing", missing)])
+    assert "not available" in dk.skipped["Nothing"]
 
 
 @pytest.mark.slow
-def test_workbench_hosts_the_other_panels(lot, demo_dir):
-    """With extras the workbench adds the corrections, fit and matching panels it can build."""
-    from kit.ui.workbench import workbench
+def test_desk_hosts_the_other_panels(lot, demo_dir):
+    """With extras the desk adds the corrections, fit and matching panels it can build."""
+    from kit.ui.desk import desk
 
-    wb = workbench(lot, select=[1], display=False, interactive=False,
+    dk = desk(lot, select=[1], display=False, interactive=False,
                    corrections_source=demo_dir)
-    built = set(wb.sections) - {"Lot", "Pins"}
-    assert built | set(wb.skipped) == {"Corrections", "Resonator fits", "Review and report",
+    built = set(dk.sections) - {"Lot", "Pins"}
+    assert built | set(dk.skipped) == {"Corrections", "Resonator fits", "Review and report",
                                         "Matching", "Procedure"}
-    assert "review_log" in wb.skipped.get("Review and report", "review_log")
-    if "Corrections" in wb.sections:
-        panel = wb.panels["Corrections"]
+    assert "review_log" in dk.skipped.get("Review and report", "review_log")
+    if "Corrections" in dk.sections:
+        panel = dk.panels["Corrections"]
         if panel.chain is not None:
             panel.use_button.click()
-            assert wb.browser.corrected.value == "corrected" and wb.browser.message.kind != "error"
+            assert dk.browser.corrected.value == "corrected" and dk.browser.message.kind != "error"
 
 
 def test_interactive_canvas_when_ipympl_present(lot):

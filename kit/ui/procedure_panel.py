@@ -570,8 +570,8 @@ def procedure_panel(source: Any = None, display: bool = True, standards: Any = N
     return panel
 
 
-def for_workbench(wb) -> ProcedurePanel:
-    """The procedure panel as a workbench section: runs on the workbench's lot folder and
+def for_desk(dk) -> ProcedurePanel:
+    """The procedure panel as a desk section: runs on the desk's lot folder and
     picks standards where the corrections panel does."""
-    return ProcedurePanel(wb.folder, standards=wb.options.get("corrections_source")
-                          or wb.folder.parent)
+    return ProcedurePanel(dk.folder, standards=dk.options.get("corrections_source")
+                          or dk.folder.parent)
