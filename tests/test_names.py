@@ -8,10 +8,10 @@ ones (hypothesis) and on the names of a published dataset (../shared/realdata).
 from __future__ import annotations
 
 import pytest
+from conftest import realdata_path
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from conftest import realdata_path
 from kit.io.names import guess_pattern, parse_name, stem_of
 
 

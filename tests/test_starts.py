@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import skrf
-
 from conftest import realdata_path
+
 from kit.resonators.starts import WIDEN, lot_start, suggest_span
 
 

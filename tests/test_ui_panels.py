@@ -38,6 +38,43 @@ def test_message_bar_turns_errors_into_escaped_messages():
     assert bar.guard(lambda: 1 / 0)() is None and bar.last == "division by zero"
 
 
+def test_errors_never_show_a_python_class_name():
+    """Messages quoting another exception, or none at all, still read as plain sentences
+    (the issue's example: "ValueError: ..." must not reach the panel)."""
+    from kit.ui.common import plain_error
+
+    cases = {ValueError("ValueError: the span is empty; widen it"): "the span is empty; widen it",
+             RuntimeError("fit failed: numpy.linalg.LinAlgError('Singular matrix')"):
+                 "fit failed: Singular matrix",
+             KeyError("fs_hz"): "fs_hz"}
+    for exc, text in cases.items():
+        assert plain_error(exc) == text
+    empty = plain_error(ValueError())
+    assert "Error" not in empty and "check the inputs" in empty
+
+
+def test_one_style_for_errors_warnings_and_notes():
+    """Every kind goes through the same bar with its mark; a warning a callback showed is
+    kept when the callback also warns (the note is added to it)."""
+    import warnings
+
+    bar = MessageBar()
+    marks = {}
+    for kind in ("error", "warning", "note"):
+        bar.show("x", kind)
+        marks[kind] = bar.widget.value.split('">')[1][0]
+    assert marks == {"error": "⚠", "warning": "⚠", "note": "ℹ"}
+    with pytest.raises(ValueError, match="error, a warning or a note"):
+        bar.show("x", "info")
+
+    def both():
+        bar.show("L1 changes by 40 %", "warning")
+        warnings.warn("3 points set to NaN", UserWarning)
+
+    bar.guard(both)()
+    assert bar.kind == "warning" and bar.last == "L1 changes by 40 %; 3 points set to NaN"
+
+
 def test_message_bar_reports_warnings_as_notes():
     """A warning raised in a callback is shown as a note; the result is returned."""
     import warnings

@@ -57,12 +57,20 @@ def _review(dk: "Desk"):
 
 
 def _matching(dk: "Desk"):
+    from kit.capture import CaptureError
     from kit.io import folder
+    from kit.resonators.frequencies import resonance
     from kit.ui.match_panel import match_panel
 
     caps = [c for c in folder.captures_of(dk.browser.table) if c.ports == 1]
     if not caps:
         raise LookupError("no one-port capture in the lot to match")
+    for c in caps:  # the first element with a resonance, not a check resistor
+        try:
+            if resonance(c).ok:
+                return match_panel(c, display=False)
+        except CaptureError:
+            continue
     return match_panel(caps[0], display=False)
 
 
