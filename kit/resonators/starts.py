@@ -149,6 +149,7 @@ def lot_start(folder, method: str = "reflection", sample: int = 8,
     Returns
     -------
     LotStart
+        With ``pattern``, ``files`` and ``skipped`` filled in.
 
     Raises
     ------
