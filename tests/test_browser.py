@@ -1,6 +1,6 @@
 """Real browser: JupyterLab on loopback, headless Debian Chromium driven by Playwright.
 
-Runs the lot review notebook top to bottom, then uses the workbench as a person would
+Runs the lot review notebook top to bottom, then uses the desk as a person would
 (select a capture, switch the chart, move the span, place a pin) and checks that the
 pin table and the figure change. A second test does the same with the lot browser on two
 100,001 point captures written into the server's folder by the test. Each interaction's
@@ -215,7 +215,7 @@ def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
     expect, fig, panel = pw.expect, ".sb-lot-figure", ".sb-lot-browser"
     timings: dict[str, float] = {}
     with _notebook_page(lab, tmp_path, "notebooks/01_lot_review.ipynb") as page:
-        page.locator(".sb-workbench").scroll_into_view_if_needed()
+        page.locator(".sb-desk").scroll_into_view_if_needed()
         before = _settled_canvas(page, fig)
         status = page.locator(f"{panel} .sb-status")
         expect(status).to_contain_text("3 captures", timeout=30_000)
@@ -233,7 +233,7 @@ def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
         assert "pzd7-05" in page.locator(".sb-pin-table").inner_text()
         assert page.locator(".sb-pin-target select").input_value() == "pzd7-05"
         page.locator(fig).scroll_into_view_if_needed()
-        shot = _shot(page, tmp_path, "lot_review_workbench", page.locator(".sb-workbench"))
+        shot = _shot(page, tmp_path, "lot_review_desk", page.locator(".sb-desk"))
         assert shot.stat().st_size > 20_000
         assert page.locator(".sb-message").first.inner_text() == ""
     latencies += [(1601, k, v) for k, v in timings.items()]

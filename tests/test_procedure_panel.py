@@ -298,3 +298,43 @@ def test_run_from_a_script_waits_and_raises(panel, tmp_path):
     panel.folder.value = str(tmp_path / "nowhere")
     with pytest.raises(ProcedureError, match="does not exist"):
         panel.run()
+
+
+# --------------------------------------------------------------------- starting from the data
+def test_controls_start_from_the_folder(demo_dir):
+    """Over the demo lot the pattern and the span come from its files
+    (kit.resonators.starts.lot_start, tested against published crystal data), not from
+    numbers written into the panel."""
+    from kit.resonators.starts import lot_start
+
+    p = procedure_panel(demo_dir / "lot", display=False, use_cache=False)
+    s = lot_start(demo_dir / "lot")
+    assert p.name_pattern.value == s.pattern == "{lot}-{serial}"
+    lo, hi = (from_mhz(v) for v in (p.span_lo_mhz.value, p.span_hi_mhz.value))
+    assert (lo, hi) == pytest.approx(s.span_hz, abs=50.0)  # shown to 100 Hz
+    assert "around the resonance found" in p.start_note.value
+    assert p.procedure().fit["span_hz"] == pytest.approx([lo, hi])
+
+
+def test_other_names_give_another_pattern(demo_dir, tmp_path):
+    """Files named batch_A_07 give {lot}_{field2}_{serial}, not the demo's pattern."""
+    lot = tmp_path / "run"
+    lot.mkdir()
+    for i, n in enumerate(("pzd7-01.s1p", "pzd7-02.s1p", "pzd7-03.s1p")):
+        shutil.copy(demo_dir / "lot" / n, lot / f"batch_{'AB'[i % 2]}_{i + 7:02d}.s1p")
+    p = procedure_panel(lot, display=False, use_cache=False)
+    assert p.name_pattern.value == "{lot}_{field2}_{serial}"
+    fields, _ = kit.io.names.parse_name("batch_A_07", p.name_pattern.value)
+    assert fields == {"lot": "batch", "field2": "A", "serial": "07"}
+
+
+def test_without_a_folder_the_fit_takes_the_whole_sweep():
+    """No folder: no pattern, the span 0 to 0, and the procedure fits the whole sweep."""
+    p = procedure_panel(None, display=False, use_cache=False)
+    assert p.name_pattern.value == "" and (p.span_lo_mhz.value, p.span_hi_mhz.value) == (0, 0)
+    assert "span_hz" not in p.procedure().fit and "whole sweep" in p.start_note.value
+
+
+def from_mhz(v):
+    """MHz to Hz (the panel shows MHz)."""
+    return float(v) * 1e6

@@ -38,6 +38,43 @@ def test_message_bar_turns_errors_into_escaped_messages():
     assert bar.guard(lambda: 1 / 0)() is None and bar.last == "division by zero"
 
 
+def test_errors_never_show_a_python_class_name():
+    """Messages quoting another exception, or none at all, still read as plain sentences
+    (the issue's example: "ValueError: ..." must not reach the panel)."""
+    from kit.ui.common import plain_error
+
+    cases = {ValueError("ValueError: the span is empty; widen it"): "the span is empty; widen it",
+             RuntimeError("fit failed: numpy.linalg.LinAlgError('Singular matrix')"):
+                 "fit failed: Singular matrix",
+             KeyError("fs_hz"): "fs_hz"}
+    for exc, text in cases.items():
+        assert plain_error(exc) == text
+    empty = plain_error(ValueError())
+    assert "Error" not in empty and "check the inputs" in empty
+
+
+def test_one_style_for_errors_warnings_and_notes():
+    """Every kind goes through the same bar with its mark; a warning a callback showed is
+    kept when the callback also warns (the note is added to it)."""
+    import warnings
+
+    bar = MessageBar()
+    marks = {}
+    for kind in ("error", "warning", "note"):
+        bar.show("x", kind)
+        marks[kind] = bar.widget.value.split('">')[1][0]
+    assert marks == {"error": "⚠", "warning": "⚠", "note": "ℹ"}
+    with pytest.raises(ValueError, match="error, a warning or a note"):
+        bar.show("x", "info")
+
+    def both():
+        bar.show("L1 changes by 40 %", "warning")
+        warnings.warn("3 points set to NaN", UserWarning)
+
+    bar.guard(both)()
+    assert bar.kind == "warning" and bar.last == "L1 changes by 40 %; 3 points set to NaN"
+
+
 def test_message_bar_reports_warnings_as_notes():
     """A warning raised in a callback is shown as a note; the result is returned."""
     import warnings
@@ -201,41 +238,41 @@ def test_pin_panel_reports_impossible_search(lot):
     assert "does not cross zero" in m.message.last
 
 
-def test_workbench_stacks_sections(lot, tmp_path):
-    """The workbench stacks the lot and pin sections (no tabs) and adds extra panels."""
+def test_desk_stacks_sections(lot, tmp_path):
+    """The desk stacks the lot and pin sections (no tabs) and adds extra panels."""
     import ipywidgets as w
 
-    from kit.ui.workbench import workbench
+    from kit.ui.desk import desk
 
-    wb = workbench(lot, select=[1], display=False, interactive=False,
+    dk = desk(lot, select=[1], display=False, interactive=False,
                    pins_csv=str(tmp_path / "m.csv"), extras=False)
-    assert list(wb.sections) == ["Lot", "Pins"]
-    assert not any(isinstance(c, w.Tab) for c in wb.widget.children)
-    wb.add_section("Notes", w.Label("free text"))
-    assert wb.widget.children[-1] is wb.sections["Notes"]
+    assert list(dk.sections) == ["Lot", "Pins"]
+    assert not any(isinstance(c, w.Tab) for c in dk.widget.children)
+    dk.add_section("Notes", w.Label("free text"))
+    assert dk.widget.children[-1] is dk.sections["Notes"]
     def missing(_wb):
         import kit.ui.no_such_panel  # noqa: F401
 
-    wb.add_available_panels([("Nothing", missing)])
-    assert "not available" in wb.skipped["Nothing"]
+    dk.add_available_panels([("Nothing", missing)])
+    assert "not available" in dk.skipped["Nothing"]
 
 
 @pytest.mark.slow
-def test_workbench_hosts_the_other_panels(lot, demo_dir):
-    """With extras the workbench adds the corrections, fit and matching panels it can build."""
-    from kit.ui.workbench import workbench
+def test_desk_hosts_the_other_panels(lot, demo_dir):
+    """With extras the desk adds the corrections, fit and matching panels it can build."""
+    from kit.ui.desk import desk
 
-    wb = workbench(lot, select=[1], display=False, interactive=False,
+    dk = desk(lot, select=[1], display=False, interactive=False,
                    corrections_source=demo_dir)
-    built = set(wb.sections) - {"Lot", "Pins"}
-    assert built | set(wb.skipped) == {"Corrections", "Resonator fits", "Review and report",
+    built = set(dk.sections) - {"Lot", "Pins"}
+    assert built | set(dk.skipped) == {"Corrections", "Resonator fits", "Review and report",
                                         "Matching", "Procedure"}
-    assert "review_log" in wb.skipped.get("Review and report", "review_log")
-    if "Corrections" in wb.sections:
-        panel = wb.panels["Corrections"]
+    assert "review_log" in dk.skipped.get("Review and report", "review_log")
+    if "Corrections" in dk.sections:
+        panel = dk.panels["Corrections"]
         if panel.chain is not None:
             panel.use_button.click()
-            assert wb.browser.corrected.value == "corrected" and wb.browser.message.kind != "error"
+            assert dk.browser.corrected.value == "corrected" and dk.browser.message.kind != "error"
 
 
 def test_interactive_canvas_when_ipympl_present(lot):

@@ -84,3 +84,59 @@ def stem_of(path: str | Path) -> str:
     """The file name without its extension (``""`` for a file named only ``.s2p``)."""
     name = Path(path).name
     return name[: len(name) - len(suffix_of(name))]
+
+
+#: What separates the parts of a file stem for :func:`guess_pattern`.
+_SEPARATORS = re.compile(r"([-_ ]+)")
+
+
+def guess_pattern(names) -> str | None:
+    """A name pattern read off a folder's file stems, or None when none can be told.
+
+    Each stem is cut at its separators (``-``, ``_``, space). The shape shared by most
+    stems (the same separators in the same order) is kept; stems of another shape (a
+    check resistor among the parts) are left out. Of that shape, the last part that
+    differs between the stems is ``{serial}``; the first part is ``{lot}``; any other part
+    that differs is ``{field<n>}`` (its position, from 1); the other parts stay literal
+    text. Every field is text (``{serial}`` keeps "01"): the user says when one is a
+    number. ``["pzd7-01", "pzd7-02", "check_resistor"]`` gives ``"{lot}-{serial}"``.
+
+    Parameters
+    ----------
+    names : iterable of str
+        File stems (names without their extension, see :func:`stem_of`).
+
+    Returns
+    -------
+    str or None
+        None when no two stems share a shape with at least two parts of which one
+        differs.
+    """
+    shapes: dict[tuple[str, ...], list[list[str]]] = {}
+    for name in dict.fromkeys(str(n) for n in names):
+        cut = _SEPARATORS.split(name)
+        if len(cut) < 3 or not all(cut[0::2]):
+            continue  # one part only, or a separator at either end
+        shapes.setdefault(tuple(cut[1::2]), []).append(cut[0::2])
+    best = max(shapes.items(), key=lambda kv: (len(kv[1]), -len(kv[0])), default=None)
+    if best is None or len(best[1]) < 2:
+        return None
+    seps, rows = best
+    columns = list(zip(*rows))
+    differs = [len(set(c)) > 1 for c in columns]
+    if not any(differs):
+        return None
+    last = max(i for i, d in enumerate(differs) if d)
+    out = []
+    for i, col in enumerate(columns):
+        if i == last:
+            out.append("{serial}")
+        elif i == 0:
+            out.append("{lot}")
+        elif differs[i] or "{" in col[0] or "}" in col[0]:
+            out.append(f"{{field{i + 1}}}")
+        else:
+            out.append(col[0])
+        if i < len(seps):
+            out.append(seps[i])
+    return "".join(out)

@@ -10,6 +10,9 @@ of the circuit via ``.network()``, and ``describe()`` for provenance):
 * :func:`l_network` - both L-section solutions from a complex load to a real source;
 * :func:`band` - a two-element match optimised over a band.
 
+:func:`design_frequency` gives the frequency to design at (fs of a fit) and
+:func:`design_sensitivity` how much a design's parts change for a 0.1 % shift of it.
+
 Then :func:`response` (input impedance, |S11|, return loss, VSWR, mismatch loss, power
 delivered; ``.bandwidth(rl_db)``), :func:`bode_fano` (the limit and each design's share of
 it), :func:`round_design` (IEC 60063 E12/E24 values) and :func:`stress` (RMS voltage and
@@ -51,6 +54,7 @@ from kit.match.response import (
                        return_loss_db,
                        vswr,
 )
+from kit.match.sensitivity import Sensitivity, design_frequency, design_sensitivity
 from kit.match.stress import PartStress, StressReport, stress
 
 CAUTIONS: tuple[str, ...] = (
@@ -81,9 +85,10 @@ parts rounded to E24 values and the voltage and current they see at the chosen d
 
 __all__ = [
     "CAUTIONS", "NOTEBOOK_SECTION", "E12", "E24", "Bandwidth", "FanoLimit", "MatchDesign",
-    "MatchResponse", "Part", "PartStress", "StressReport", "band", "bandwidth", "bode_fano",
-    "chain", "fano_integral", "gamma_from_vswr", "gamma_from_z", "input_impedance",
-    "l_network", "load_z", "mismatch_loss_db", "response", "return_loss_db", "round_design",
+    "MatchResponse", "Part", "PartStress", "Sensitivity", "StressReport", "band",
+    "bandwidth", "bode_fano", "chain", "design_frequency", "design_sensitivity",
+    "fano_integral", "gamma_from_vswr", "gamma_from_z", "input_impedance", "l_network",
+    "load_z", "mismatch_loss_db", "response", "return_loss_db", "round_design",
     "round_to_series", "series_values", "stress", "transformer", "tuned_transformer",
     "tuning_inductor", "vswr",
 ]

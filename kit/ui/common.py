@@ -18,6 +18,7 @@ from __future__ import annotations
 import functools
 import html
 import io
+import re
 import warnings
 from typing import Any, Callable
 
@@ -26,6 +27,8 @@ from kit.units import from_unit, to_unit
 #: Message colours (error, note).
 ERROR_FG = "#8c1d18"
 NOTE_FG = "#5b4a14"
+#: Message kinds: colour and mark.
+KINDS = {"error": (ERROR_FG, "⚠"), "warning": ("#8a4b08", "⚠"), "note": (NOTE_FG, "ℹ")}
 
 
 def classed(widget, *names: str):
@@ -111,14 +114,20 @@ class FigureHost:
 
 
 class MessageBar:
-    """A line of text in a panel for errors and notes; never raises into the frontend.
+    """The one place where a panel speaks to the user: errors, warnings and notes.
+
+    Every panel shows its messages here, in one style: a mark (⚠ for an error or a warning,
+    ℹ for a note), then a plain sentence (HTML-escaped) that says what happened and what to
+    do, never a Python class name (:func:`plain_error`).
 
     Attributes
     ----------
     widget : ipywidgets.HTML
-        Class ``sb-message``.
+        Class ``sb-message``; the shown span carries ``data-kind``.
     last : str
         The last plain-text message ('' when cleared).
+    kind : str
+        "error", "warning", "note" or ''.
     """
 
     def __init__(self) -> None:
@@ -129,10 +138,11 @@ class MessageBar:
         self.kind = ""
 
     def show(self, text: str, kind: str = "error") -> None:
-        """Show ``text`` (escaped) as an "error" or a "note"."""
+        """Show ``text`` (escaped) as an "error", a "warning" or a "note"."""
+        if kind not in KINDS:
+            raise ValueError(f"a message is an error, a warning or a note, not {kind!r}")
         self.last, self.kind = text, kind
-        fg = ERROR_FG if kind == "error" else NOTE_FG
-        mark = "⚠" if kind == "error" else "ℹ"
+        fg, mark = KINDS[kind]
         self.widget.value = (f'<span style="color:{fg}" data-kind="{kind}">{mark} '
                              f"{html.escape(text)}</span>")
 
@@ -142,7 +152,8 @@ class MessageBar:
         self.widget.value = ""
 
     def guard(self, fn: Callable[..., Any]) -> Callable[..., Any]:
-        """Wrap a callback: exceptions become a message; warnings become a note."""
+        """Wrap a callback: exceptions become an error; warnings are added as a note (after
+        an error or warning the callback showed itself, which they do not replace)."""
 
         @functools.wraps(fn)
         def wrapper(*args, **kwargs):
@@ -157,20 +168,32 @@ class MessageBar:
             notes = [str(c.message) for c in caught
                      if not issubclass(c.category, (DeprecationWarning, PendingDeprecationWarning))]
             if notes:
-                self.show("; ".join(dict.fromkeys(notes)), "note")
+                text = "; ".join(dict.fromkeys(notes))
+                if self.kind in ("error", "warning"):
+                    self.show(f"{self.last}; {text}", self.kind)
+                else:
+                    self.show(text, "note")
             return out
 
         return wrapper
 
 
-def plain_error(exc: BaseException) -> str:
-    """The text a panel shows for an exception: its message, without the Python class name.
+#: A Python class name at the head of a text ("ValueError: ...") or around it
+#: ("KeyError('x')"): what a panel never shows.
+_CLASS_HEAD = re.compile(r"\b(?:[A-Za-z_][\w.]*\.)?[A-Z]\w*(?:Error|Exception|Warning)"
+                         r"(?::\s*|\((['\"])(.*?)\1\))")
 
-    An exception without a message is described as an unexpected failure of its kind, so
-    that the user still learns something.
+
+def plain_error(exc: BaseException) -> str:
+    """The text a panel shows for an exception: its message as a plain sentence, without
+    the Python class name (also where a message quotes another exception's).
+
+    An exception without a message is described as an unexpected failure, with what to do.
     """
     text = str(exc.args[0] if isinstance(exc, KeyError) and exc.args else exc).strip()
-    return text or f"the action failed unexpectedly ({type(exc).__name__} without a message)"
+    text = _CLASS_HEAD.sub(lambda m: m.group(2) or "", text).strip()
+    return text or ("the action failed without saying why; check the inputs, or run the "
+                    "same kit function in a cell to see where it stops")
 
 
 def span_slider(lo_hz: float, hi_hz: float, description: str = "span [MHz]"):

@@ -5,7 +5,9 @@ L-network solutions, band design), the design frequency, the band, the E-series,
 inductor Q and the drive power. Shown: the element before and after on a Smith chart and
 on return loss, the Bode-Fano limit and the design's share of it, the part list with values
 (designed and rounded) and the RMS voltage and current on each at the drive power, and the
-safety cautions (:data:`kit.match.CAUTIONS`).
+safety cautions (:data:`kit.match.CAUTIONS`). The design frequency starts at fs of a fit
+(:func:`kit.match.design_frequency`); a design that depends on it sharply is warned about;
+the charts show the band and one band width on each side.
 """
 
 from __future__ import annotations
@@ -106,21 +108,17 @@ class MatchPanel:
         update (None before the first or after an error).
     """
 
-    def __init__(self, capture, f_hz: float | None = None, r_source_ohm: float = 50.0) -> None:
+    def __init__(self, capture, f_hz: float | None = None, r_source_ohm: float = 50.0,
+                 fit=None) -> None:
         import ipywidgets as w
 
         self.capture = capture
         self.r_source_ohm = float(r_source_ohm)
         f = np.asarray(capture.f_hz, dtype=float)
-        if f_hz is None:  # the series resonance fs of kit.resonance on the whole capture
-            from kit.capture import CaptureError
-            from kit.resonators.frequencies import resonance
-
-            try:
-                fs = resonance(capture).fs_hz
-            except CaptureError:  # too few usable points: start mid-sweep
-                fs = None
-            f_hz = float(fs) if fs is not None else float(np.sqrt(f[0] * f[-1]))
+        if f_hz is None:  # fs of a fit (kit.match.design_frequency), not a grid point
+            f_hz, self.f_basis = km.design_frequency(capture, fit)
+        else:
+            self.f_basis = "given"
         span = 0.02 * f_hz
         lo, hi = max(f[0], f_hz - span), min(f[-1], f_hz + span)
         self.message = MessageBar()
@@ -131,6 +129,7 @@ class MatchPanel:
             value=to_unit(f_hz, "MHz"), min=to_unit(f[0], "MHz"),
             max=to_unit(f[-1], "MHz"), step=0.0001, description="at [MHz]",
             layout=w.Layout(width="200px")), "match-freq")
+        self._f_start = float(f_hz)
         self.band_mhz = span_slider(f[0], f[-1], "band [MHz]")
         set_span_hz(self.band_mhz, lo, hi)
         self.series = classed(w.Dropdown(options=["E12", "E24"], value="E24",
@@ -148,18 +147,19 @@ class MatchPanel:
                                                 layout=w.Layout(width="180px")), "match-rl")
         self.apply = classed(w.Button(description="design", icon="sliders"), "match-apply")
         self.summary_html = classed(w.HTML(""), "match-summary")
+        self.sensitivity = None
         self.parts_html = classed(w.HTML(""), "match-parts-box")
         self.cautions = classed(w.HTML(cautions_html()), "match-cautions")
         self.host = FigureHost(figsize=(10.0, 4.4), css="match-figure")
         fig = self.host.fig
         self.ax_smith = fig.add_subplot(1, 2, 1)
         self.ax_rl = fig.add_subplot(1, 2, 2)
-        fig.subplots_adjust(left=0.03, right=0.97, wspace=0.25, bottom=0.14)
+        fig.subplots_adjust(left=0.03, right=0.78, wspace=0.25, bottom=0.14)
         self.design = self.rounded = self.response_before = self.response_after = None
         self.limit = self.stress = None
         g = self.message.guard
         self.apply.on_click(g(lambda _b: self.update()))
-        for c in (self.design_kind, self.series, self.band_mhz):
+        for c in (self.design_kind, self.series, self.band_mhz, self.f_mhz):
             c.observe(g(lambda _c: self.update()), names="value")
         self.widget = classed(w.VBox([
             self.cautions,
@@ -179,11 +179,19 @@ class MatchPanel:
         """Design, evaluate and draw with the current controls."""
         self.design = self.rounded = self.response_after = self.limit = self.stress = None
         f_hz = float(from_unit(self.f_mhz.value, "MHz"))
+        basis = self.f_basis if abs(f_hz - self._f_start) <= 1e-6 * f_hz else "typed"
         f_lo, f_hi = span_hz(self.band_mhz)
         q = self.q()
         d = make_design(self.design_kind.value, self.capture, f_hz, f_lo, f_hi,
                         self.r_source_ohm, q)
         self.design = d
+        self.sensitivity = None
+        if self.design_kind.value != "band":  # a band design has no one design frequency
+            self.sensitivity = km.design_sensitivity(
+                lambda fx: make_design(self.design_kind.value, self.capture, fx, f_lo, f_hi,
+                                       self.r_source_ohm, q), f_hz)
+            if self.sensitivity.sensitive:
+                self.message.show(self.sensitivity.message(), "warning")
         self.rounded = km.round_design(d, self.series.value)
         self.response_before = km.response(None, self.capture, r_source_ohm=self.r_source_ohm)
         self.response_after = km.response(self.rounded, self.capture, q_inductor=q)
@@ -203,6 +211,8 @@ class MatchPanel:
         self._draw(ideal)
         bw = self.response_after.bandwidth(float(self.rl_db.value))
         lines = [f"<b>{html.escape(self.rounded.title)}</b>",
+                 html.escape(f"design frequency {quantity(f_hz, 'Hz', digits=7)} "
+                             f"({basis})"),
                  html.escape(f"bandwidth ({self.series.value} values, inductor Q "
                              f"{q if q else 'lossless'}): {bw.message}")]
         if self.limit is not None:
@@ -217,22 +227,33 @@ class MatchPanel:
         self.summary_html.value = "<br>".join(lines)
         self.parts_html.value = parts_table_html(d, self.rounded, self.stress)
 
+    def view_hz(self) -> tuple[float, float]:
+        """The frequencies drawn [Hz]: the band and one band width on each side, within the
+        sweep (the design band fills the middle of the chart)."""
+        f = self.response_before.f_hz
+        lo, hi = span_hz(self.band_mhz)
+        w = max(hi - lo, 1e-3 * (lo + hi))
+        return max(float(f[0]), lo - w), min(float(f[-1]), hi + w)
+
     def _draw(self, ideal) -> None:
         ax, ar = self.ax_smith, self.ax_rl
         ax.clear()
         ar.clear()
         kv.smith_grid(ax, self.r_source_ohm)
         before, after = self.response_before, self.response_after
-        kv.plot_smith(ax, before.gamma, label="element alone", i=0)
-        kv.plot_smith(ax, after.gamma, label="matched (bought values)", i=1)
-        kv.plot_smith(ax, ideal.gamma, label="matched (designed)", i=2, ls="--")
-        ax.set_title("reflection, same colours as the right", fontsize=8)
-        kv.plot_return_loss(ar, before.f_hz, before.gamma, label="element alone", i=0)
-        kv.plot_return_loss(ar, after.f_hz, after.gamma, label="matched (bought values)", i=1)
-        kv.plot_return_loss(ar, ideal.f_hz, ideal.gamma, label="matched (designed)", i=2, ls="--")
+        v_lo, v_hi = self.view_hz()
+        sel = (before.f_hz >= v_lo) & (before.f_hz <= v_hi)
+        curves = (("element alone", before, "-"), ("matched (bought values)", after, "-"),
+                  ("matched (designed)", ideal, "--"))
+        for i, (label, r, ls) in enumerate(curves):
+            kv.plot_smith(ax, r.gamma[sel], label=label, i=i, ls=ls)
+            kv.plot_return_loss(ar, r.f_hz, r.gamma, label=label, i=i, ls=ls,
+                                span_hz=(v_lo, v_hi))
+        ax.set_title("reflection over the view, same colours as the right", fontsize=8)
         kv.frame_return_loss(ar, float(self.rl_db.value), span_hz(self.band_mhz),
-                             before.return_loss_db, after.return_loss_db)
-        ar.legend(loc="upper right", fontsize=7)
+                             before.return_loss_db[sel], after.return_loss_db[sel])
+        ar.set_xlim(v_lo, v_hi)
+        ar.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7, frameon=False)
         self.host.refresh()
 
     def state(self) -> dict[str, Any]:
@@ -243,7 +264,7 @@ class MatchPanel:
 
 
 def match_panel(capture, display: bool = True, f_hz: float | None = None,
-                r_source_ohm: float = 50.0) -> MatchPanel:
+                r_source_ohm: float = 50.0, fit=None) -> MatchPanel:
     """Build (and show) the match panel for a measured, corrected one-port capture.
 
     Parameters
@@ -253,12 +274,18 @@ def match_panel(capture, display: bool = True, f_hz: float | None = None,
     display : bool
         Show it in the notebook; False to build only (tests).
     f_hz : float, optional
-        Design frequency [Hz]; default the series resonance fs of :func:`kit.resonance`
-        on the whole capture.
+        Design frequency [Hz]; default :func:`kit.match.design_frequency` (fs of a
+        Butterworth-Van Dyke fit, or of ``fit``).
     r_source_ohm : float
-        Source (amplifier) resistance [ohm].
+        Source (amplifier) resistance [Ω].
+    fit : kit FitResult, optional
+        A fit of the element whose fs is the default design frequency.
+
+    A single-frequency design whose parts change by more than 10 % for a 0.1 % shift of
+    the design frequency is warned about in the message bar
+    (:func:`kit.match.design_sensitivity`).
     """
-    panel = MatchPanel(capture, f_hz=f_hz, r_source_ohm=r_source_ohm)
+    panel = MatchPanel(capture, f_hz=f_hz, r_source_ohm=r_source_ohm, fit=fit)
     if display:
         show(panel.widget)
     return panel

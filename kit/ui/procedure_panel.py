@@ -45,12 +45,13 @@ LIMIT_QUANTITIES = (
     ("k_eff", "k_eff [-]"),
     ("qm", "Qm [-]"),
     ("c0_f", "C0 [F]"),
-    ("r1_ohm", "R1 [ohm]"),
+    ("r1_ohm", "R1 [Ω]"),
 )
-#: Summary columns shown after a run (those present), and their number format.
-TABLE_COLUMNS = (("capture", None), ("status", None), ("fs_hz", "{:.4g}"), ("fp_hz", "{:.4g}"),
-                 ("k_eff", "{:.3f}"), ("qm", "{:.0f}"), ("c0_f", "{:.3g}"),
-                 ("fit_ok", None), ("verdict", None), ("error", None))
+#: Summary columns shown after a run (those present).
+TABLE_COLUMNS = ("capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "fit_ok",
+                 "verdict", "error")
+
+
 def _number(text: str, what: str) -> float | None:
     """A bound typed by the user: '' means no bound; anything else must be a number."""
     t = text.strip()
@@ -63,29 +64,20 @@ def _number(text: str, what: str) -> float | None:
 
 
 def summary_html(summary) -> str:
-    """The key columns of a batch summary as an HTML table (every cell escaped)."""
+    """The key columns of a batch summary as an HTML table, units in the headers
+    (:func:`kit.units.table`), every cell escaped."""
+    import pandas as pd
+
+    from kit.units import table
+
     if summary is None or len(summary) == 0:
         return "<i>No run yet.</i>"
-    cols = [(c, f) for c, f in TABLE_COLUMNS if c in summary.columns]
-    head = "".join(f"<th>{html.escape(c)}</th>" for c, _ in cols)
-    rows = []
-    for _, r in summary.iterrows():
-        cells = []
-        for c, fmt in cols:
-            v = r[c]
-            if v is None or (isinstance(v, float) and v != v):
-                text = ""
-            elif fmt is not None:
-                try:
-                    text = fmt.format(float(v))
-                except (TypeError, ValueError):
-                    text = str(v)
-            else:
-                text = str(v)
-            cells.append(f"<td>{html.escape(text)}</td>")
-        rows.append("<tr>" + "".join(cells) + "</tr>")
+    shown = table(summary[[c for c in TABLE_COLUMNS if c in summary.columns]])
+    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in shown.columns)
+    rows = "".join("<tr>" + "".join(f"<td>{html.escape('' if pd.isna(v) else str(v))}</td>"
+                                    for v in r) + "</tr>" for r in shown.itertuples(index=False))
     return ('<table class="sb-proc-summary" style="border-collapse:collapse;font-size:12px">'
-            f"<tr>{head}</tr>{''.join(rows)}</table>")
+            f"<tr>{head}</tr>{rows}</table>")
 
 
 class ProcedurePanel:
@@ -170,7 +162,9 @@ class ProcedurePanel:
         self.folder = classed(text("run on", str(src) if src else "", "520px"), "proc-folder")
         self.method = classed(dd("import method", list(IMPORT_METHODS), "reflection"),
                               "proc-method")
-        self.name_pattern = classed(text("name pattern", "{lot}-{serial}"), "proc-pattern")
+        self.start, start_note = self._start_from(src)
+        self.name_pattern = classed(text("name pattern", (self.start and self.start.pattern)
+                                         or ""), "proc-pattern")
         has_open = guess(names, "open") != NONE
         self.compensation = classed(dd("standards", list(COMPENSATIONS),
                                        "open/short/load" if has_open else "off"),
@@ -178,14 +172,17 @@ class ProcedurePanel:
         self.open = dd("open", [NONE, *names], guess(names, "open"))
         self.short = dd("short", [NONE, *names], guess(names, "short"))
         self.load = dd("load", [NONE, *names], guess(names, "load"))
-        self.load_ohms = num("load [ohm]", 50.0)
+        self.load_ohms = num("load [Ω]", 50.0)
         self.use_cable = classed(w.Checkbox(description="remove cable", value=False),
                                  "proc-cable")
         self.cable_length_m = num("length [m]", 1.5)
         self.cable_vf = num("velocity factor", 0.66)
         self.model = classed(dd("fit model", list(FIT_MODELS), "bvd"), "proc-model")
-        self.span_lo_mhz = num("span from [MHz]", 1.6)
-        self.span_hi_mhz = num("span to [MHz]", 2.3)
+        lo, hi = self.start.span_hz if self.start else (0.0, 0.0)
+        self.span_lo_mhz = num("span from [MHz]", round(to_unit(lo, "MHz"), 4))
+        self.span_hi_mhz = num("span to [MHz]", round(to_unit(hi, "MHz"), 4))
+        self.start_note = classed(w.HTML(f"<small>{html.escape(start_note)}</small>"),
+                                  "proc-start")
         self.modes = classed(w.BoundedIntText(description="modes", value=1, min=1, max=8,
                                               style=style, layout=w.Layout(width="220px")),
                              "proc-modes")
@@ -231,7 +228,8 @@ class ProcedurePanel:
         imp = w.VBox([self.folder, self.method, self.name_pattern])
         corr = w.VBox([self.compensation, self.open, self.short, self.load, self.load_ohms,
                        self.use_cable, self.cable_length_m, self.cable_vf])
-        fit = w.VBox([self.model, self.span_lo_mhz, self.span_hi_mhz, self.modes])
+        fit = w.VBox([self.model, self.span_lo_mhz, self.span_hi_mhz, self.start_note,
+                      self.modes])
         lim = w.VBox(rows)
         body = w.HBox([w.VBox([imp, fit]), corr, lim], layout=w.Layout(flex_flow="row wrap"))
         files = w.HBox([self.path, self.save_button, self.load_button])
@@ -243,6 +241,21 @@ class ProcedurePanel:
                     "proc-run-section")]),
             "procedure-panel")
         self._update()
+
+    @staticmethod
+    def _start_from(src):
+        """(LotStart or None, a sentence): the span and pattern read off the folder."""
+        from kit.resonators.starts import lot_start
+
+        if src is None or not src.exists():
+            return None, "span 0 to 0: the whole sweep (no folder read yet)"
+        try:
+            s = lot_start(src)
+        except ValueError as exc:
+            return None, f"span 0 to 0: the whole sweep ({plain_error(exc)})"
+        pattern = f"name pattern from {s.files} file name(s)" if s.pattern else \
+            "no name pattern could be told from the file names"
+        return s, f"span {s.basis}; {pattern}"
 
     # ------------------------------------------------------------------ controls -> procedure
     def _standard(self, dropdown, what: str) -> str:
@@ -274,10 +287,10 @@ class ProcedurePanel:
             doc["correction"] = corrections
         if self.model.value != NO_FIT:
             fit = dict(self.kept.get("fit", {}))
-            fit.update(model=self.model.value,
-                       span_hz=[float(from_unit(self.span_lo_mhz.value, "MHz")),
-                                float(from_unit(self.span_hi_mhz.value, "MHz"))],
-                       modes=int(self.modes.value))
+            fit.update(model=self.model.value, modes=int(self.modes.value))
+            if self.span_lo_mhz.value or self.span_hi_mhz.value:  # 0 to 0: the whole sweep
+                fit["span_hz"] = [float(from_unit(self.span_lo_mhz.value, "MHz")),
+                                  float(from_unit(self.span_hi_mhz.value, "MHz"))]
             doc["fit"] = fit
         limits = dict(self.kept.get("limits", {}))
         for key, (lo, hi) in self.limits.items():
@@ -382,10 +395,9 @@ class ProcedurePanel:
                     self.load_ohms.value = float(c.get("load_ohms", 50.0))
             fit = dict(proc.fit or {})
             self.model.value = fit.pop("model", "bvd") if proc.fit else NO_FIT
-            if "span_hz" in fit:
-                lo, hi = fit.pop("span_hz")
-                self.span_lo_mhz.value = to_unit(lo, "MHz")
-                self.span_hi_mhz.value = to_unit(hi, "MHz")
+            lo, hi = fit.pop("span_hz", (0.0, 0.0))
+            self.span_lo_mhz.value = to_unit(lo, "MHz")
+            self.span_hi_mhz.value = to_unit(hi, "MHz")
             self.modes.value = int(fit.pop("modes", 1))
             limits = dict(proc.limits or {})
             for key, (lo, hi) in self.limits.items():
@@ -570,8 +582,8 @@ def procedure_panel(source: Any = None, display: bool = True, standards: Any = N
     return panel
 
 
-def for_workbench(wb) -> ProcedurePanel:
-    """The procedure panel as a workbench section: runs on the workbench's lot folder and
+def for_desk(dk) -> ProcedurePanel:
+    """The procedure panel as a desk section: runs on the desk's lot folder and
     picks standards where the corrections panel does."""
-    return ProcedurePanel(wb.folder, standards=wb.options.get("corrections_source")
-                          or wb.folder.parent)
+    return ProcedurePanel(dk.folder, standards=dk.options.get("corrections_source")
+                          or dk.folder.parent)

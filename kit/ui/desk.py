@@ -1,10 +1,10 @@
-"""The workbench: one stacked layout hosting the lot browser, pins and the other panels.
+"""The desk: one stacked layout hosting the lot browser, pins and the other panels.
 
 Sections are titled blocks, one under the other, each folding on its header (no tabs):
 "Lot" (the browser), "Pins", then whatever other panels are available (corrections,
-fits, review, matching). Another panel joins with :meth:`Workbench.add_section`, or
+fits, review, matching). Another panel joins with :meth:`Desk.add_section`, or
 automatically through :data:`PANEL_BUILDERS` when it can be built (a panel whose module is
-missing, or which lacks its input, is listed in ``Workbench.skipped`` with the reason).
+missing, or which lacks its input, is listed in ``Desk.skipped`` with the reason).
 """
 
 from __future__ import annotations
@@ -16,13 +16,13 @@ from kit.ui.lot_browser import LotBrowser, lot_browser
 from kit.ui.pins import PinPanel, pin_panel
 
 
-def _corrections(wb: "Workbench"):
+def _corrections(dk: "Desk"):
     import ipywidgets as w
 
     from kit.ui.corrections_panel import corrections_panel
 
-    panel = corrections_panel(wb.options.get("corrections_source") or wb.folder.parent,
-                              display=False, interactive=wb.browser.host.interactive)
+    panel = corrections_panel(dk.options.get("corrections_source") or dk.folder.parent,
+                              display=False, interactive=dk.browser.host.interactive)
     use = classed(w.Button(description="use in lot browser", icon="check",
                            tooltip="corrected view of the lot browser uses this chain"),
                   "use-correction")
@@ -30,51 +30,59 @@ def _corrections(wb: "Workbench"):
     def _use(_b):
         if panel.chain is None:
             raise ValueError("no correction is built yet: choose standards or a cable first")
-        wb.browser.set_correction(panel.chain)
-        wb.browser.corrected.value = "corrected"
+        dk.browser.set_correction(panel.chain)
+        dk.browser.corrected.value = "corrected"
 
-    use.on_click(wb.browser.message.guard(_use))
+    use.on_click(dk.browser.message.guard(_use))
     panel.use_button = use
     panel.widget = w.VBox([panel.widget, use])
     return panel
 
 
-def _fits(wb: "Workbench"):
+def _fits(dk: "Desk"):
     from kit.io import folder
     from kit.ui.fit_panel import fit_panel
 
-    return fit_panel(folder.captures_of(wb.browser.table), display=False,
-                     interactive=wb.browser.host.interactive)
+    return fit_panel(folder.captures_of(dk.browser.table), display=False,
+                     interactive=dk.browser.host.interactive)
 
 
-def _review(wb: "Workbench"):
+def _review(dk: "Desk"):
     from kit.ui.review_panel import review_panel
 
-    log = wb.options.get("review_log")
+    log = dk.options.get("review_log")
     if log is None:
         raise LookupError("give review_log= (a kit.ReviewLog or a path) to add the review panel")
-    return review_panel(wb.browser.table, log, display=False)
+    return review_panel(dk.browser.table, log, display=False)
 
 
-def _matching(wb: "Workbench"):
+def _matching(dk: "Desk"):
+    from kit.capture import CaptureError
     from kit.io import folder
+    from kit.resonators.frequencies import resonance
     from kit.ui.match_panel import match_panel
 
-    caps = [c for c in folder.captures_of(wb.browser.table) if c.ports == 1]
+    caps = [c for c in folder.captures_of(dk.browser.table) if c.ports == 1]
     if not caps:
         raise LookupError("no one-port capture in the lot to match")
+    for c in caps:  # the first element with a resonance, not a check resistor
+        try:
+            if resonance(c).ok:
+                return match_panel(c, display=False)
+        except CaptureError:
+            continue
     return match_panel(caps[0], display=False)
 
 
-def _procedure(wb: "Workbench"):
-    from kit.ui.procedure_panel import for_workbench
+def _procedure(dk: "Desk"):
+    from kit.ui.procedure_panel import for_desk
 
-    return for_workbench(wb)
+    return for_desk(dk)
 
 
-#: Optional panels: (section title, builder). A builder takes the workbench and returns
+#: Optional panels: (section title, builder). A builder takes the desk and returns
 #: an object with a ``widget`` attribute; one that raises is skipped with its reason.
-PANEL_BUILDERS: list[tuple[str, Callable[["Workbench"], Any]]] = [
+PANEL_BUILDERS: list[tuple[str, Callable[["Desk"], Any]]] = [
     ("Corrections", _corrections),
     ("Resonator fits", _fits),
     ("Review and report", _review),
@@ -83,13 +91,13 @@ PANEL_BUILDERS: list[tuple[str, Callable[["Workbench"], Any]]] = [
 ]
 
 
-class Workbench:
-    """Handles of the workbench.
+class Desk:
+    """Handles of the desk.
 
     Attributes
     ----------
     widget : ipywidgets.VBox
-        The stacked layout (class ``sb-workbench``).
+        The stacked layout (class ``sb-desk``).
     browser : LotBrowser
     pins : PinPanel
     sections : dict of str -> ipywidgets.VBox
@@ -114,8 +122,8 @@ class Workbench:
         self.skipped: dict[str, str] = {}
         title = classed(w.HTML('<div style="font-size:15px;font-weight:600;color:#23414a;'
                                'border-bottom:2px solid #1f6f78;padding:2px 0 4px 0">'
-                               "sweepbook workbench</div>"), "workbench-title")
-        self.widget = classed(w.VBox([title]), "workbench")
+                               "sweepbook desk</div>"), "desk-title")
+        self.widget = classed(w.VBox([title]), "desk")
         self.add_section("Lot", browser.widget, css="lot")
         self.add_section("Pins", pins.widget, css="pins")
 
@@ -145,11 +153,11 @@ class Workbench:
             self.add_section(title, panel, open_=False)
 
 
-def workbench(source, pattern: str | None = None, select=None, chart: str = "z_mag",
+def desk(source, pattern: str | None = None, select=None, chart: str = "z_mag",
               plane: str = "smith:z", correction=None, pins_csv: str = "pins.csv",
               extras: bool = True, corrections_source=None, review_log=None,
-              display: bool = True, interactive: bool | None = None) -> Workbench:
-    """Build the workbench over a folder of captures (or its :func:`kit.load_folder` table).
+              display: bool = True, interactive: bool | None = None) -> Desk:
+    """Build the desk over a folder of captures (or its :func:`kit.load_folder` table).
 
     Parameters
     ----------
@@ -176,14 +184,14 @@ def workbench(source, pattern: str | None = None, select=None, chart: str = "z_m
 
     Returns
     -------
-    Workbench
+    Desk
     """
     b = lot_browser(source, pattern=pattern, correction=correction, select=select, chart=chart,
                     plane=plane, display=False, interactive=interactive)
     m = pin_panel(b, csv_path=pins_csv, display=False)
-    wb = Workbench(b, m, corrections_source=corrections_source, review_log=review_log)
+    dk = Desk(b, m, corrections_source=corrections_source, review_log=review_log)
     if extras:
-        wb.add_available_panels()
+        dk.add_available_panels()
     if display:
-        show(wb.widget)
-    return wb
+        show(dk.widget)
+    return dk
