@@ -180,7 +180,7 @@ def _four_routes(capture, span):
 
 
 def test_demo_lot_one_fs_for_every_route():
-    """kit.resonance, the fit's start values, Bode-Fano and the match panel agree on fs.
+    """kit.resonance, the fit's start values and Bode-Fano agree on fs; the match panel uses the fit.
 
     They all call the same peak reader on the same points, so the only differences are the
     floating-point round trips fs -> (L1, C1) -> fs and Hz -> MHz -> Hz, each a few units in
@@ -194,8 +194,14 @@ def test_demo_lot_one_fs_for_every_route():
         full = (float(c.f_hz[0]), float(c.f_hz[-1]))
         fs_res, fs_start, fs_fano, fs_panel = _four_routes(c, full)
         assert math.isfinite(fs_res), path
-        for other in (fs_start, fs_fano, fs_panel):
+        for other in (fs_start, fs_fano):
             assert other == pytest.approx(fs_res, rel=1e-12), path
+        # the match panel designs at the fitted fs (kit.match.design_frequency), not at the
+        # peak reading: same value as that function, and within 0.1 % of the peak reading
+        from kit.match import design_frequency
+
+        assert fs_panel == pytest.approx(design_frequency(c)[0], rel=1e-12), path
+        assert fs_panel == pytest.approx(fs_res, rel=1e-3), path
         # a narrower span around the resonance: the three span-taking routes still agree
         r = kit.resonance(c)
         narrow = (r.fs_hz - 4 * (r.f2_hz - r.f1_hz), r.fs_hz + 4 * (r.f2_hz - r.f1_hz))
