@@ -58,7 +58,7 @@ def test_round_trip_through_a_file_in_another_folder(tmp_path):
     ("[[correction]]\nkind = 'magic'\n", "unknown kind 'magic'"),
     ("[fit]\nspan_hz = [3e6, 1e6]\n", "low < high"),
     ("[limits]\nfs_hz = 3\n", "fs_hz must be a table with min and/or max"),
-    ("[extras]\na = 1\n", "unknown entry 'extras'"),
+    ("[extras]\na = 1\n", "unknown key 'extras'"),
     ("[import\n", "not valid TOML"),
 ])
 def test_bad_procedures_are_refused_with_the_file_named(tmp_path, text, match):

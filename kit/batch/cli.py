@@ -55,15 +55,85 @@ def _demo_run(args: argparse.Namespace) -> int:
     return demo_main([args.out] if args.out else [])
 
 
+def _check_procedure_args(p: argparse.ArgumentParser) -> None:
+    p.add_argument("procedure", help="procedure file (TOML, docs/procedure.md)")
+    p.add_argument("inputs", nargs="*", help="captures the procedure is for (files or folders): "
+                   "they must exist, and the spans must overlap the frequencies of a sample of "
+                   "them (read by the pre-flight scan)")
+
+
+def _check_procedure_run(args: argparse.Namespace) -> int:
+    from kit.batch.validate import validate
+
+    problems = validate(args.procedure, args.inputs or None)
+    for p in problems:
+        print(str(p))
+    if problems:
+        print(f"{len(problems)} problem(s); exit code 2", file=sys.stderr)
+        return 2
+    checked = " (spans checked against the inputs)" if args.inputs else ""
+    print(f"{args.procedure}: ok{checked}")
+    return 0
+
+
+#: Parts listed after a run that did not pass (the rest: summary.csv).
+SHOWN_PARTS = 20
+
+
+def not_passed(summary, limit: int = SHOWN_PARTS) -> list[str]:
+    """Lines of a compact table of the parts that did not pass: capture, verdict, first reason.
+
+    A part did not pass when it is an error row, or when limits judged it "fail" or
+    "incomplete". At most ``limit`` parts, then "N more in summary.csv".
+    """
+    rows = []
+    for _, r in summary.iterrows():
+        if r.get("status") == "error":
+            rows.append((str(r["capture"]), "error", str(r.get("error") or "")))
+        elif r.get("verdict") in ("fail", "incomplete"):
+            rows.append((str(r["capture"]), str(r["verdict"]),
+                         str(r.get("verdict_reasons") or "").split("; ")[0]))
+    if not rows:
+        return []
+    width = min(max(len(c) for c, _, _ in rows[:limit]), 28)
+    out = [f"{'capture':<{width}}  {'verdict':<10}  first reason"]
+    for cap, verdict, why in rows[:limit]:
+        why = why if len(why) <= 100 else why[:99] + "…"
+        out.append(f"{cap[:width]:<{width}}  {verdict:<10}  {why}")
+    if len(rows) > limit:
+        out.append(f"{len(rows) - limit} more in summary.csv")
+    return out
+
+
+def _out_in_inputs(out: str, inputs: list[str]) -> str | None:
+    """Why ``--out`` may not be used: it is an input folder or inside one (None when fine).
+
+    A folder given as input is never written to, nor any folder in it; for a file given as
+    input, its own folder is not (as :func:`kit.io.writer.refuse_input_folder` rules).
+    """
+    o = Path(out).resolve()
+    for item in inputs:
+        p = Path(item).resolve()
+        if p.is_dir() and (o == p or p in o.parents):
+            return f"--out {out} is inside the input folder {item}"
+        if p.is_file() and o == p.parent:
+            return f"--out {out} is the folder of the input {item}"
+    return None
+
+
 def _run_args(p: argparse.ArgumentParser) -> None:
-    p.add_argument("procedure", help="procedure file (TOML)")
+    p.add_argument("procedure", help="procedure file (TOML, docs/procedure.md)")
     p.add_argument("inputs", nargs="+", help="Touchstone files or folders")
-    p.add_argument("--out", required=True, help="output folder (created; a previous export is replaced)")
+    p.add_argument("--out", required=True, help="output folder (created; a previous export is "
+                   "replaced; never an input folder or a folder inside one)")
     p.add_argument("--workers", type=int, default=None, help="local worker processes (default: cores)")
     p.add_argument("--scheduler", default=None, help="Dask scheduler address, e.g. tcp://host:8786")
     p.add_argument("--cache", default=None, help="cache folder for parsed captures (default: user cache)")
     p.add_argument("--no-cache", action="store_true", help="parse every file, use no cache")
     p.add_argument("--no-report", action="store_true", help="skip report.html")
+    p.add_argument("--figures", choices=("flagged", "all", "none"), default="flagged",
+                   help="figures in the report: for parts that did not pass or carry a flag "
+                        "(default), for every part, or none")
     p.add_argument("--summary-only", action="store_true",
                    help="keep no captures in memory (very large lots): writes the summary and "
                         "provenance, an empty sweeps table and no report")
@@ -74,14 +144,27 @@ def _run_args(p: argparse.ArgumentParser) -> None:
 
 def _run_cmd(args: argparse.Namespace) -> int:
     from kit.batch.engine import run
+    from kit.batch.validate import validate
     from kit.capture import CaptureError
 
+    # an invalid procedure or output folder is refused before any capture is analysed
+    problems = validate(args.procedure, args.inputs)
+    for p in problems:
+        print(f"sweepbook run: {p}", file=sys.stderr)
+    why = _out_in_inputs(args.out, args.inputs)
+    if why:
+        print(f"sweepbook run: {why}: raw captures are evidence and their folders are never "
+              "written to; choose an output folder outside the inputs", file=sys.stderr)
+    if problems or why:
+        n = len(problems) + bool(why)
+        print(f"sweepbook run: {n} problem(s); nothing was run; exit code 2", file=sys.stderr)
+        return 2
     try:
         result = run(args.procedure, args.inputs, workers=args.workers, scheduler=args.scheduler,
                      cache_dir=args.cache, use_cache=not args.no_cache,
-                     keep_captures=not args.summary_only)
+                     keep_captures=not args.summary_only, figures=args.figures)
         out = result.write(args.out, report=not (args.no_report or args.summary_only),
-                           review_log=args.review_log)
+                           review_log=args.review_log, figures=args.figures)
     except (CaptureError, ValueError, OSError) as exc:
         print(f"sweepbook run: {exc}", file=sys.stderr)
         return 2
@@ -89,16 +172,22 @@ def _run_cmd(args: argparse.Namespace) -> int:
     verdicts = result.summary["verdict"].value_counts(dropna=True).to_dict()
     print(f"{s['inputs']} capture(s), {s['errors']} error row(s), engine: {s['engine']}, "
           f"cache hits {s['hit']}; verdicts {verdicts or 'none'}; written to {out}")
+    table = not_passed(result.summary)
+    if table:
+        print("\nparts that did not pass:")
+        print("\n".join(table))
     if s["errors"]:
         # a run with captures that could not be analysed must not look like a clean one
         rows = result.summary[result.summary["status"] == "error"]
         for name, err in list(zip(rows["capture"], rows["error"]))[:5]:
             print(f"sweepbook run: {name}: {err}", file=sys.stderr)
         more = len(rows) - 5
+        code = 3 if s["errors"] == s["inputs"] else 1
         print(f"sweepbook run: {s['errors']} capture(s) could not be analysed"
-              + (f" ({more} more in summary.csv)" if more > 0 else "") + "; exit code 1",
-              file=sys.stderr)
-        return 1
+              + (f" ({more} more in summary.csv)" if more > 0 else "")
+              + ("; not one capture was analysed" if code == 3 else "")
+              + f"; exit code {code}", file=sys.stderr)
+        return code
     return 0
 
 
@@ -147,7 +236,10 @@ COMMANDS: dict[str, tuple[str, Callable, Callable]] = {
     "check": ("pre-flight check of Touchstone files; exit code 1 when any has an error",
               _check_args, _check_run),
     "demo": ("write the demo data set", _demo_args, _demo_run),
-    "run": ("run a procedure over captures; writes summary, sweeps, provenance, report",
+    "check-procedure": ("list every problem of a procedure (and its spans against captures); "
+                        "exit code 2 when any", _check_procedure_args, _check_procedure_run),
+    "run": ("run a procedure over captures; writes summary, sweeps, provenance, report; exit "
+            "code 1 when some captures are errors, 3 when all are, 2 when it cannot run",
             _run_args, _run_cmd),
     "review": ("share the review log: push, pull, status, init (a postgresql:// server)",
                _review_args, _review_cmd),

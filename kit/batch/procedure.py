@@ -5,32 +5,12 @@ to fit and which limits judge the result. It is what an engineer sets up for one
 the notebook, saved so that it runs unchanged on every capture of a lot, from the command
 line or on a cluster (:mod:`kit.batch.engine`).
 
-Format (all tables optional except that a procedure with nothing in it does nothing)::
-
-    [import]
-    method = "reflection"            # or "series-through", "shunt-through"
-    port = 1
-    name_pattern = "{lot}-{serial}"  # fields go into the metadata
-
-    [[correction]]                   # applied in order; paths relative to this file
-    kind = "osl"                     # "osl", "open_short", "cable", "fixture", "port_extension"
-    open = "standards/open.s1p"
-    short = "standards/short.s1p"
-    load = "standards/load.s1p"
-    load_ohms = 50.0
-
-    [resonance]
-    span_hz = [1.6e6, 2.4e6]         # characteristic frequencies in this span (default: fit span)
-
-    [fit]
-    model = "bvd"                    # any model of kit.fit
-    span_hz = [1.8e6, 2.4e6]
-    modes = 1
-
-    [limits]                         # quantity = { min = ..., max = ... } on summary columns
-    fs_hz = { min = 1.9e6, max = 2.1e6 }
-    k_eff = { min = 0.3 }
-    # [[limits.mask]] entries as in the limits file format (docs/limits.md)
+The format, key by key with units, defaults and a complete example, is in
+docs/procedure.md; :mod:`kit.batch.validate` lists every problem of a procedure at once
+(``sweepbook check-procedure``) and holds the one list of accepted keys
+(:func:`kit.batch.schema.accepted_keys`). Limits are written inline (``[limits]``), read
+from a limits file (``limits_file``, docs/limits.md), or both: the two are merged and a
+column or mask named in both is refused.
 """
 
 from __future__ import annotations
@@ -44,26 +24,18 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from kit.batch.schema import (  # noqa: F401 - the format's names, kept importable from here
+    CORRECTION_KINDS,
+    FIT_KEYS,
+    FORMAT_VERSION,
+    IMPORT_METHODS,
+    MIN_SPAN_HZ,
+    correction_keys,
+    structure_problems,
+)
 from kit.capture import CaptureError
 from kit.io.atomic import write_text
 from kit.review.limits import toml_key, toml_str
-
-FORMAT_VERSION = 1
-IMPORT_METHODS = ("reflection", "series-through", "shunt-through")
-#: correction kind -> (kit function name, keys that are paths to captures)
-CORRECTION_KINDS: dict[str, tuple[str, tuple[str, ...]]] = {
-    "osl": ("osl", ("open", "short", "load")),
-    "open_short": ("open_short", ("open", "short")),
-    "cable": ("cable", ()),
-    "fixture": ("fixture", ("left", "right", "two_port")),
-    "port_extension": ("port_extension", ()),
-    "two_x_thru": ("two_x_thru", ("thru",)),
-}
-#: Spans ending below this are refused as probably given in MHz [Hz] (no resonator this kit
-#: is made for sits below 1 kHz; common practice, no source).
-MIN_SPAN_HZ = 1e3
-_TOP_KEYS = {"format_version", "name", "description", "import", "correction", "resonance", "fit",
-             "limits"}
 
 
 class ProcedureError(CaptureError):
@@ -87,6 +59,10 @@ class Procedure:
         Options of :func:`kit.fit` (``model``, ``span_hz``, ``modes``, ...); None: no fit.
     limits : dict or None
         Quantity bounds ``{column: {"min": .., "max": ..}}`` and optional ``mask`` list.
+    limits_file : str or None
+        A limits file (docs/limits.md), relative to ``base_dir``; merged with ``limits``.
+    description : str
+        Free text for the reader of the file; not used by the run.
     base_dir : Path
         Folder that relative paths are taken from (the procedure file's folder).
     """
@@ -99,51 +75,40 @@ class Procedure:
     name: str = ""
     base_dir: Path = field(default_factory=Path.cwd)
     source: str | None = None
+    limits_file: str | None = None
+    description: str = ""
 
     # ------------------------------------------------------------------ I/O
     @classmethod
     def from_dict(cls, doc: dict[str, Any], base_dir: str | Path = ".",
-                  source: str = "<procedure>") -> "Procedure":
-        """Validate a parsed procedure; raises ProcedureError with the entry and the fix."""
-        unknown = set(doc) - _TOP_KEYS
-        if unknown:
-            raise ProcedureError(f"unknown entry {sorted(unknown)[0]!r}; a procedure has "
-                                 "[import], [[correction]], [resonance], [fit] and [limits]", source)
-        ver = doc.get("format_version", FORMAT_VERSION)
-        if ver != FORMAT_VERSION:
-            raise ProcedureError(f"format_version {ver!r} is not supported (this kit reads "
-                                 f"{FORMAT_VERSION})", source)
+                  source: str = "<procedure>", text: str = "") -> "Procedure":
+        """Validate a parsed procedure; raises ProcedureError listing every problem of its
+        keys, kinds, models, spans and limits (:func:`kit.batch.schema.structure_problems`).
+
+        ``text`` (the TOML source, when known) only serves to name lines. Files (standards,
+        the limits file) are checked by :func:`kit.batch.validate.validate`; a limits file is
+        read here, so that a missing one is refused now, not on the hundredth capture.
+        """
+        problems = structure_problems(doc, source, text)
+        if problems:
+            raise ProcedureError(problems_text(problems), source,
+                                 problems[0].line if len(problems) == 1 else None, problems)
         imp = {"method": "reflection", "port": 1, **dict(doc.get("import", {}))}
-        if imp["method"] not in IMPORT_METHODS:
-            raise ProcedureError(f"[import] method {imp['method']!r} is not one of "
-                                 f"{', '.join(IMPORT_METHODS)}", source)
-        bad = set(imp) - {"method", "port", "name_pattern"}
-        if bad:
-            raise ProcedureError(f"[import] has unknown key(s) {', '.join(sorted(bad))}", source)
-        corrections = []
-        for i, c in enumerate(doc.get("correction", []), start=1):
-            if not isinstance(c, dict) or "kind" not in c:
-                raise ProcedureError(f"correction {i} needs a kind "
-                                     f"({', '.join(CORRECTION_KINDS)})", source)
-            if c["kind"] not in CORRECTION_KINDS:
-                raise ProcedureError(f"correction {i}: unknown kind {c['kind']!r}; use one of "
-                                     f"{', '.join(CORRECTION_KINDS)}", source)
-            _known_keys(c, _correction_keys(c["kind"]), f"correction {i} ({c['kind']})", source)
-            corrections.append(dict(c))
+        corrections = [dict(c) for c in doc.get("correction", [])]
         fit = doc.get("fit")
         if fit is not None:
             fit = dict(fit)
-            _known_keys(fit, FIT_KEYS, "[fit]", source)
             if "span_hz" in fit:
-                fit["span_hz"] = _span(fit["span_hz"], "[fit] span_hz", source)
+                fit["span_hz"] = tuple(float(x) for x in fit["span_hz"])
         res = dict(doc.get("resonance", {}))
-        _known_keys(res, ("span_hz",), "[resonance]", source)
         if "span_hz" in res:
-            res["span_hz"] = _span(res["span_hz"], "[resonance] span_hz", source)
+            res["span_hz"] = tuple(float(x) for x in res["span_hz"])
         limits = doc.get("limits")
         proc = cls(import_=imp, corrections=corrections, resonance=res, fit=fit,
                    limits=None if limits is None else dict(limits), name=str(doc.get("name", "")),
-                   base_dir=Path(base_dir).resolve(), source=source)
+                   base_dir=Path(base_dir).resolve(), source=source,
+                   limits_file=doc.get("limits_file"),
+                   description=str(doc.get("description", "")))
         proc.limits_object()  # validate now, not on the hundredth capture
         return proc
 
@@ -159,13 +124,17 @@ class Procedure:
             doc = tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
             raise ProcedureError(f"not valid TOML: {exc}", path) from None
-        return cls.from_dict(doc, base_dir=path.parent, source=str(path))
+        return cls.from_dict(doc, base_dir=path.parent, source=str(path), text=text)
 
     def to_dict(self) -> dict[str, Any]:
         """The procedure as plain data (what :meth:`to_file` writes)."""
         doc: dict[str, Any] = {"format_version": FORMAT_VERSION}
         if self.name:
             doc["name"] = self.name
+        if self.description:
+            doc["description"] = self.description
+        if self.limits_file:
+            doc["limits_file"] = str(self.limits_file)
         doc["import"] = {k: v for k, v in self.import_.items() if v is not None}
         if self.corrections:
             doc["correction"] = [dict(c) for c in self.corrections]
@@ -186,6 +155,8 @@ class Procedure:
             for key in CORRECTION_KINDS[c["kind"]][1]:
                 if isinstance(c.get(key), str):
                     c[key] = _relative(self.resolve(c[key]), path.parent)
+        if self.limits_file:
+            doc["limits_file"] = _relative(self.resolve(self.limits_file), path.parent)
         write_text(path, dumps_toml(doc))
         return path
 
@@ -197,6 +168,9 @@ class Procedure:
                 if isinstance(c.get(key), str):
                     p = self.resolve(c[key])
                     h.update(p.read_bytes() if p.is_file() else str(p).encode())
+        if self.limits_file:  # a changed limits file is a changed procedure
+            p = self.resolve(self.limits_file)
+            h.update(p.read_bytes() if p.is_file() else str(p).encode())
         return h.hexdigest()
 
     # ------------------------------------------------------------------ building blocks
@@ -217,88 +191,77 @@ class Procedure:
             return None
         import kit.corrections as kc
 
-        made = []
-        for i, c in enumerate(self.corrections, start=1):
-            fname, path_keys = CORRECTION_KINDS[c["kind"]]
-            args = {k: v for k, v in c.items() if k != "kind"}
-            for key in path_keys:
-                if isinstance(args.get(key), str):
-                    p = self.resolve(args[key])
-                    if not p.is_file():
-                        raise ProcedureError(f"correction {i} ({c['kind']}): {key} standard "
-                                             f"{p} does not exist", self.source)
-                    args[key] = p
-            try:
-                made.append(getattr(kc, fname)(**args))
-            except CaptureError:
-                raise
-            except (TypeError, ValueError) as exc:
-                raise ProcedureError(f"correction {i} ({c['kind']}): {exc}", self.source) from None
+        made = [self.build_correction(i, c) for i, c in enumerate(self.corrections)]
         return made[0] if len(made) == 1 else kc.chain(*made)
 
-    def limits_object(self):
-        """The [limits] table as a :class:`kit.review.limits.Limits` (None without limits).
+    def build_correction(self, i: int, c: dict[str, Any]):
+        """Correction ``i`` (0-based) of the chain, its standards read; raises ProcedureError
+        (or the standard's CaptureError) naming the correction."""
+        import kit.corrections as kc
 
-        Quantities are written inline (``fs_hz = { min = .., max = .. }``) and masks as
-        ``[[limits.mask]]``; both get the checks and messages of a limits file
-        (:func:`kit.review.limits.limits_from_dict`).
-        """
-        if not self.limits:
-            return None
-        from kit.review.limits import LimitsError, limits_from_dict
-
-        doc = {"quantity": {k: v for k, v in self.limits.items() if k not in ("mask", "name")},
-               "mask": list(self.limits.get("mask", []))}
-        if self.name:
-            doc["name"] = self.name
+        fname, path_keys = CORRECTION_KINDS[c["kind"]]
+        args = {k: v for k, v in c.items() if k != "kind"}
+        what = f"correction {i + 1} ({c['kind']})"
+        for key in path_keys:
+            if isinstance(args.get(key), str):
+                p = self.resolve(args[key])
+                if not p.is_file():
+                    raise ProcedureError(f"{what}: {key} standard {p} does not exist",
+                                         self.source)
+                args[key] = p
         try:
-            return limits_from_dict(doc, source="[limits]")
-        except LimitsError as exc:
-            raise ProcedureError(str(exc).replace("quantity.", ""), self.source) from None
+            return getattr(kc, fname)(**args)
+        except CaptureError:
+            raise
+        except (TypeError, ValueError) as exc:
+            raise ProcedureError(f"{what}: {exc}", self.source) from None
+
+    def limits_object(self):
+        """The limits as a :class:`kit.review.limits.Limits` (None without limits).
+
+        Inline quantities (``fs_hz = { min = .., max = .. }``) and masks (``[[limits.mask]]``)
+        get the checks and messages of a limits file (:func:`kit.review.limits.limits_from_dict`);
+        ``limits_file`` is read with :func:`kit.review.limits.load_limits`. With both, the
+        file's limits come first, then the inline ones; a column or mask name in both is
+        refused (which bound holds would otherwise be a guess). The set's name: ``[limits]
+        name``, else the file's name, else the procedure's.
+        """
+        if not self.limits and not self.limits_file:
+            return None
+        from kit.review.limits import Limits, LimitsError, limits_from_dict, load_limits
+
+        inline = from_file = None
+        if self.limits_file:
+            try:
+                from_file = load_limits(self.resolve(self.limits_file))
+            except LimitsError as exc:
+                raise ProcedureError(f"limits_file: {exc}", self.source) from None
+        if self.limits:
+            doc = {"quantity": {k: v for k, v in self.limits.items() if k not in ("mask", "name")},
+                   "mask": list(self.limits.get("mask", []))}
+            name = self.limits.get("name") or (from_file.name if from_file else "") or self.name
+            if name:
+                doc["name"] = name
+            try:
+                inline = limits_from_dict(doc, source="[limits]")
+            except LimitsError as exc:
+                raise ProcedureError(str(exc).replace("quantity.", ""), self.source) from None
+        if inline is None or from_file is None:
+            return inline or from_file
+        both = sorted({q.name for q in inline.quantities} & {q.name for q in from_file.quantities}
+                      | {m.name for m in inline.masks} & {m.name for m in from_file.masks})
+        if both:
+            raise ProcedureError(f"{', '.join(both)} limited both in [limits] and in "
+                                 f"{self.limits_file}; keep one of the two", self.source)
+        return Limits(from_file.quantities + inline.quantities, from_file.masks + inline.masks,
+                      inline.name, f"{from_file.source} + [limits] of {self.source}")
 
 
-def _span(v: Any, what: str, source: str) -> tuple[float, float]:
-    try:
-        lo, hi = (float(x) for x in v)
-    except (TypeError, ValueError):
-        raise ProcedureError(f"{what} must be [low, high] in hertz", source) from None
-    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
-        raise ProcedureError(f"{what} must be [low, high] with low < high", source)
-    if hi < MIN_SPAN_HZ:
-        raise ProcedureError(f"{what} = [{lo:g}, {hi:g}] ends below {MIN_SPAN_HZ:g} Hz: spans are "
-                             f"in hertz (write [{lo:g}e6, {hi:g}e6] for MHz)", source)
-    return (lo, hi)
-
-
-def _known_keys(table: dict, allowed, what: str, source: str) -> None:
-    """Refuse a key the step does not take, naming the nearest known one (a likely typo)."""
-    import difflib
-
-    bad = sorted(set(table) - set(allowed) - {"kind"})
-    if bad:
-        near = difflib.get_close_matches(bad[0], list(allowed), n=1)
-        hint = (f"; did you mean {near[0]!r}?" if near
-                else f"; it takes {', '.join(sorted(allowed)) or 'no keys'}")
-        raise ProcedureError(f"{what} has an unknown key {bad[0]!r}{hint}", source)
-
-
-def _signature_keys(func, drop=()) -> tuple[str, ...]:
-    import inspect
-
-    return tuple(n for n, p in inspect.signature(func).parameters.items()
-                 if p.kind not in (p.VAR_KEYWORD, p.VAR_POSITIONAL) and n not in drop)
-
-
-#: Settings a [fit] table takes: the keywords of kit.fit, less the capture, the arrays and
-#: what [import] sets, plus the plate's options (tests/test_procedure.py keeps them in step).
-FIT_KEYS = ("model", "span_hz", "modes", "weighting", "z0_ohm", "start", "max_nfev", "poor_fit",
-            "data", "z_front", "z_back")
-
-
-def _correction_keys(kind: str) -> tuple[str, ...]:
-    import kit.corrections as kc
-
-    return _signature_keys(getattr(kc, CORRECTION_KINDS[kind][0]))
+def problems_text(problems) -> str:
+    """Problems (:class:`kit.capture.Finding`) as one message: each with its line and fix."""
+    parts = [(f"line {p.line}: " if p.line and len(problems) > 1 else "") + p.message
+             + (f" ({p.fix})" if p.fix else "") for p in problems]
+    return parts[0] if len(parts) == 1 else f"{len(parts)} problems: " + "; ".join(parts)
 
 
 def _relative(p: Path, folder: Path) -> str:
@@ -333,7 +296,7 @@ def _value(v: Any) -> str:
 
 def dumps_toml(doc: dict[str, Any]) -> str:
     """TOML text for a procedure-shaped document (tables one level deep, arrays of tables)."""
-    lines = ["# sweepbook procedure (format_version 1); see kit/procedure.py for the keys"]
+    lines = ["# sweepbook procedure (format_version 1); keys in docs/procedure.md"]
     for k, v in doc.items():
         if not isinstance(v, dict) and not (isinstance(v, list) and v and isinstance(v[0], dict)):
             lines.append(f"{toml_key(k)} = {_value(v)}")

@@ -1,0 +1,343 @@
+"""Procedure validation: every problem of a procedure, listed at once, before a run starts.
+
+:func:`validate` reads a procedure file (or takes a :class:`~kit.batch.procedure.Procedure`)
+and returns one :class:`Problem` per thing that is wrong, never stopping at the first: TOML
+syntax, unknown keys (with the nearest valid key), unknown correction kinds and fit models
+(with the valid ones), spans that are reversed, in MHz where hertz are meant, or outside the
+frequencies of the inputs, standards and limits files that do not exist, limits that do not
+read, and limits on summary columns the run will not produce. Each problem names the file,
+the line where the key sits (where it can be found) and what to do.
+
+:func:`kit.batch.schema.structure_problems` is the part that needs no file system (keys, kinds,
+models, spans, limit syntax); :meth:`Procedure.from_dict` raises on those, so a procedure made in
+Python gets the same checks and the same words. The format itself: docs/procedure.md.
+:func:`accepted_keys` is the one list of keys the format takes (the documentation is
+checked against it).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from kit.batch.procedure import CORRECTION_KINDS, MIN_SPAN_HZ, Procedure
+from kit.batch.schema import (
+    LIMITS_FILE_KEYS,
+    Collector,
+    Problem,
+    accepted_keys,
+    check_masks,
+    key_lines,
+    limit_entries,
+    limit_text,
+    nearest,
+    structure_problems,
+    syntax_problem,
+    unknown_keys,
+)
+from kit.capture import CaptureError, Finding
+
+__all__ = ["Problem", "validate", "structure_problems", "accepted_keys", "produced_columns",
+           "key_lines", "SAMPLE"]
+
+#: Input files whose frequency range is read (pre-flight scan) to check the spans: the first,
+#: the last and evenly spaced ones between; a lot is taken to share one sweep plan.
+SAMPLE = 5
+
+
+# ---------------------------------------------------------------------- columns
+def produced_columns(doc: dict[str, Any]) -> tuple[set[str], set[str]]:
+    """(numeric summary columns a run of this procedure fills, those only a fit fills).
+
+    Names and units: docs/nomenclature.md; columns of :mod:`kit.outputs.summary`.
+    """
+    from kit.outputs.entries import unit_column
+    from kit.outputs.summary import PARAM_COLUMNS, RESONANCE_COLUMNS, RESONANCE_EXTRA
+
+    cols = {"ports", "points", "f_start_hz", "f_stop_hz", "z0_ohm"}
+    cols |= set(RESONANCE_COLUMNS) | set(RESONANCE_EXTRA)
+    pattern = (doc.get("import") or {}).get("name_pattern")
+    if isinstance(pattern, str):
+        from kit.io.names import compile_pattern
+
+        try:
+            for f in compile_pattern(pattern).groupindex:
+                cols.add(f"field_{f}" if f in cols or f in ("capture", "path") else f)
+        except ValueError:
+            pass
+    fit_all = set()
+    for col in dict.fromkeys(PARAM_COLUMNS.values()):
+        fit_all |= {col, unit_column(col, "stderr")}
+    for k in RESONANCE_COLUMNS:
+        fit_all |= {f"fit_{k}", unit_column(f"fit_{k}", "stderr")}
+    fit_all.add("fit_residual_rel")
+    fit = doc.get("fit")
+    if isinstance(fit, dict):
+        from kit.resonators.registry import get_model
+
+        try:
+            opts = {k: fit[k] for k in ("z_front", "z_back") if k in fit}
+            params = get_model(fit.get("model", "bvd"), fit.get("modes", 1), **opts).params
+        except (TypeError, ValueError):
+            params = tuple(PARAM_COLUMNS)  # the model is reported elsewhere
+        for p in params:
+            if p in PARAM_COLUMNS:
+                cols |= {PARAM_COLUMNS[p], unit_column(PARAM_COLUMNS[p], "stderr")}
+        cols |= {c for c in fit_all if c.startswith("fit_")}
+    return cols, fit_all
+
+
+def _column_problems(col: Collector, doc: dict, entries: list[tuple[str, tuple]]) -> None:
+    cols, fit_only = produced_columns(doc)
+    fit = doc.get("fit")
+    for name, path in entries:
+        if name in cols:
+            continue
+        if name in fit_only and not isinstance(fit, dict):
+            col.add(path, f"a limit on {name!r}, which only a fit gives, in a procedure "
+                    "without [fit]", "add a [fit] table (model 'bvd' gives c0_f, r1_ohm, "
+                    "l1_h, c1_f) or remove the limit", "limit-column")
+        elif name in fit_only:
+            col.add(path, f"a limit on {name!r}, which fit model "
+                    f"{fit.get('model', 'bvd')!r} does not give", "choose a model that has "
+                    "it (docs/nomenclature.md) or remove the limit", "limit-column")
+        else:
+            near = nearest(name, cols)
+            col.add(path, f"a limit on {name!r}, which is not a number column of this run's "
+                    "summary", (f"did you mean {near!r}? " if near else "") + "columns: "
+                    "docs/nomenclature.md", "limit-column")
+
+
+# ---------------------------------------------------------------------- files and inputs
+def _limits_file(doc: dict, base: Path, pcol: Collector) -> tuple[Collector | None, dict]:
+    """Problems of the limits file named by ``limits_file``; returns its collector and doc."""
+    name = doc.get("limits_file")
+    if not isinstance(name, str):
+        return None, {}
+    path = Path(name) if Path(name).is_absolute() else base / name
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        pcol.add(("limits_file",), f"limits_file {path} cannot be read "
+                 f"({getattr(exc, 'strerror', None) or exc})", "write the path relative to the "
+                 "procedure file, or create that limits file", "missing-file")
+        return None, {}
+    col = Collector(str(path), text)
+    try:
+        ldoc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        col.problems.append(syntax_problem(exc, str(path)))
+        return col, {}
+    unknown_keys(col, ldoc, LIMITS_FILE_KEYS, (), "a limits file")
+    try:
+        from kit.review.limits import limits_from_dict
+
+        limits_from_dict({k: v for k, v in ldoc.items() if k in ("format", "version")}, "@")
+    except CaptureError as exc:
+        col.add(("format",), limit_text(exc), "see docs/limits.md", "bad-limit")
+    q = ldoc.get("quantity", {})
+    if isinstance(q, dict):
+        entries = limit_entries(col, q, ("quantity",), str(path.name), skip=())
+        _column_problems(col, doc, entries)
+    else:
+        col.add(("quantity",), "quantity must be tables such as [quantity.fs_hz]",
+                "see docs/limits.md", "bad-limit")
+    check_masks(col, ldoc.get("mask", []), ("mask",), path.name)
+    return col, ldoc
+
+
+def _standards(doc: dict, base: Path, col: Collector) -> bool:
+    """Missing standards; True when every correction could be set up."""
+    ok = True
+    for i, c in enumerate(doc.get("correction") or []):
+        if not isinstance(c, dict) or c.get("kind") not in CORRECTION_KINDS:
+            continue
+        for key in CORRECTION_KINDS[c["kind"]][1]:
+            v = c.get(key)
+            if isinstance(v, str):
+                p = Path(v) if Path(v).is_absolute() else base / v
+                if not p.is_file():
+                    ok = False
+                    col.add(("correction", i, key), f"correction {i + 1} ({c['kind']}): {key} "
+                            f"standard {p} does not exist", "write the path relative to the "
+                            "procedure file's folder", "missing-file")
+    return ok
+
+
+def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] | None:
+    """(lowest, highest frequency [Hz], files sampled, files) of the inputs, by the pre-flight
+    scan of up to :data:`SAMPLE` files; missing inputs become problems."""
+    import numpy as np
+
+    from kit.capture import Capture
+    from kit.io.folder import touchstone_files
+    from kit.io.preflight import read_bytes, scan_bytes
+
+    files: list[Any] = []
+    for item in [inputs] if isinstance(inputs, (str, Path, Capture)) else list(inputs):
+        if isinstance(item, Capture):
+            files.append(item)
+            continue
+        p = Path(item)
+        if not p.exists():
+            col.problems.append(Finding("error", f"input {p} does not exist", None,
+                                        "give Touchstone files or folders that exist (paths "
+                                        "are relative to the current folder)", "no-inputs",
+                                        str(p)))
+        elif p.is_dir():
+            found = touchstone_files(p)
+            if not found:
+                col.problems.append(Finding("error", f"input folder {p} holds no Touchstone "
+                                            "files", None, "give the folder of the captures "
+                                            "(.sNp, .ts)", "no-inputs", str(p)))
+            files.extend(found)
+        else:
+            files.append(p)
+    if not files:
+        return None
+    idx = sorted(set(np.linspace(0, len(files) - 1, min(SAMPLE, len(files))).round().astype(int)))
+    lo, hi, n = math.inf, -math.inf, 0
+    for k in idx:
+        item = files[k]
+        if isinstance(item, Capture):
+            f = np.asarray(item.f_hz)
+        else:
+            try:
+                f = np.asarray(scan_bytes(read_bytes(Path(item)), Path(item)).freqs, float)
+            except CaptureError:
+                continue
+        if f.size:
+            lo, hi, n = min(lo, float(f.min())), max(hi, float(f.max())), n + 1
+    return (lo, hi, n, len(files)) if n else None
+
+
+def _span_vs_inputs(col: Collector, span: Any, path: tuple, what: str,
+                    rng: tuple[float, float, int, int]) -> None:
+    try:
+        lo, hi = (float(x) for x in span)
+    except (TypeError, ValueError):
+        return
+    f0, f1, n, total = rng
+    if not (lo < hi) or hi < MIN_SPAN_HZ or (lo < f1 and hi > f0):
+        return
+    fix = "give the span in hertz, inside the captures' range"
+    for factor, unit in ((1e6, "MHz"), (1e3, "kHz"), (1e9, "GHz")):
+        if lo * factor < f1 and hi * factor > f0:
+            fix = (f"the span looks like {unit} written for Hz: write [{lo * factor:g}, "
+                   f"{hi * factor:g}]")
+            break
+    from kit.units import eng
+
+    col.add(path, f"{what} = [{lo:g}, {hi:g}] Hz does not overlap the inputs' frequencies, "
+            f"{eng(f0, 'Hz')} to {eng(f1, 'Hz')} (pre-flight scan of {n} of {total} file(s))", fix,
+            "span-outside-inputs")
+
+
+# ---------------------------------------------------------------------- the entry point
+def _load(procedure_or_path: Any) -> tuple[dict | None, str, str, Path, list[Problem]]:
+    if isinstance(procedure_or_path, Procedure):
+        p = procedure_or_path
+        text = ""
+        if p.source and Path(p.source).is_file():
+            text = Path(p.source).read_text(encoding="utf-8", errors="replace")
+        return p.to_dict(), text, p.source or "<procedure>", Path(p.base_dir), []
+    if isinstance(procedure_or_path, dict):
+        return procedure_or_path, "", "<procedure>", Path.cwd(), []
+    path = Path(procedure_or_path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        return None, "", str(path), path.parent, [Finding(
+            "error", f"cannot read the procedure ({getattr(exc, 'strerror', None) or exc})",
+            None, "give the path of a procedure file (TOML, UTF-8)", "missing-file", str(path))]
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        return None, text, str(path), path.parent, [syntax_problem(exc, str(path))]
+    return doc, text, str(path), path.parent.resolve(), []
+
+
+def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
+    """Every problem of a procedure, in file order by step; an empty list when it is sound.
+
+    Parameters
+    ----------
+    procedure_or_path : path, Procedure or dict
+        A procedure file (TOML; paths in it are taken from its folder), a
+        :class:`~kit.batch.procedure.Procedure`, or a parsed document (paths from the current
+        folder).
+    inputs : path, folder, Capture or an iterable of them, optional
+        The captures the procedure will run on: inputs that do not exist are problems, and the
+        spans (``[resonance]``, ``[fit]``, masks) must overlap the frequencies of a sample of
+        them (the first, last and evenly spaced files, up to :data:`SAMPLE`, read by the
+        pre-flight scan of :mod:`kit.io.preflight`, not loaded).
+
+    Returns
+    -------
+    list of Problem
+        :class:`kit.capture.Finding` records: ``path`` (the procedure, a limits file or an
+        input), ``line`` (where the key sits, when it can be found), ``message``, ``fix`` and
+        ``code`` (e.g. "unknown-key", "span-in-mhz", "missing-file", "limit-column").
+    """
+    doc, text, source, base, problems = _load(procedure_or_path)
+    if doc is None:
+        return problems
+    col = Collector(source, text)
+    col.problems = structure_problems(doc, source, text)
+    lcol, ldoc = _limits_file(doc, base, col)
+    lim = doc.get("limits") if isinstance(doc.get("limits"), dict) else {}
+    entries = [(k, ("limits", k)) for k in lim if k not in ("mask", "name")]
+    _column_problems(col, doc, entries)
+    if isinstance(ldoc.get("quantity"), dict):
+        both = sorted(set(ldoc["quantity"]) & {k for k, _ in entries})
+        for k in both:
+            col.add(("limits", k), f"{k} is limited both in [limits] and in "
+                    f"{doc['limits_file']}", "keep one of the two bounds", "duplicate-limit")
+    if isinstance(ldoc.get("mask"), list) and isinstance(lim.get("mask"), list):
+        for k in sorted(_mask_names(ldoc["mask"]) & _mask_names(lim["mask"])):
+            col.add(("limits", "mask"), f"a mask named {k!r} is in both [limits] and "
+                    f"{doc['limits_file']}", "name the masks differently", "duplicate-limit")
+    if _standards(doc, base, col) and not structure_problems(
+            {"correction": doc.get("correction") or []}):
+        _setup_corrections(doc, base, source, col)
+    if inputs is not None:
+        rng = _input_range(inputs, col)
+        if rng is not None:
+            spans = [(("resonance", "span_hz"), "[resonance] span_hz",
+                      (doc.get("resonance") or {}).get("span_hz")),
+                     (("fit", "span_hz"), "[fit] span_hz", (doc.get("fit") or {}).get("span_hz"))]
+            for i, m in enumerate(lim.get("mask") or []):
+                if isinstance(m, dict) and "f_min_hz" in m and "f_max_hz" in m:
+                    spans.append((("limits", "mask", i), f"mask {i + 1} span",
+                                  (m["f_min_hz"], m["f_max_hz"])))
+            for path, what, span in spans:
+                if span is not None:
+                    _span_vs_inputs(col, span, path, what, rng)
+            if lcol is not None:
+                for i, m in enumerate(ldoc.get("mask") or []):
+                    if isinstance(m, dict) and "f_min_hz" in m and "f_max_hz" in m:
+                        _span_vs_inputs(lcol, (m["f_min_hz"], m["f_max_hz"]), ("mask", i),
+                                        f"mask {i + 1} span", rng)
+    found = col.problems + (lcol.problems if lcol is not None else [])
+    order = {source: 0, getattr(lcol, "source", None): 1}
+    return sorted(found, key=lambda p: (order.get(p.path, 2), p.line or math.inf))
+
+
+def _mask_names(masks: list) -> set[str]:
+    return {str(m.get("name") or f"mask{i + 1}") for i, m in enumerate(masks)
+            if isinstance(m, dict)}
+
+
+def _setup_corrections(doc: dict, base: Path, source: str, col: Collector) -> None:
+    """Build each correction as the run will (standards read once here); collect failures."""
+    items = [c for c in doc.get("correction") or [] if isinstance(c, dict)]
+    proc = Procedure(corrections=items, base_dir=base, source=source)
+    for i, c in enumerate(items):
+        try:
+            proc.build_correction(i, c)
+        except CaptureError as exc:
+            col.add(("correction", i), getattr(exc, "reason", str(exc)),
+                    "check the standards and the step's values (docs/procedure.md)",
+                    "correction-setup")
