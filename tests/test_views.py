@@ -526,6 +526,7 @@ def test_lot_browser_keeps_static_artists_and_blits(ipympl_figures, demo_dir):
     assert b.layers.counts["blit"] == before_pin["blit"] + 1
     assert b.layers.counts["band"] == before_pin["band"]      # a pin redraws no axes
     assert b.layers.counts["full"] == full and not asked
+    assert not fig.stale  # pyplot's draw-all hook (run after each widget message) skips it
     assert {id(a) for a in b._grid_artists} | {id(b.ax_rect), id(b.ax_plane)} == static
     assert [id(ln) for ln in b.lines_rect + b.lines_plane] == lines
     assert all(a.figure is fig for a in b._grid_artists)

@@ -3,8 +3,12 @@
 ``lot_browser(folder_or_table)`` builds the panel and returns a :class:`LotBrowser` whose
 attributes are the named controls. The figure is made once: a reflection-plane view on
 the left (Smith chart, polar or admittance circle) and a rectangular chart on the right
-(any of :data:`kit.views.CHARTS`). Selecting rows, choosing charts, moving the span and
-the raw/corrected toggle only update line data (``set_data``) and redraw.
+(any of :data:`kit.views.CHARTS`), its legend outside the data on the right. Selecting
+rows, choosing charts, moving the span, pins and the raw/corrected toggle only update
+existing artists (``set_data``); the figure's static parts are kept as pixels and only the
+band that changed is drawn again, the traces and pins blitted over it
+(:class:`kit.views.blit.BlitLayers`). ``browser.select(key)`` selects a capture by its
+sha256, row label or name (the lot overview uses it).
 
 Computation happens in kit functions only: :func:`kit.load_folder`,
 :func:`kit.io.folder.capture_of`, :func:`kit.views.trace` and the view functions.

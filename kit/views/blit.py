@@ -150,6 +150,9 @@ class BlitLayers:
             self._bg = canvas.copy_from_bbox(self.fig.bbox)
         self._draw_dynamic(renderer)
         canvas.blit(self.fig.bbox)
+        # the picture is current: a figure left "stale" would be drawn again in full by
+        # pyplot's draw-all hook, which IPython runs after every widget message
+        self.fig.stale = False
         self.counts[kind] += 1
         return kind
 
