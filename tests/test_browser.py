@@ -310,3 +310,24 @@ def test_every_notebook_runs_in_a_real_browser(lab, tmp_path, name):
         text = " ".join(errors.all_inner_texts())
         assert "Traceback" not in text and "Error" not in text, text[:2000]
         _shot(page, tmp_path, name.removesuffix(".ipynb"))
+
+
+def test_lot_browser_latency_benchmark(tmp_path):
+    """A short run of bench/bench_browser.py: every interaction (capture change, span
+    slider, pin placement, view change) updates the figure at 1601 and 100,001 points;
+    the medians and 95th percentiles are printed, not asserted (goal: median < 100 ms)."""
+    import importlib.util
+
+    pytest.importorskip("nbformat")
+    spec = importlib.util.spec_from_file_location("bench_browser",
+                                                  ROOT / "bench" / "bench_browser.py")
+    bench = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(bench)
+    results = bench.run(repeat=3, python_path=str(ROOT), workdir=tmp_path,
+                        screenshot=tmp_path / "bench.png")
+    print("\nlot browser, interaction -> figure updated (short run; bench/bench_browser.py "
+          "for the full one):\n" + bench.table(results))
+    assert set(results) == set(bench.LENGTHS)
+    for rows in results.values():
+        assert set(rows) == set(bench.INTERACTIONS)
+        assert all(len(v) == 3 and all(s > 0 for s in v) for v in rows.values())

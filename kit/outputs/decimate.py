@@ -7,9 +7,10 @@ and maximum of every coordinate given, in their original order, so that the draw
 has the same envelope (peaks, notches and spikes are all kept) with at most a few points
 per column. The data are never changed: the functions return indices or new arrays.
 
-Columns are formed by point index, which matches pixel columns when the frequency grid is
-uniform on the axis scale (linear sweeps on a linear axis, logarithmic sweeps on a log
-axis), the usual case for swept captures.
+Columns are formed by point index (point i of n falls in column floor(i * columns / n)),
+which matches pixel columns when the frequency grid is uniform on the axis scale (linear
+sweeps on a linear axis, logarithmic sweeps on a log axis), the usual case for swept
+captures.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ import numpy as np
 MIN_POINTS_PER_COLUMN = 4
 
 
-def minmax_indices(columns: int, *values: np.ndarray) -> np.ndarray:
+def minmax_indices(columns: int, *values: np.ndarray, x=None, x_range=None) -> np.ndarray:
     """Indices that keep the minimum and maximum of each column, for every coordinate.
 
     Parameters
@@ -33,6 +34,13 @@ def minmax_indices(columns: int, *values: np.ndarray) -> np.ndarray:
         column is NaN, in which case the first index of that column is kept so that the
         gap stays visible.
 
+    x : array_like of float, optional
+        The sorted abscissa (frequency) of the points: columns are then equal steps of x
+        over ``x_range`` (default the first to the last x), so that they fall on the
+        pixel columns of an axes showing that range, whatever the spacing of the points.
+    x_range : (float, float), optional
+        The x range shown across the ``columns``.
+
     Returns
     -------
     numpy.ndarray of int
@@ -41,8 +49,10 @@ def minmax_indices(columns: int, *values: np.ndarray) -> np.ndarray:
 
     References
     ----------
-    .. [1] Min/max per pixel column ("M4"-style) decimation of line charts: common
-       practice, no source.
+    .. [1] U. Jugel, Z. Jerzak, G. Hackenbroich, V. Markl, "M4: a visualization-oriented
+       time series data aggregation", Proc. VLDB Endowment 7(10), 2014 (from memory): the
+       first, last, minimum and maximum point of each pixel column give the same
+       rasterised line as all points.
     """
     if not values:
         raise ValueError("minmax_indices needs at least one coordinate array")
@@ -53,20 +63,37 @@ def minmax_indices(columns: int, *values: np.ndarray) -> np.ndarray:
     columns = max(int(columns), 1)
     if n <= MIN_POINTS_PER_COLUMN * columns or n < 3:
         return np.arange(n)
-    size = -(-n // columns)  # points per column, rounded up
-    rows = -(-n // size)
-    pad = rows * size - n
-    picks = [np.array([0, n - 1])]
-    base = np.arange(rows) * size
+    if x is None:
+        # column of each point: floor(i * columns / n), so that the column edges fall where
+        # the pixel edges do for an evenly spaced sweep (no drift across the width)
+        col = (np.arange(n, dtype=np.int64) * columns) // n
+    else:
+        xs = np.asarray(x, dtype=float).ravel()
+        lo, hi = (xs[0], xs[-1]) if x_range is None else map(float, x_range)
+        scale = columns / (hi - lo) if hi > lo else 0.0
+        col = np.clip(np.floor((xs - lo) * scale), 0, columns - 1).astype(np.int64)
+        if xs.size != n or np.any(np.diff(col) < 0):
+            raise ValueError("x must be sorted and as long as the values")
+    present = np.unique(col)
+    starts = np.searchsorted(col, present)
+    lengths = np.diff(np.append(starts, n))
+    keep = np.zeros(n, bool)
+    keep[starts] = True  # first and last point of each column: the line between two
+    keep[starts + lengths - 1] = True  # columns then joins the same points as the full one
     for a in arrays:
-        lo = np.where(np.isnan(a), np.inf, a)
-        hi = np.where(np.isnan(a), -np.inf, a)
-        lo = np.concatenate([lo, np.full(pad, np.inf)]).reshape(rows, size)
-        hi = np.concatenate([hi, np.full(pad, -np.inf)]).reshape(rows, size)
-        picks.append(base + np.argmin(lo, axis=1))
-        picks.append(base + np.argmax(hi, axis=1))
-    idx = np.unique(np.concatenate(picks))
-    return idx[idx < n]
+        nan = np.isnan(a)
+        lo = np.where(nan, np.inf, a)
+        hi = np.where(nan, -np.inf, a)
+        low = np.minimum.reduceat(lo, starts)
+        high = np.maximum.reduceat(hi, starts)
+        for hit in ((lo == np.repeat(low, lengths)) & ~nan,
+                    (hi == np.repeat(high, lengths)) & ~nan):
+            pos = np.flatnonzero(hit)
+            first = np.ones(pos.size, bool)  # the first of equal extremes in a column
+            first[1:] = col[pos[1:]] != col[pos[:-1]]
+            keep[pos[first]] = True
+        keep[starts[~np.isfinite(low)]] = True  # an all-NaN column keeps its first point
+    return np.flatnonzero(keep)
 
 
 def minmax(x: np.ndarray, y: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray]:

@@ -3,8 +3,12 @@
 ``lot_browser(folder_or_table)`` builds the panel and returns a :class:`LotBrowser` whose
 attributes are the named controls. The figure is made once: a reflection-plane view on
 the left (Smith chart, polar or admittance circle) and a rectangular chart on the right
-(any of :data:`kit.views.CHARTS`). Selecting rows, choosing charts, moving the span and
-the raw/corrected toggle only update line data (``set_data``) and redraw.
+(any of :data:`kit.views.CHARTS`), its legend outside the data on the right. Selecting
+rows, choosing charts, moving the span, pins and the raw/corrected toggle only update
+existing artists (``set_data``); the figure's static parts are kept as pixels and only the
+band that changed is drawn again, the traces and pins blitted over it
+(:class:`kit.views.blit.BlitLayers`). ``browser.select(key)`` selects a capture by its
+sha256, row label or name (the lot overview uses it).
 
 Computation happens in kit functions only: :func:`kit.load_folder`,
 :func:`kit.io.folder.capture_of`, :func:`kit.views.trace` and the view functions.
@@ -12,19 +16,23 @@ Computation happens in kit functions only: :func:`kit.load_folder`,
 
 from __future__ import annotations
 
+from collections import OrderedDict
 from pathlib import Path
 from typing import Any, Callable
 
 from kit import views as kv
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
 from kit.units import table
+from kit.views.blit import BlitLayers
 
 PLANE_OPTIONS = [("Smith chart, Z grid", "smith:z"), ("Smith chart, Y grid", "smith:y"),
                  ("Smith chart, Z and Y", "smith:both"), ("polar |Γ|", "polar"),
                  ("admittance circle", "circle")]
 CHART_OPTIONS = [(c.title, name) for name, c in kv.CHARTS.items()]
 _PLANE_BOX = (0.02, 0.12, 0.36, 0.80)
-_CIRCLE_BOX = (0.08, 0.14, 0.32, 0.78)
+_CIRCLE_BOX = (0.08, 0.14, 0.30, 0.78)
+_RECT_BOX = (0.475, 0.14, 0.385, 0.78)  # the legend stands right of it, outside the data
+_SPLIT = 0.405  # figure fraction between the plane band and the chart band
 METHOD_OPTIONS = [("auto", "auto"), ("reflection (S11)", "reflection"),
                   ("series-through (S21)", "series-through"),
                   ("shunt-through (S21)", "shunt-through")]
@@ -35,6 +43,27 @@ def _row_label(rec) -> str:
     status = rec.get("status", "")
     flag = {"ok": "", "warning": " · warning", "error": " · REFUSED"}.get(status, f" · {status}")
     return f"{rec['name']}{pts}{flag}"
+
+
+def _capture_list(**kw):
+    """The capture list: an ``ipywidgets.SelectMultiple`` that can also be called,
+    ``browser.select(key)``, to select one capture by key (see :meth:`LotBrowser.pick`)."""
+    import ipywidgets as w
+
+    global _CaptureList
+    if _CaptureList is None:
+        class CaptureList(w.SelectMultiple):
+            browser: Any = None
+
+            def __call__(self, key, add: bool = False):
+                return self.browser.pick(key, add=add)
+
+        _CaptureList = CaptureList
+    return _CaptureList(**kw)
+
+
+_CaptureList: Any = None
+_CACHE_SIZE = 512  # decimated curves kept (a few kB each)
 
 
 class LotBrowser:
@@ -49,6 +78,9 @@ class LotBrowser:
     name_filter, status_filter, select, plane, chart, method, span, corrected : widgets
         The controls (classes ``sb-name-filter``, ``sb-status-filter``, ``sb-select``,
         ``sb-plane``, ``sb-chart``, ``sb-method``, ``sb-span``, ``sb-corrected``).
+        ``select`` is the capture list (a SelectMultiple); calling it,
+        ``browser.select(key)``, selects one capture by its sha256, row label or name
+        (:meth:`pick`).
     table_html : ipywidgets.HTML
         The filtered table (class ``sb-lot-table``).
     status : ipywidgets.HTML
@@ -56,9 +88,19 @@ class LotBrowser:
         written just before each redraw.
     host : FigureHost
         The figure; ``host.fig``, ``ax_plane`` and ``ax_rect`` are its axes.
+    layers : kit.views.blit.BlitLayers
+        Keeps the static parts of the figure (grids, axes, legend) as pixels; each
+        interaction redraws the band that changed, or only the traces and pins.
     message : MessageBar
     traces : list of kit.views.Trace
         The traces drawn, in selection order.
+
+    Notes
+    -----
+    Nothing is computed twice: traces are kept per (row, method, raw/corrected,
+    correction), their drawn quantities per chart, and the decimated curves per trace,
+    view, span and pixel width. Lines, pins and the legend are updated in place
+    (``set_data``); new artists are made only when more traces or pins are shown.
     """
 
     def __init__(self, table, correction: Callable | None = None, chart: str = "z_mag",
@@ -69,12 +111,17 @@ class LotBrowser:
         self.correction = correction
         self.message = MessageBar()
         self._cache: dict[tuple, Any] = {}
+        self._curves: OrderedDict[tuple, Any] = OrderedDict()
+        self._keys: list[tuple] = []
         self.traces: list[kv.Trace] = []
         self.lines_plane: list[Any] = []
         self.lines_rect: list[Any] = []
         self.pin_artists: list[Any] = []
+        self._pins_rect: list[Any] = []
+        self._pins_plane: list[Any] = []
         self.pins: list[dict[str, Any]] = []
         self._listeners: list[Callable[[], None]] = []
+        self._signature: dict[str, Any] = {}
 
         self.name_filter = classed(w.Text(placeholder="part of the name", description="name",
                                           layout=w.Layout(width="220px")), "name-filter")
@@ -82,8 +129,9 @@ class LotBrowser:
         self.status_filter = classed(w.Dropdown(options=statuses, value="all",
                                                 description="status",
                                                 layout=w.Layout(width="180px")), "status-filter")
-        self.select = classed(w.SelectMultiple(options=[], rows=8, description="captures",
-                                               layout=w.Layout(width="320px")), "select")
+        self.select = classed(_capture_list(options=[], rows=8, description="captures",
+                                            layout=w.Layout(width="320px")), "select")
+        self.select.browser = self
         self.plane = classed(w.Dropdown(options=PLANE_OPTIONS, value=plane, description="left view",
                                         layout=w.Layout(width="270px")), "plane")
         self.chart = classed(w.Dropdown(options=CHART_OPTIONS, value=chart,
@@ -106,9 +154,15 @@ class LotBrowser:
         self.host = FigureHost(figsize=(10.4, 4.4), interactive=interactive, css="lot-figure")
         fig = self.host.fig
         self.ax_plane = fig.add_axes(_PLANE_BOX)
-        self.ax_rect = fig.add_axes([0.48, 0.14, 0.49, 0.78])
+        self.ax_rect = fig.add_axes(_RECT_BOX)
         self._polar_ax = None
         self._grid_artists: list[Any] = []
+        # the figure is drawn by its layers only: pyplot's "draw when stale" would ask the
+        # page for a second, full frame after every change
+        fig.stale_callback = None
+        self.layers = BlitLayers(fig, self._dynamic_artists, fallback=self.host.refresh)
+        self.layers.add_band("plane", 0.0, _SPLIT, lambda: [self._plane_ax()])
+        self.layers.add_band("rect", _SPLIT, 1.0, lambda: [self.ax_rect])
         self._draw_plane_grid()
         kv.style_chart(self.ax_rect, chart)
         self._empty = self.ax_rect.text(0.5, 0.5, "select captures on the left", ha="center",
@@ -135,7 +189,7 @@ class LotBrowser:
             self.message.widget]), "lot-browser")
         self.refresh_table()
         self._show_status()
-        self.host.refresh()
+        self._render()
 
     # -- table ---------------------------------------------------------------------------
     def filtered(self):
@@ -161,6 +215,46 @@ class LotBrowser:
             + shown.to_html(escape=True, index=False, na_rep="", border=0,
                             classes="sb-table") + "</div>")
 
+    def row_of(self, key) -> Any:
+        """The table row label of a capture given by its sha256 (or a unique prefix of at
+        least 8 hex digits), its row label or its name.
+
+        Raises
+        ------
+        KeyError
+            No capture, or more than one, has that key; the message says which keys exist.
+        """
+        t = self.table
+        if key in t.index:
+            return key
+        text = str(key).strip()
+        if "sha256" in t.columns and len(text) >= 8:
+            sha = t["sha256"].astype(str).str.lower()
+            hits = t.index[sha.str.startswith(text.lower())]
+            if len(hits) == 1:
+                return hits[0]
+        hits = t.index[t["name"].astype(str) == text]
+        if len(hits) == 1:
+            return hits[0]
+        if len(hits) > 1:
+            raise KeyError(f"{len(hits)} captures are named {text!r}; select one by its sha256")
+        raise KeyError(f"no capture with sha256, row or name {text!r} in the lot table "
+                       f"({len(t)} captures, e.g. {', '.join(map(str, t['name'][:3]))})")
+
+    def pick(self, key, add: bool = False) -> Any:
+        """Select the capture ``key`` (sha256, row label or name) and redraw.
+
+        Also reachable as ``browser.select(key)``. The filters are cleared when they hide
+        that capture. ``add=True`` adds it to the current selection. Returns the row label.
+        """
+        row = self.row_of(key)
+        if row not in set(self.filtered().index):
+            self.name_filter.value = ""
+            self.status_filter.value = "all"
+        keep = tuple(v for v in self.select.value if v != row) if add else ()
+        self.select.value = (*keep, row)
+        return row
+
     # -- data ----------------------------------------------------------------------------
     def _method_for(self, cap) -> str:
         m = self.method.value
@@ -168,18 +262,47 @@ class LotBrowser:
             return m
         return "reflection" if cap.ports == 1 else "series-through"
 
+    def _key_of(self, row) -> tuple:
+        use_corr = self.corrected.value == "corrected" and self.correction is not None
+        return (row, self.method.value, use_corr, id(self.correction))
+
     def trace_of(self, row) -> kv.Trace:
         """The trace of a table row, as drawn now (raw or corrected, chosen method)."""
         from kit.io import folder
 
-        use_corr = self.corrected.value == "corrected" and self.correction is not None
-        key = (row, self.method.value, use_corr, id(self.correction))
+        key = self._key_of(row)
         if key not in self._cache:
             cap = folder.capture_of(self.table, row)
-            if use_corr:
+            if key[2]:
                 cap = self.correction(cap)
             self._cache[key] = kv.trace(cap, method=self._method_for(cap))
         return self._cache[key]
+
+    def _kept(self, key: tuple, make: Callable[[], Any]) -> Any:
+        """A computed curve from the cache (made and kept on the first call)."""
+        hit = self._curves.get(key)
+        if hit is None:
+            hit = self._curves[key] = make()
+            if len(self._curves) > _CACHE_SIZE:
+                self._curves.popitem(last=False)
+        else:
+            self._curves.move_to_end(key)
+        return hit
+
+    def _quantity(self, i: int, chart: str) -> Any:
+        t = self.traces[i]
+        return self._kept((self._keys[i], chart), lambda: kv.CHARTS[chart].quantity(t))
+
+    def _rect_xy(self, i: int, chart: str, span, cols: int):
+        t = self.traces[i]
+        return self._kept((self._keys[i], chart, span, cols), lambda: kv.xy_for_display(
+            t.f_hz, self._quantity(i, chart), cols, span))
+
+    def _plane_xy(self, i: int, kind: str, span, cols: int):
+        t = self.traces[i]
+        base = kind.split(":")[0]
+        return self._kept((self._keys[i], base, span, cols),
+                          lambda: kv.plane_xy(t, base, cols, span))
 
     def set_correction(self, correction: Callable | None) -> None:
         """Use another correction (callable Capture -> Capture) for the "corrected" view."""
@@ -223,52 +346,113 @@ class LotBrowser:
     def _plane_ax(self):
         return self._polar_ax if self.plane.value == "polar" else self.ax_plane
 
+    def _dynamic_artists(self) -> list[Any]:
+        return self.lines_rect + self.lines_plane + self.pin_artists
+
+    def _render(self) -> None:
+        """Show the figure: only what changed is drawn again (:attr:`layers`)."""
+        self.host.renders += 1
+        self.layers.render()
+
+    def _restyle(self, lines: list[Any]) -> None:
+        for i, ln in enumerate(lines):
+            c, ls = kv.style(i)
+            ln.set_color(c)
+            ln.set_linestyle(ls)
+
     def redraw(self, new_data: bool = False, new_grid: bool = False) -> None:
         """Bring the figure in line with the controls (called by every control)."""
         if new_data:
+            self._keys = [self._key_of(r) for r in self.select.value]
             self.traces = [self.trace_of(r) for r in self.select.value]
+        pax = self._plane_ax()
         if new_grid:
-            for ln in self.lines_plane:
-                ln.remove()
-            self.lines_plane = []
             self._draw_plane_grid()
+            if pax is not self._plane_ax():  # polar <-> cartesian: lines change axes
+                for ln in self.lines_plane:
+                    ln.remove()
+                self.lines_plane = []
+                pax = self._plane_ax()
+            self.layers.invalidate("plane")
+        elif (self.plane.value.startswith("smith") and self.traces
+              and self._signature.get("z0") != self.traces[0].z0_ohm):
+            self._draw_plane_grid()  # another reference impedance: other grid labels
         span = self.span_hz()
         chart = self.chart.value
-        pax = self._plane_ax()
         while len(self.lines_rect) > len(self.traces):
             self.lines_rect.pop().remove()
+        while len(self.lines_plane) > len(self.traces):
             self.lines_plane.pop().remove()
+        while len(self.lines_rect) < len(self.traces):
+            self.lines_rect += self.ax_rect.plot([], [], lw=1.3, animated=True)
+        while len(self.lines_plane) < len(self.traces):
+            self.lines_plane += pax.plot([], [], lw=1.4, zorder=3, animated=True)
+        self._restyle(self.lines_rect)
+        self._restyle(self.lines_plane)
+        cols_r, cols_p = kv.columns_of(self.ax_rect), kv.columns_of(pax)
         for i, t in enumerate(self.traces):
-            if i < len(self.lines_rect):
-                kv.update_line(self.lines_rect[i], t, chart, span_hz=span)
-                self.lines_rect[i].set_label(t.label)
-            else:
-                self.lines_rect += kv.plot_chart(self.ax_rect, t, chart, i=i, span_hz=span)
-            if i >= len(self.lines_plane):
-                self.lines_plane += pax.plot([], [], color=kv.color(i), lw=1.4, zorder=3,
-                                             label=t.label)
-            self.lines_plane[i].set_data(*kv.plane_xy(t, self.plane.value,
-                                                      kv.columns_of(pax), span))
-        kv.style_chart(self.ax_rect, chart)
+            self.lines_rect[i].set_data(*self._rect_xy(i, chart, span, cols_r))
+            self.lines_rect[i].set_label(t.label)
+            self.lines_plane[i].set_data(*self._plane_xy(i, self.plane.value, span, cols_p))
+        if self._signature.get("chart") != chart:
+            kv.style_chart(self.ax_rect, chart)
         self.ax_rect.set_xlim(*span)
         self._empty.set_visible(not self.traces)
-        self.ax_rect.relim(visible_only=True)
-        self.ax_rect.autoscale_view(scalex=False)
+        self._fit_y()
+        self._fit_plane(pax)
+        self._legend()
+        self._draw_pins()
+        self._note_changes(chart, pax)
+        self._show_status()
+        self._render()
+        for fn in self._listeners:
+            fn()
+
+    def _fit_y(self) -> None:
+        """y limits of the rectangular chart around the visible curves, then held (so that
+        pins and selection rectangles never rescale it)."""
+        ax = self.ax_rect
+        ax.set_autoscaley_on(True)
+        if self.traces:
+            ax.relim(visible_only=True)
+            ax.autoscale_view(scalex=False)
+        ax.set_ylim(ax.get_ylim())
+
+    def _fit_plane(self, pax) -> None:
         if self.plane.value == "circle" and self.traces:
-            self.ax_plane.relim()
-            self.ax_plane.autoscale_view()
+            pax.set_autoscale_on(True)
+            pax.relim()
+            pax.autoscale_view()
+            pax.set_xlim(pax.get_xlim())
+            pax.set_ylim(pax.get_ylim())
         if self.plane.value == "polar" and self.traces:
-            kv.fit_polar_radius(self._polar_ax, *(ln.get_ydata() for ln in self.lines_plane))
+            kv.fit_polar_radius(pax, *(ln.get_ydata() for ln in self.lines_plane))
+
+    def _legend(self) -> None:
+        """Legend outside the data, right of the chart; remade only when the names change."""
+        names = tuple(t.label for t in self.traces)
+        if names == self._signature.get("legend"):
+            return
         leg = self.ax_rect.get_legend()
         if leg is not None:
             leg.remove()
-        if 0 < len(self.traces) <= 12:
-            self.ax_rect.legend(fontsize=7, frameon=False, ncols=2 if len(self.traces) > 6 else 1)
-        self._draw_pins()
-        self._show_status()
-        self.host.refresh()
-        for fn in self._listeners:
-            fn()
+        if 0 < len(names) <= kv.LEGEND_MAX:
+            kv.legend_outside(self.ax_rect, self.lines_rect)
+        self._signature["legend"] = names
+
+    def _note_changes(self, chart: str, pax) -> None:
+        """Mark the band whose static parts changed (limits, scale, chart, legend)."""
+        rect = (chart, self.ax_rect.get_xlim(), self.ax_rect.get_ylim(),
+                self.ax_rect.get_yscale(), self._signature.get("legend"),
+                self._empty.get_visible())
+        if rect != self._signature.get("rect"):
+            self.layers.invalidate("rect")
+        lims = ((pax.get_ylim(),) if self.plane.value == "polar"
+                else (pax.get_xlim(), pax.get_ylim()))
+        plane = (self.plane.value, self.traces[0].z0_ohm if self.traces else 50.0, lims)
+        if plane != self._signature.get("plane"):
+            self.layers.invalidate("plane")
+        self._signature.update(rect=rect, plane=plane, chart=chart, z0=plane[1])
 
     # -- pins ----------------------------------------------------------------------------
     def on_change(self, fn: Callable[[], None]) -> None:
@@ -280,7 +464,7 @@ class LotBrowser:
         self.pins = list(readings)
         self._draw_pins()
         self._show_status()
-        self.host.refresh()
+        self._render()
 
     def _show_status(self) -> None:
         lo, hi = self.span.value  # as the slider reads them (MHz)
@@ -291,23 +475,26 @@ class LotBrowser:
             f'{k} pin{"s" * (k != 1)}</span>')
 
     def _draw_pins(self) -> None:
-        """Pins on both views, heads kept apart; their readings are in the pin panel's table,
-        never over the data."""
-        for a in self.pin_artists:
-            a.remove()
-        self.pin_artists = []
-        chart = kv.CHARTS[self.chart.value]
-        by_label = {t.label: t for t in self.traces}
+        """Pins on both views, heads kept apart, updated in place; their readings are in
+        the pin panel's table, never over the data."""
+        chart = self.chart.value
+        index = {t.label: i for i, t in enumerate(self.traces)}
         rect, plane = [], []
         for r in self.pins:
-            t = by_label.get(r["trace"])
-            if t is None:
+            i = index.get(r["trace"])
+            if i is None:
                 continue
-            rect.append((r["f_hz"], chart.quantity(t)[r["index"]], r["pin"]))
+            rect.append((r["f_hz"], self._quantity(i, chart)[r["index"]], r["pin"]))
             plane.append((*kv.plane_point(r, self.plane.value), r["pin"]))
-        if rect:
-            self.pin_artists += kv.draw_pins(self.ax_rect, rect)
-            self.pin_artists += kv.draw_pins(self._plane_ax(), plane)
+        pax = self._plane_ax()
+        if self._pins_plane and self._pins_plane[0].axes is not pax:
+            for a in self._pins_plane:
+                a.remove()
+            self._pins_plane = []
+        self._pins_rect = kv.update_pins(self.ax_rect, self._pins_rect, rect)
+        self._pins_plane = kv.update_pins(pax, self._pins_plane, plane)
+        self.pin_artists = self._pins_rect + self._pins_plane
+        self.layers.mark_dynamic(self.pin_artists)
 
     # -- span selection on the plot (ipympl only) -----------------------------------------
     def _add_span_selector(self) -> None:

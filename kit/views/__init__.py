@@ -39,11 +39,14 @@ from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.units import quantity, scale_for
 from kit.views.data import (
     CHARTS,
+    DASHES,
     PALETTE,
     Trace,
     color,
     group_delay_s,
     reciprocal,
+    style,
+    style_kw,
     trace,
 )
 from kit.views.pins import (
@@ -56,6 +59,7 @@ from kit.views.pins import (
     pins_table,
     plot_limits,
     reading_text,
+    update_pins,
     write_pins_csv,
 )
 from kit.views.smith import (
@@ -71,7 +75,8 @@ from kit.views.smith import (
 )
 
 __all__ = [
-    "CHARTS", "color", "columns_of", "db20", "draw_pin", "draw_pins", "find_pin",
+    "CHARTS", "color", "columns_of", "DASHES", "legend_outside", "LEGEND_MAX", "style",
+    "update_pins", "db20", "draw_pin", "draw_pins", "find_pin",
     "fit_polar_radius", "frame_return_loss", "frequency_axis", "gamma_from_z",
     "group_delay_s", "PIN_SEARCHES", "pin_reading", "pins_display", "pins_table", "overlay",
     "PALETTE", "plane_point", "plane_xy", "plot_admittance_circle", "plot_chart", "plot_fit",
@@ -146,7 +151,8 @@ def xy_for_display(f_hz: np.ndarray, values: np.ndarray, columns: int,
     v = np.asarray(values)
     sl = window(f, *(span_hz if span_hz is not None else (None, None)))
     f, v = f[sl], v[sl]
-    idx = minmax_indices(columns, v)
+    shown = sorted(map(float, span_hz)) if span_hz is not None else None
+    idx = minmax_indices(columns, v, x=f, x_range=shown) if f.size > 1 else np.arange(f.size)
     return f[idx].copy(), v[idx].copy()
 
 
@@ -183,7 +189,7 @@ def plot_chart(ax, t: Any, chart: str = "z_mag", i: int = 0, label: str | None =
         raise ValueError(f"unknown chart {chart!r}; choose one of {', '.join(CHARTS)}")
     c = CHARTS[chart]
     t = trace(t)
-    kw.setdefault("color", color(i))
+    style_kw(kw, i)
     kw.setdefault("lw", 1.3)
     arts = _line(ax, t.f_hz, c.quantity(t), columns, span_hz, label=label or t.label, **kw)
     style_chart(ax, chart)
@@ -192,9 +198,57 @@ def plot_chart(ax, t: Any, chart: str = "z_mag", i: int = 0, label: str | None =
     return arts
 
 
+#: Most traces named in a legend (beyond, the legend would be taller than the chart).
+LEGEND_MAX = 24
+
+
+def legend_outside(ax, handles=None, side: str = "right", **kw):
+    """A legend outside the axes' data area, so that it covers no curve and no caption.
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+    handles : list of artists, optional
+        Lines to name (default: the labelled lines of ``ax``).
+    side : {"right", "below"}
+        Right of the axes, top-aligned (one column up to 12 names, two beyond), or under
+        the axes, beneath its x label and any caption drawn under the data.
+    **kw
+        Further :meth:`matplotlib.axes.Axes.legend` arguments.
+
+    Returns
+    -------
+    matplotlib.legend.Legend or None
+        None when there is nothing to name.
+    """
+    if handles is None:
+        handles = [ln for ln in ax.get_lines() if not ln.get_label().startswith("_")]
+    handles = list(handles)
+    if not handles:
+        return None
+    kw.setdefault("fontsize", 7 if len(handles) <= 12 else 6)
+    kw.setdefault("frameon", False)
+    kw.setdefault("handlelength", 2.2)
+    if side == "right":
+        kw.setdefault("ncols", 1 if len(handles) <= 12 else 2)
+        kw.setdefault("loc", "upper left")
+        kw.setdefault("bbox_to_anchor", (1.01, 1.0))
+        kw.setdefault("borderaxespad", 0.0)
+    elif side == "below":
+        kw.setdefault("ncols", min(len(handles), 4))
+        kw.setdefault("loc", "upper center")
+        kw.setdefault("bbox_to_anchor", (0.5, -0.02))
+    else:
+        raise ValueError(f"side must be 'right' or 'below', got {side!r}")
+    kw.setdefault("columnspacing", 1.0)
+    return ax.legend(handles=handles, **kw)
+
+
 def style_chart(ax, chart: str) -> None:
-    """Axis labels (with units), scale and grid of a named rectangular chart."""
+    """Axis labels (with units), scale and grid of a named rectangular chart; the x range
+    fits the data without margins (zoomed to the data)."""
     c = CHARTS[chart]
+    ax.set_xmargin(0.0)
     frequency_axis(ax)
     ax.set_ylabel(c.ylabel)
     ax.set_yscale(c.yscale)
@@ -209,7 +263,8 @@ def update_line(line, t: Trace, chart: str, columns: int | None = None, span_hz=
 
 def overlay(ax, traces: Iterable[Any], chart: str = "z_mag", columns: int | None = None,
             span_hz=None, legend: bool = True, **kw) -> list[Any]:
-    """Draw many traces on one rectangular chart, one palette colour each.
+    """Draw many traces on one rectangular chart, each in its own style (:func:`style`),
+    named in a legend right of the axes (:func:`legend_outside`).
 
     Returns
     -------
@@ -219,8 +274,8 @@ def overlay(ax, traces: Iterable[Any], chart: str = "z_mag", columns: int | None
     arts: list[Any] = []
     for i, t in enumerate(traces):
         arts += plot_chart(ax, t, chart, i=i, columns=columns, span_hz=span_hz, **kw)
-    if legend and 0 < len(arts) <= 12:
-        ax.legend(fontsize=7, frameon=False, ncols=2 if len(arts) > 6 else 1)
+    if legend and 0 < len(arts) <= LEGEND_MAX:
+        legend_outside(ax, arts)
     return arts
 
 

@@ -15,13 +15,19 @@ import numpy as np
 
 from kit.network.coerce import name_of, sweep
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
+from kit.outputs.part_figure import PALETTE as OKABE_ITO
 from kit.units import to_unit
 
-#: Our trace colours, in order of use (deep teal, brick, violet, moss, ochre, slate, berry,
-#: umber). Chosen for contrast on white and between neighbours.
-PALETTE: tuple[str, ...] = (
-    "#1f6f78", "#c8553d", "#6a4c93", "#588b3a", "#d19a1f", "#2f4858", "#b0416b", "#7d6b5d",
-)
+#: Trace colours, in order of use: six of the eight colours of the Okabe-Ito palette
+#: (M. Okabe and K. Ito, "Color Universal Design (CUD): how to make figures and
+#: presentations that are friendly to colorblind people", J*FLY, 2008; the hex values as
+#: kept in :data:`kit.outputs.part_figure.PALETTE`). Black is left to pins and yellow
+#: is too faint on white for a thin line.
+PALETTE: tuple[str, ...] = tuple(OKABE_ITO[c] for c in (
+    "blue", "vermilion", "bluish green", "reddish purple", "orange", "sky blue"))
+#: Dash patterns crossed with the colours (matplotlib ``linestyle`` values): solid, dashed,
+#: dotted, dash-dot, long dash. ``len(PALETTE) * len(DASHES)`` traces (30) look different.
+DASHES: tuple[Any, ...] = ("-", (0, (5, 2)), (0, (1, 1.6)), (0, (6, 2, 1.5, 2)), (0, (11, 3)))
 #: Colours of the Smith chart grids, limit lines and pins.
 GRID_Z = "#c9bfb1"
 GRID_Y = "#9fc6cc"
@@ -30,10 +36,32 @@ PIN_COLOR = "#1d1d1d"
 
 
 def color(i: int) -> str:
-    """The i-th colour of :data:`PALETTE` (cycling)."""
-    return PALETTE[i % len(PALETTE)]
+    """The colour of the i-th trace (:func:`style`)."""
+    return style(i)[0]
 
 
+def style(i: int) -> tuple[str, Any]:
+    """(colour, line style) of the i-th trace: the colours of :data:`PALETTE` first, each
+    dash pattern of :data:`DASHES` in turn once the colours are used up, so that the first
+    ``len(PALETTE) * len(DASHES)`` traces (30) all differ; then the cycle repeats.
+
+    References
+    ----------
+    .. [1] Colour crossed with dash pattern to tell many lines apart without relying on
+       colour alone: common practice, no source.
+    """
+    i = int(i) % (len(PALETTE) * len(DASHES))
+    return PALETTE[i % len(PALETTE)], DASHES[i // len(PALETTE)]
+
+
+def style_kw(kw: dict, i: int) -> dict:
+    """Give line keyword arguments the colour and dash pattern of the i-th trace
+    (:func:`style`) where the caller set none; returns ``kw``."""
+    c, ls = style(i)
+    kw.setdefault("color", c)
+    if "ls" not in kw and "linestyle" not in kw:
+        kw["ls"] = ls
+    return kw
 
 
 def group_delay_s(f_hz: np.ndarray, s: np.ndarray) -> np.ndarray:

@@ -201,40 +201,83 @@ def draw_pins(ax, pins, **kw) -> list[Any]:
     :data:`HEAD_OFFSETS` at which its bounding box meets none of the heads already placed
     and stays inside the axes (a greedy search, common practice for label placement, no
     source); failing that the first free offset, and when none is free the last. The
-    figure's renderer measures the text, so the boxes are those drawn.
+    figure's renderer measures each head once; the box at another offset is the same box
+    moved by that offset. Draw with the axes limits already set.
     """
-    kw.setdefault("color", PIN_COLOR)
+    return update_pins(ax, [], pins, **kw)
+
+
+def _new_pin(ax, color: str, **kw) -> list[Any]:
+    """A dot and a head (annotation with a needle) to be placed by :func:`update_pins`."""
+    (dot,) = ax.plot([], [], marker="o", ms=5, mfc="white", mew=1.3, ls="none", zorder=5,
+                     color=color, **kw)
+    head = ax.annotate(
+        "", (0.0, 0.0), xytext=HEAD_OFFSETS[0], textcoords="offset points",
+        fontsize=7.5, color="white", ha="center", va="center", zorder=4.5,
+        bbox={"boxstyle": f"circle,pad={_HEAD_PAD}", "fc": color, "ec": color},
+        # no clipping of the needle at the head or the dot: both are drawn over its ends
+        arrowprops={"arrowstyle": "-", "color": color, "lw": 0.9, "patchA": None,
+                    "shrinkA": 0, "shrinkB": 0})
+    return [dot, head]
+
+
+def update_pins(ax, artists, pins, **kw) -> list[Any]:
+    """Move existing pin artists to new pins; make or remove artists only for a change in
+    their number (:func:`draw_pins` places the heads the same way).
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+    artists : list of matplotlib artists
+        [dot, head, dot, head, ...] from an earlier call (or []), all on ``ax``.
+    pins : iterable of (x, y, name)
+    **kw
+        Line properties of new dots (default colour :data:`PIN_COLOR`).
+
+    Returns
+    -------
+    list of matplotlib artists
+        [dot, head] per pin, reusing the given ones.
+    """
+    color = kw.pop("color", PIN_COLOR)
+    pins = list(pins)
+    arts = list(artists)
+    while len(arts) > 2 * len(pins):
+        arts.pop().remove()
+    while len(arts) < 2 * len(pins):
+        arts += _new_pin(ax, color, **kw)
+    if not pins:
+        return arts
     canvas = ax.figure.canvas
     renderer = (canvas.get_renderer() if hasattr(canvas, "get_renderer")
                 else ax.figure._get_renderer())  # a bare Figure: matplotlib's own renderer
-    placed: list[Any] = []
-    arts: list[Any] = []
-    pins = list(pins)
-    dots = [ax.plot([x], [y], marker="o", ms=5, mfc="white", mew=1.3, ls="none", zorder=5,
-                    **kw)[0] for x, y, _ in pins]
     ax.get_xlim(), ax.get_ylim()  # settle the view limits (autoscale) before measuring
-    for dot, (x, y, name) in zip(dots, pins):
-        head = ax.annotate(
-            str(name), (x, y), xytext=HEAD_OFFSETS[0], textcoords="offset points",
-            fontsize=7.5, color="white", ha="center", va="center", zorder=6,
-            bbox={"boxstyle": f"circle,pad={_HEAD_PAD}", "fc": kw["color"],
-                  "ec": kw["color"]},
-            arrowprops={"arrowstyle": "-", "color": kw["color"], "lw": 0.9,
-                        "shrinkA": 0, "shrinkB": 3})
-        frame = ax.get_window_extent(renderer)
-        free = None
+    frame = ax.get_window_extent(renderer)
+    scale = ax.figure.dpi / 72.0  # typographic points to pixels
+    placed: list[Any] = []
+    x0, y0 = HEAD_OFFSETS[0]
+    for k, (x, y, name) in enumerate(pins):
+        dot, head = arts[2 * k], arts[2 * k + 1]
+        dot.set_data([x], [y])
+        head.xy = (x, y)
+        head.set_text(str(name))
+        head.set_position(HEAD_OFFSETS[0])
+        first = _head_box(head, renderer)
+        free = chosen = None
         for offset in HEAD_OFFSETS:
-            head.set_position(offset)
-            box = _head_box(head, renderer)
+            box = first.translated((offset[0] - x0) * scale, (offset[1] - y0) * scale)
             if any(box.overlaps(b) for b in placed):
                 continue
-            free = free or offset
+            free = free or (offset, box)
             if frame.contains(box.x0, box.y0) and frame.contains(box.x1, box.y1):
-                break  # free and inside the axes
-        else:
-            head.set_position(free or HEAD_OFFSETS[-1])
-        placed.append(_head_box(head, renderer))
-        arts += [dot, head]
+                chosen = (offset, box)  # free and inside the axes
+                break
+        if chosen is None:
+            last = HEAD_OFFSETS[-1]
+            chosen = free or (last, first.translated((last[0] - x0) * scale,
+                                                     (last[1] - y0) * scale))
+        head.set_position(chosen[0])
+        placed.append(chosen[1])
     return arts
 
 

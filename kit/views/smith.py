@@ -11,7 +11,7 @@ import numpy as np
 
 from kit.outputs.decimate import columns_of, minmax_indices, window
 from kit.units import to_unit
-from kit.views.data import GRID_Y, GRID_Z, Trace, color, trace
+from kit.views.data import GRID_Y, GRID_Z, Trace, style_kw, trace
 
 #: Normalised resistance / reactance values of the grid (our choice of circles).
 GRID_VALUES: tuple[float, ...] = (0.2, 0.5, 1.0, 2.0, 5.0)
@@ -136,7 +136,7 @@ def plot_smith(ax, gamma_or_capture, label: str | None = None, i: int = 0,
     g, name = _gamma_of(gamma_or_capture)
     cols = columns or columns_of(ax)
     x, y = smith_xy(g, cols)
-    kw.setdefault("color", color(i))
+    style_kw(kw, i)
     kw.setdefault("lw", 1.4)
     return ax.plot(x, y, label=label or name, zorder=3, **kw)
 
@@ -150,7 +150,7 @@ def plot_polar(ax, gamma_or_capture, label: str | None = None, i: int = 0,
     list of matplotlib.lines.Line2D
     """
     g, name = _gamma_of(gamma_or_capture)
-    kw.setdefault("color", color(i))
+    style_kw(kw, i)
     arts = ax.plot(*_polar(*smith_xy(g, columns or columns_of(ax))), label=label or name, **kw)
     fit_polar_radius(ax, np.abs(g))
     ax.set_title("reflection coefficient, |Γ| [1] against angle [°]", fontsize=9)
@@ -195,7 +195,7 @@ def plot_admittance_circle(ax, y_or_capture, f_hz=None, span_hz=None, label: str
     if span_hz is not None and f is not None:
         f = np.asarray(f, float)
         y = y[(f >= span_hz[0]) & (f <= span_hz[1])]
-    kw.setdefault("color", color(i))
+    style_kw(kw, i)
     arts = ax.plot(*smith_xy(to_unit(y, "mS"), columns or columns_of(ax)), label=label or name,
                    **kw)
     style_admittance_circle(ax)

@@ -1,0 +1,166 @@
+"""Redraw only what changed: a figure's static parts kept as a picture, the rest blitted.
+
+A widget figure (lot browser) has parts that rarely change (Smith chart grid and its
+captions, axes, ticks, legend) and parts that change on every interaction (trace lines,
+pins). :class:`BlitLayers` keeps the pixels of the static parts after a full draw, and on
+an interaction restores them, draws only the changing ("dynamic") artists on top and hands
+the result to the canvas (:meth:`FigureCanvasBase.blit`; with ipympl the browser receives
+only the changed pixels). When the static parts of one vertical band of the figure change
+(new axis limits, another chart), only that band is cleared and drawn again.
+
+Dynamic artists are marked ``animated``: a full draw (a resize in the browser, a
+``draw_idle``) leaves them out of the kept background, and the ``draw_event`` handler draws
+them on top, so every path shows the same picture. Saving the figure (``savefig``) draws
+them as usual.
+
+References
+----------
+.. [1] Matplotlib developers, "Faster rendering by using blitting", Matplotlib 3.x user
+   guide (animated artists, ``copy_from_bbox``, ``restore_region``, ``draw_artist``,
+   ``blit``).
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable, Iterable
+
+#: How many times each kind of render ran (for tests and benchmarks).
+RENDER_KINDS = ("full", "band", "blit")
+
+
+class BlitLayers:
+    """Static background kept as pixels; dynamic artists drawn over it on each render.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        A figure on an Agg-based canvas (Agg, ipympl). Other canvases fall back to
+        ``fallback`` (or ``draw_idle``) on every render.
+    dynamic : callable
+        Returns the dynamic artists at this moment (trace lines, pins...).
+    fallback : callable, optional
+        Called instead of blitting when the canvas cannot blit (e.g. a PNG host).
+
+    Attributes
+    ----------
+    counts : dict of str -> int
+        Renders by kind: "full" (whole figure), "band" (one band redrawn), "blit"
+        (dynamic artists only).
+    """
+
+    def __init__(self, fig, dynamic: Callable[[], Iterable[Any]],
+                 fallback: Callable[[], None] | None = None) -> None:
+        from matplotlib.patches import Rectangle
+
+        self.fig = fig
+        self.dynamic = dynamic
+        self.fallback = fallback
+        self.bands: dict[str, tuple[float, float, Callable[[], list[Any]]]] = {}
+        self._dirty: set[str] = set()
+        self._bg = None
+        self._bg_size: tuple[int, int] | None = None
+        self._full = True
+        self.counts = dict.fromkeys(RENDER_KINDS, 0)
+        self._blank = Rectangle((0, 0), 1, 1, transform=fig.transFigure, lw=0,
+                                antialiased=False)
+        self._blank.set_figure(fig)
+        self._cid = None
+        if self.can_blit:
+            self._cid = fig.canvas.mpl_connect("draw_event", self._on_draw)
+
+    @property
+    def can_blit(self) -> bool:
+        """The canvas can copy and restore regions (an Agg canvas)."""
+        c = self.fig.canvas
+        return hasattr(c, "copy_from_bbox") and hasattr(c, "restore_region")
+
+    def add_band(self, name: str, x0: float, x1: float, axes: Callable[[], list[Any]]) -> None:
+        """A vertical band of the figure, ``x0`` to ``x1`` in figure fractions, whose
+        static parts are the axes ``axes()`` returns (only visible ones are drawn). Bands
+        must not overlap, and each axes must draw inside its band."""
+        self.bands[name] = (float(x0), float(x1), axes)
+
+    def invalidate(self, band: str | None = None) -> None:
+        """The static parts of ``band`` (of the whole figure when None) have changed."""
+        if band is None:
+            self._full = True
+        else:
+            self._dirty.add(band)
+
+    def mark_dynamic(self, artists: Iterable[Any]) -> None:
+        """Mark artists as dynamic (left out of the kept background)."""
+        for a in artists:
+            a.set_animated(True)
+
+    def _ordered(self) -> list[Any]:
+        arts = [a for a in self.dynamic() if a.get_visible()
+                and (a.axes is None or a.axes.get_visible())]
+        return sorted(arts, key=lambda a: a.get_zorder())
+
+    def _draw_dynamic(self, renderer) -> None:
+        for a in self._ordered():
+            a.draw(renderer)
+
+    def _on_draw(self, event) -> None:
+        """After a full draw (any cause): keep the background, then draw dynamic artists."""
+        canvas = self.fig.canvas
+        if event is not None and event.canvas is not canvas:
+            return
+        if getattr(canvas, "is_saving", lambda: False)():
+            return  # savefig draws the animated artists itself
+        renderer = canvas.get_renderer()
+        self._bg = canvas.copy_from_bbox(self.fig.bbox)
+        self._bg_size = canvas.get_width_height(physical=True)
+        self._full = False
+        self._dirty.clear()
+        self._draw_dynamic(renderer)
+
+    def render(self) -> str:
+        """Bring the canvas up to date with the least drawing; returns the kind of render."""
+        canvas = self.fig.canvas
+        if not self.can_blit:
+            (self.fallback or canvas.draw_idle)()
+            self.counts["full"] += 1
+            return "full"
+        if getattr(canvas, "syncing_data_url", False):
+            # an ipympl canvas whose page has not connected yet: it asks for a full frame
+            # when it does, so a request is enough (drawing now would send pixels to no one)
+            canvas.draw_idle()
+            self.counts["full"] += 1
+            return "full"
+        if (self._full or self._bg is None
+                or self._bg_size != canvas.get_width_height(physical=True)):
+            self.counts["full"] += 1
+            canvas.draw()  # -> _on_draw
+            return "full"
+        renderer = canvas.get_renderer()
+        canvas.restore_region(self._bg)
+        kind = "blit"
+        if self._dirty:
+            kind = "band"
+            for name in sorted(self._dirty):
+                x0, x1, axes = self.bands[name]
+                self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
+                self._blank.set_facecolor(self.fig.get_facecolor())
+                self._blank.draw(renderer)
+                for ax in axes():
+                    if ax.get_visible():
+                        ax.draw(renderer)  # animated children are left out
+            self._dirty.clear()
+            self._bg = canvas.copy_from_bbox(self.fig.bbox)
+        self._draw_dynamic(renderer)
+        canvas.blit(self.fig.bbox)
+        # the picture is current: a figure left "stale" would be drawn again in full by
+        # pyplot's draw-all hook, which IPython runs after every widget message
+        self.fig.stale = False
+        self.counts[kind] += 1
+        return kind
+
+    def disconnect(self) -> None:
+        """Stop following the canvas's draws."""
+        if self._cid is not None:
+            self.fig.canvas.mpl_disconnect(self._cid)
+            self._cid = None
+
+
+__all__ = ["BlitLayers", "RENDER_KINDS"]
