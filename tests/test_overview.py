@@ -232,7 +232,7 @@ def test_pick_without_browser_and_filtered_rows(summary, limits, lot):
     browser.name_filter.value = "pzd7-1"
     open_in_browser(browser, summary["sha256"].iloc[3])
     assert _selected(browser) == (lot.index[3],)
-    with pytest.raises(KeyError, match="not in the lot browser"):
+    with pytest.raises(KeyError, match="no capture with sha256"):
         open_in_browser(browser, "no-such-capture")
 
 

@@ -31,52 +31,18 @@ _SCATTER_BOX = (0.10, 0.13, 0.39, 0.66)
 _HIST_BOX = (0.59, 0.13, 0.39, 0.66)
 
 
-def _selection_widget(browser):
-    """The browser's capture selection (the one ``SelectMultiple`` among its handles)."""
-    import ipywidgets as w
-
-    for value in vars(browser).values():
-        if isinstance(value, w.SelectMultiple):
-            return value
-    raise TypeError(f"{type(browser).__name__} has no capture selection to set; give a "
-                    "kit.ui.lot_browser.LotBrowser as browser")
-
-
-def _row_of(table, key: str):
-    """The row label of ``table`` whose sha256, name or label is ``key`` (None when none)."""
-    for col in ("sha256", "name"):
-        if col in table.columns:
-            hits = table.index[table[col].astype(str) == str(key)]
-            if len(hits):
-                return hits[0]
-    return key if key in table.index else None
-
-
 def open_in_browser(browser, key: str) -> None:
     """Select the capture ``key`` (its sha256, name or row label) in a lot browser.
 
-    Uses ``browser.select(key)`` where the browser has that method. Otherwise (a browser
-    from before that method) it sets the selection widget itself, clearing the filters
-    first when they hide the row; the browser then redraws through its own observer.
+    The browser does it (:meth:`kit.ui.lot_browser.LotBrowser.pick`: filters that hide the
+    row are cleared, the figure redrawn).
 
     Raises
     ------
     KeyError
         When no row of the browser's table has that sha256, name or label.
     """
-    method = getattr(type(browser), "select", None)
-    if callable(method):
-        browser.select(key)
-        return
-    row = _row_of(browser.table, key)
-    if row is None:
-        raise KeyError(f"capture {key!r} is not in the lot browser's folder; open the browser "
-                       "on the folder the summary was made from")
-    sel = _selection_widget(browser)
-    if row not in {v for _, v in sel.options}:
-        browser.name_filter.value = ""
-        browser.status_filter.value = "all"
-    sel.value = (row,)
+    browser.pick(key)
 
 
 class LotOverview:
