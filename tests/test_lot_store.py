@@ -231,7 +231,7 @@ def test_pictures_are_drawn_in_the_workers_for_parts_not_passed(lot, tmp_path):
     assert all(png.startswith(PNG_SIGNATURE) for png in res.pictures.values())
     assert set(res.traces) == set(s.loc[s["status"] == "ok", "sha256"])
     f, y = next(iter(res.traces.values()))
-    assert len(f) == len(y) <= 256 and (f[1:] > f[:-1]).all()
+    assert len(f) == len(y) < 1601 and (f[1:] >= f[:-1]).all()  # decimated, in order
     every = run(proc, d, workers=1, use_cache=False, figures="all")
     assert set(every.pictures) == set(res.traces)
     assert run(proc, d, workers=1, use_cache=False, figures="none").pictures == {}

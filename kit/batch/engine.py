@@ -491,10 +491,18 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
              "lot_store": lot.get("status"), "lot_key": lot.get("key")}
     record = None
     if lot.get("key"):
-        record = lot["store"].put(lot["key"], summary=summ, fits=[_to_store(f) for f in fits],
-                                  resonances=[_to_store(r) for r in resonances],
-                                  failures=failures, pictures=pictures, traces=traces,
-                                  stats=stats)
+        try:
+            record = lot["store"].put(lot["key"], summary=summ, fits=[_to_store(f) for f in fits],
+                                      resonances=[_to_store(r) for r in resonances],
+                                      failures=failures, pictures=pictures, traces=traces,
+                                      stats=stats)
+        except (OSError, TypeError, ValueError) as exc:  # the run stands without its record
+            import warnings
+
+            from kit.batch.lot_store import LotStoreWarning
+
+            warnings.warn(f"the lot could not be stored in {cdir} ({type(exc).__name__}: {exc}); "
+                          "a re-run will analyse it again", LotStoreWarning, stacklevel=2)
     return BatchResult(summary=summ, captures=captures, corrected=corrected, fits=fits,
                        resonances=resonances, stats=stats, procedure=proc, pictures=pictures,
                        traces=traces, lot=record)

@@ -295,10 +295,13 @@ class LotStore:
         return rec
 
     def prune(self, keep: str | None = None) -> list[str]:
-        """Remove the least recently used records beyond :data:`MAX_RECORDS` or :data:`MAX_BYTES`."""
+        """Remove the least recently used records beyond :data:`MAX_RECORDS` or :data:`MAX_BYTES`,
+        and temporary folders more than an hour old (left by an interrupted write)."""
         recs = []
         for p in self.root.iterdir():
-            if p.is_dir() and not p.name.startswith("."):
+            if p.name.startswith(".") and time.time() - p.stat().st_mtime > 3600:
+                shutil.rmtree(p, ignore_errors=True)  # left by an interrupted write
+            elif p.is_dir() and not p.name.startswith("."):
                 size = sum(f.stat().st_size for f in p.rglob("*") if f.is_file())
                 recs.append((p.stat().st_mtime, p, size))
         recs.sort(reverse=True)  # newest first
