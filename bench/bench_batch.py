@@ -10,7 +10,7 @@ a. the whole run with the report and the default figures against the same with
 b. the re-run over the unchanged folder, end to end (the lot store), against the first
    run (goal: at least 20x faster);
 c. the analysis (``kit.batch.run``, figures included, no cache) on two workers against one
-   (goal: at least 1.8x);
+   (goal: at least 1.8x; each measured twice, alternately, and the faster kept);
 
 then the hashing of the inputs, the bare parse, the memory of N captures, and the time
 projected for 1,000,000 captures on 64 Dask workers.
@@ -107,9 +107,19 @@ def main(n: int = 1000) -> None:
         same = all((tmp / "out-a" / f).read_bytes() == (tmp / "out-c" / f).read_bytes()
                    for f in ("sweeps.parquet", "summary.parquet"))
         p = Procedure.from_file(proc)
-        t_one, r1 = timed(lambda: run(p, lot, workers=1, use_cache=False))
-        t_two, r2 = timed(lambda: run(p, lot, workers=2, use_cache=False))
+        # c: alternated twice, the best of each kept (other work on a shared machine only
+        # ever slows a run down)
+        ones, twos = [], []
+        for _ in range(2):
+            ones.append(timed(lambda: run(p, lot, workers=1, use_cache=False)))
+            twos.append(timed(lambda: run(p, lot, workers=2, use_cache=False)))
+        (t_one, r1), (t_two, r2) = min(ones, key=lambda x: x[0]), min(twos, key=lambda x: x[0])
         assert r1.summary[["capture", "fs_hz"]].equals(r2.summary[["capture", "fs_hz"]])
+        # the report's own cost: report.html from the analysed lot, best of 2
+        from kit.batch.engine import _write_report
+
+        t_html = min(timed(lambda: _write_report(r2, tmp / "report.html", r2.summary, None,
+                                                 "flagged"))[0] for _ in range(2))
         t_hash, _ = timed(lambda: [hashlib.sha256(f.read_bytes()).hexdigest() for f in files])
         t_parse, _ = timed(lambda: [kit.load(f) for f in files])
         size = sum(f.stat().st_size for f in (tmp / "out-a").iterdir())
@@ -119,12 +129,13 @@ def main(n: int = 1000) -> None:
               f"(load average {load:.1f} on {os.cpu_count()} CPUs at the end)")
         print(f"  a. with the report (default figures: {len(r2.pictures)} pictures, "
               f"{len(r2.traces)} traces): {t_report:.2f} s; --no-report: {t_bare:.2f} s; "
-              f"ratio {t_report / t_bare:.2f}x (goal <= 1.3)")
+              f"ratio {t_report / t_bare:.2f}x (goal <= 1.3); report.html alone "
+              f"{t_html:.2f} s, that is {(t_bare + t_html) / t_bare:.2f}x of the --no-report run")
         print(f"  b. re-run over the unchanged folder: {t_again:.2f} s against {t_report:.2f} s: "
               f"{t_report / t_again:.1f}x faster (goal >= 20); same files: {same}; "
               f"outputs {size / 1e6:.0f} MB")
-        print(f"  c. analysis (kit.batch.run, figures, no cache): 1 worker {t_one:.2f} s, "
-              f"2 workers {t_two:.2f} s: {t_one / t_two:.2f}x (goal >= 1.8)")
+        print(f"  c. analysis (kit.batch.run, figures, no cache; best of 2): 1 worker "
+              f"{t_one:.2f} s, 2 workers {t_two:.2f} s: {t_one / t_two:.2f}x (goal >= 1.8)")
         print(f"  hashing the {n} inputs (hashlib, each read in one go): {t_hash * 1e3:.0f} ms "
               f"({t_hash / n * 1e6:.0f} us each); bare parse (kit.load): {t_parse:.2f} s "
               f"({t_parse / n * 1e3:.1f} ms each)")
