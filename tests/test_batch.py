@@ -118,6 +118,8 @@ def test_cache_hits_changed_files_and_damaged_entries(lot, tmp_path):
     cache = tmp_path / "cache"
     first = run(proc, d, workers=1, cache_dir=cache)
     assert first.stats["miss"] == 4 and first.stats["hit"] == 0
+    assert first.stats["lot_store"] == "miss"
+    shutil.rmtree(cache / "lots")  # without the whole-lot record: the per-capture entries
     second = run(proc, d, workers=1, cache_dir=cache)
     assert second.stats["hit"] == 4 and second.stats["results_reused"] == 4
     pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
@@ -207,10 +209,14 @@ def test_a_failed_step_is_a_failure_record_and_survives_the_cache(lot, tmp_path,
     fails = [f for f in first.fits if f is not None]
     assert all(isinstance(f, Failure) and f.step == "fit" and not f.ok for f in fails)
     assert len(fails) == 4 and Failure.from_dict(fails[0].to_dict()) == fails[0]
-    second = run(proc, d, workers=1, cache_dir=tmp_path / "cache")
+    whole = run(proc, d, workers=1, cache_dir=tmp_path / "cache")  # the lot record
+    assert whole.stats["lot_store"] == "hit" and [f for f in whole.fits if f is not None] == fails
+    shutil.rmtree(tmp_path / "cache" / "lots")
+    second = run(proc, d, workers=1, cache_dir=tmp_path / "cache")  # the per-capture entries
     assert second.stats["results_reused"] == 4
     assert [f for f in second.fits if f is not None] == fails
     pd.testing.assert_frame_equal(first.summary[KEY], second.summary[KEY])
+    pd.testing.assert_frame_equal(first.summary, whole.summary)
     bad = first.summary[first.summary["status"] == "error"].iloc[0]
     assert "truncated" in bad["error"] and isinstance(first.captures[-1], Exception)
 

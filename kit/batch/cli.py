@@ -159,12 +159,14 @@ def _run_cmd(args: argparse.Namespace) -> int:
         n = len(problems) + bool(why)
         print(f"sweepbook run: {n} problem(s); nothing was run; exit code 2", file=sys.stderr)
         return 2
+    with_report = not (args.no_report or args.summary_only)
+    figures = args.figures if with_report else "none"  # no picture that no report shows
     try:
         result = run(args.procedure, args.inputs, workers=args.workers, scheduler=args.scheduler,
                      cache_dir=args.cache, use_cache=not args.no_cache,
-                     keep_captures=not args.summary_only, figures=args.figures)
-        out = result.write(args.out, report=not (args.no_report or args.summary_only),
-                           review_log=args.review_log, figures=args.figures)
+                     keep_captures=not args.summary_only, figures=figures)
+        out = result.write(args.out, report=with_report, review_log=args.review_log,
+                           figures=figures)
     except (CaptureError, ValueError, OSError) as exc:
         print(f"sweepbook run: {exc}", file=sys.stderr)
         return 2

@@ -34,16 +34,21 @@ def as_created(path: str | os.PathLike, folder: bool = False) -> None:
     os.chmod(path, (0o777 if folder else 0o666) & ~current_umask())
 
 
-def write_bytes(path: str | os.PathLike, data: bytes) -> Path:
-    """Write ``data`` to ``path`` atomically (the folder is created if needed)."""
+def write_bytes(path: str | os.PathLike, data: bytes, durable: bool = True) -> Path:
+    """Write ``data`` to ``path`` atomically (the folder is created if needed).
+
+    ``durable=False`` skips the flush to disk (``fsync``): the file is still whole or absent,
+    but a power cut may lose it. Only for files that can be made again (cache entries).
+    """
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
+            if durable:
+                fh.flush()
+                os.fsync(fh.fileno())
         as_created(tmp)
         os.replace(tmp, path)
     except BaseException:
@@ -53,6 +58,6 @@ def write_bytes(path: str | os.PathLike, data: bytes) -> Path:
     return path
 
 
-def write_text(path: str | os.PathLike, text: str) -> Path:
-    """Write UTF-8 text with ``\\n`` line ends to ``path`` atomically."""
-    return write_bytes(path, text.encode("utf-8"))
+def write_text(path: str | os.PathLike, text: str, durable: bool = True) -> Path:
+    """Write UTF-8 text with ``\\n`` line ends to ``path`` atomically (see :func:`write_bytes`)."""
+    return write_bytes(path, text.encode("utf-8"), durable)

@@ -67,7 +67,8 @@ def header_meta(scan: Scan, network=None) -> dict[str, Any]:
     return meta
 
 
-def load(path: str | Path, name_pattern: str | None = None) -> Capture:
+def load(path: str | Path, name_pattern: str | None = None, data: bytes | None = None,
+         sha256: str | None = None) -> Capture:
     """Read one Touchstone file into a :class:`~kit.capture.Capture`.
 
     Parameters
@@ -77,6 +78,9 @@ def load(path: str | Path, name_pattern: str | None = None) -> Capture:
     name_pattern : str, optional
         A file-name pattern such as ``"{lot}-{serial}"`` or ``"{mode}_{temperature_c}C"``;
         matched against the file stem, fields land in ``meta["fields"]``.
+    data, sha256 : bytes and str, optional
+        The file's bytes and their SHA-256 when the caller has them already (the cache of
+        parsed captures): the file is then neither read nor hashed again.
 
     Returns
     -------
@@ -94,7 +98,7 @@ def load(path: str | Path, name_pattern: str | None = None) -> Capture:
     .. [1] IBIS Open Forum, *Touchstone File Format Specification*, Version 2.0 (2009).
     """
     path = Path(path)
-    data = read_bytes(path)
+    data = read_bytes(path) if data is None else data
     scan, network = examine(data, path)
     errors = [f for f in scan.findings if f.severity == "error"]
     if errors:
@@ -111,7 +115,9 @@ def load(path: str | Path, name_pattern: str | None = None) -> Capture:
     else:
         meta["fields"] = {}
     meta["name_pattern"] = name_pattern
-    return Capture(network=network, path=path, sha256=hashlib.sha256(data).hexdigest(),
+    if sha256 is None:
+        sha256 = hashlib.sha256(data).hexdigest()
+    return Capture(network=network, path=path, sha256=sha256,
                    meta=meta, findings=tuple(findings))
 
 

@@ -24,6 +24,7 @@ import tempfile
 from collections.abc import Mapping
 from datetime import datetime, timezone
 from pathlib import Path
+from types import SimpleNamespace
 from typing import Any
 
 import numpy as np
@@ -34,7 +35,8 @@ from kit.io.writer import ExportError, kit_version, refuse_input_folder
 from kit.outputs.entries import as_list, lookup
 from kit.outputs.tidy import tidy
 
-__all__ = ["EXPORT_FORMAT", "EXPORT_VERSION", "export", "recover_interrupted", "write_table"]
+__all__ = ["EXPORT_FORMAT", "EXPORT_VERSION", "StoredOutputError", "export", "recover_interrupted",
+           "write_table"]
 
 EXPORT_FORMAT = "sweepbook-export"
 EXPORT_VERSION = 1
@@ -116,12 +118,9 @@ def _is_previous_export(folder: Path) -> bool:
         return False
 
 
-def _provenance(caps: list[Any], real: list[Capture], corrected: Any, settings: Any,
-                review_log: Any, tables: dict[str, Any]) -> dict[str, Any]:
+def _described(caps: list[Any], real: list[Capture], corrected: Any) -> dict[str, Any]:
+    """The provenance of the captures themselves: inputs, refused files, corrections."""
     return {
-        "format": EXPORT_FORMAT, "version": EXPORT_VERSION,
-        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
-        "kit_version": kit_version(), "versions": _versions(),
         "inputs": [{"capture": c.name, "path": None if c.path is None else str(c.path),
                     "sha256": c.sha256, "ports": c.ports, "points": c.points,
                     "corrections": _jsonable(list(c.provenance)),
@@ -129,6 +128,34 @@ def _provenance(caps: list[Any], real: list[Capture], corrected: Any, settings: 
         "refused": [{"path": getattr(c, "path", None), "error": str(c)}
                     for c in caps if isinstance(c, BaseException)],
         "corrected": _corrected_info(real, corrected),
+    }
+
+
+class StoredOutputError(ValueError):
+    """A stored output file did not match its recorded size or SHA-256 while being copied."""
+
+
+def _copy_stored(stored: Mapping[str, Any], folder: Path) -> dict[str, Any]:
+    """Copy stored table files into ``folder``, checking every byte against their SHA-256."""
+    for name, f in stored["files"].items():
+        h = hashlib.sha256()
+        with open(f["path"], "rb") as src, open(folder / name, "wb") as dst:
+            while piece := src.read(16 * 1024**2):
+                h.update(piece)
+                dst.write(piece)
+        if h.hexdigest() != f["sha256"]:
+            raise StoredOutputError(f"stored {name} does not match its SHA-256")
+    return dict(stored["tables"]["sweeps"])
+
+
+def _provenance(described: Mapping[str, Any], settings: Any, review_log: Any,
+                tables: dict[str, Any]) -> dict[str, Any]:
+    return {
+        "format": EXPORT_FORMAT, "version": EXPORT_VERSION,
+        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "kit_version": kit_version(), "versions": _versions(),
+        "inputs": described["inputs"], "refused": described["refused"],
+        "corrected": described["corrected"],
         "settings": _jsonable(dict(settings or {})),
         # a file path, or the server URL without password (kit.review.server.safe_url)
         "review_log": None if review_log is None else review_log.location,
@@ -138,7 +165,7 @@ def _provenance(caps: list[Any], real: list[Capture], corrected: Any, settings: 
 
 def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
            review_log: Any = None, settings: Mapping[str, Any] | None = None,
-           corrected: Any = None) -> Path:
+           corrected: Any = None, stored: Mapping[str, Any] | None = None) -> Path:
     """Write the lot's tables as Parquet and CSV, with a provenance JSON.
 
     Files: ``sweeps.*`` (see :func:`kit.tidy`), ``summary.*`` (the given table, else
@@ -151,6 +178,11 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
     place, so an interrupted export leaves the previous complete one untouched. A
     non-empty ``out_dir`` that is not a sweepbook export is never replaced.
 
+    ``stored`` (from :meth:`kit.batch.lot_store.LotRecord.export_part`) gives the sweeps
+    files and the captures' provenance of an earlier export of the same lot: they are copied
+    (every byte checked against its SHA-256) instead of being made from ``captures``, which
+    may then be empty.
+
     Returns
     -------
     Path
@@ -160,6 +192,8 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
     ------
     ExportError
         If ``out_dir`` is a folder of input captures, a file, or a foreign folder.
+    StoredOutputError
+        If a ``stored`` file does not match its SHA-256 (nothing is written then).
     """
     from kit.outputs.summary import summary as lot_summary
     from kit.review.log import as_review_log
@@ -168,7 +202,9 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
     out = Path(out_dir)
     caps = as_list(captures)
     real = [c for c in caps if isinstance(c, Capture)]
-    refuse_input_folder(out / "provenance.json", real, "the export")
+    described = dict(stored) if stored is not None else _described(caps, real, corrected)
+    from_files = [SimpleNamespace(path=d["path"]) for d in described["inputs"] if d["path"]]
+    refuse_input_folder(out / "provenance.json", real + from_files, "the export")
     if out.exists() and not out.is_dir():
         raise ExportError(f"{out} is a file; give a folder for the export")
     if out.is_dir() and any(out.iterdir()) and not _is_previous_export(out):
@@ -179,12 +215,13 @@ def export(out_dir: str | os.PathLike, captures: Any, summary: Any = None,
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.new-", dir=out.parent))
     as_created(tmp, folder=True)
     try:
-        tables = {"sweeps": write_table(tidy(real, corrected=corrected), tmp, "sweeps")}
+        tables = {"sweeps": (_copy_stored(stored, tmp) if stored is not None else
+                             write_table(tidy(real, corrected=corrected), tmp, "sweeps"))}
         summ = summary if summary is not None else lot_summary(caps, review_log=review_log)
         tables["summary"] = write_table(summ, tmp, "summary")
         if review_log is not None:
             tables["events"] = write_table(review_log.events(), tmp, "events")
-        prov = _provenance(caps, real, corrected, settings, review_log, tables)
+        prov = _provenance(described, settings, review_log, tables)
         text = json.dumps(prov, indent=2, ensure_ascii=False, allow_nan=False)
         (tmp / "provenance.json").write_text(text + "\n", encoding="utf-8")
         _swap_into_place(tmp, out)
