@@ -237,13 +237,13 @@ def _figures(out: dict[str, Any], judged: Any, figures: str, limits: Any) -> Non
         return
     from kit.outputs.part_figure import PartPainter, needs_figure
 
-    if not _PAINTER:
-        _PAINTER.append(PartPainter())
-    painter = _PAINTER[0]
-    out["trace"] = painter.trace(judged)
+    out["trace"] = PartPainter.trace(judged)
     if needs_figure(out["row"], figures):
+        # the figure (and matplotlib, about 0.6 s to import) only in a worker that draws
+        if not _PAINTER:
+            _PAINTER.append(PartPainter())
         fit, res = out["fit"], out["resonance"]
-        out["picture"] = painter.png(judged, limits=limits,
+        out["picture"] = _PAINTER[0].png(judged, limits=limits,
                                      fit=fit if isinstance(fit, dict) else None,
                                      resonance=res if isinstance(res, dict) else None)
 
