@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import shutil
 from pathlib import Path
 
 import pytest
@@ -91,3 +92,33 @@ def new_target(request, tmp_path):
 
     make.backend = request.param
     return make
+
+
+@pytest.fixture
+def batch_lot(tmp_path, demo_dir):
+    """Part of the demo lot (two good parts, the cracked 04 and the de-poled 07 of the demo's
+    truth.json), a truncated file, the standards and an OSL + BVD fit + limits procedure:
+    (folder, lot folder, procedure file)."""
+    d = tmp_path / "lot"
+    d.mkdir()
+    for n in ("01", "02", "04", "07"):
+        shutil.copy(demo_dir / "lot" / f"pzd7-{n}.s1p", d)
+    (d / "pzd7-99.s1p").write_text("# Hz S RI R 50\n1e6 0.1\n")  # truncated
+    shutil.copytree(demo_dir / "standards", tmp_path / "standards")
+    proc = tmp_path / "proc.toml"
+    proc.write_text("""
+[import]
+name_pattern = "{lot}-{serial}"
+[[correction]]
+kind = "osl"
+open = "standards/open.s1p"
+short = "standards/short.s1p"
+load = "standards/load.s1p"
+[fit]
+model = "bvd"
+span_hz = [1.6e6, 2.4e6]
+[limits]
+fs_hz = { min = 1.8e6, max = 1.9e6 }
+k_eff = { min = 0.3 }
+""")
+    return tmp_path, d, proc

@@ -21,31 +21,9 @@ REQUIRED = ["capture", "path", "sha256", "status", "error", "fs_hz", "fp_hz", "f
 
 
 @pytest.fixture
-def lot(tmp_path, demo_dir):
-    """A copy of part of the demo lot, its standards, a broken file and a procedure file."""
-    d = tmp_path / "lot"
-    d.mkdir()
-    for n in ("01", "02", "04", "07"):
-        shutil.copy(demo_dir / "lot" / f"pzd7-{n}.s1p", d)
-    (d / "pzd7-99.s1p").write_text("# Hz S RI R 50\n1e6 0.1\n")  # truncated
-    shutil.copytree(demo_dir / "standards", tmp_path / "standards")
-    proc = tmp_path / "proc.toml"
-    proc.write_text("""
-[import]
-name_pattern = "{lot}-{serial}"
-[[correction]]
-kind = "osl"
-open = "standards/open.s1p"
-short = "standards/short.s1p"
-load = "standards/load.s1p"
-[fit]
-model = "bvd"
-span_hz = [1.6e6, 2.4e6]
-[limits]
-fs_hz = { min = 1.8e6, max = 1.9e6 }
-k_eff = { min = 0.3 }
-""")
-    return tmp_path, d, proc
+def lot(batch_lot):
+    """The shared small lot of tests/conftest.py (``batch_lot``)."""
+    return batch_lot
 
 
 def test_bad_file_is_an_error_row_and_the_rest_completes(lot):

@@ -4,7 +4,6 @@ parsed-capture cache reading each file once (kit.io.cache)."""
 from __future__ import annotations
 
 import json
-import shutil
 
 import pandas as pd
 import pytest
@@ -27,32 +26,9 @@ def plain(results: list) -> str:
 
 
 @pytest.fixture
-def lot(tmp_path, demo_dir):
-    """Part of the demo lot (two good parts, the cracked 04 and de-poled 07 of the demo's
-    truth.json), a truncated file, its standards and an OSL + BVD fit + limits procedure."""
-    d = tmp_path / "lot"
-    d.mkdir()
-    for n in ("01", "02", "04", "07"):
-        shutil.copy(demo_dir / "lot" / f"pzd7-{n}.s1p", d)
-    (d / "pzd7-99.s1p").write_text("# Hz S RI R 50\n1e6 0.1\n")  # truncated
-    shutil.copytree(demo_dir / "standards", tmp_path / "standards")
-    proc = tmp_path / "proc.toml"
-    proc.write_text("""
-[import]
-name_pattern = "{lot}-{serial}"
-[[correction]]
-kind = "osl"
-open = "standards/open.s1p"
-short = "standards/short.s1p"
-load = "standards/load.s1p"
-[fit]
-model = "bvd"
-span_hz = [1.6e6, 2.4e6]
-[limits]
-fs_hz = { min = 1.8e6, max = 1.9e6 }
-k_eff = { min = 0.3 }
-""")
-    return tmp_path, d, proc
+def lot(batch_lot):
+    """The shared small lot of tests/conftest.py (``batch_lot``)."""
+    return batch_lot
 
 
 def test_rerun_hits_the_lot_store_with_an_identical_result(lot, tmp_path):

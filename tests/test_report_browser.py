@@ -10,24 +10,11 @@ asserted. Launch recipe: /work/shared/reference/notebook-testing.md (section 4).
 
 from __future__ import annotations
 
-import os
 import time
 import urllib.parse
-from pathlib import Path
 
-import pytest
+from test_browser import CHROMIUM, FLAGS, pw, pytestmark  # noqa: F401 - the one launch recipe
 
-pw = pytest.importorskip("playwright.sync_api", reason="the playwright package is not installed")
-CHROMIUM = Path(os.environ.get("CHROMIUM", "/usr/bin/chromium"))
-pytestmark = [
-    pytest.mark.browser,
-    pytest.mark.slow,
-    pytest.mark.skipif(not CHROMIUM.exists(),
-                       reason=f"Chromium not installed at {CHROMIUM} (apt-get install chromium)"),
-]
-FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-         "--disable-background-networking", "--disable-component-update", "--disable-sync",
-         "--host-resolver-rules=MAP * ~NOTFOUND , EXCLUDE 127.0.0.1"]
 N_PARTS = 10_000
 
 LAYOUT = """() => {
