@@ -26,7 +26,7 @@ from typing import Any, ClassVar
 import numpy as np
 
 from kit._text import html_rows
-from kit.units import quantity
+from kit.units import percent, quantity
 
 __all__ = ["Result", "nan_if_none", "plain"]
 
@@ -109,12 +109,19 @@ class Result:
         """(label, value with unit) for each row of ``_ROWS``, by :func:`kit.units.quantity`:
         an SI prefix, "± standard error" where :meth:`stderr_of` gives one, frequencies to
         six significant digits (four otherwise) when no uncertainty sets the precision;
-        "not found" for a missing value."""
+        counts as whole numbers; a row of unit "%" holds a fraction and is shown as a
+        percentage (:func:`kit.units.percent`); "not found" for a missing value."""
         out = []
         for key, label, unit in self._ROWS:
             v = getattr(self, key, None)
             if v is None or (isinstance(v, float) and math.isnan(v)):
                 out.append((label, "not found"))
+                continue
+            if isinstance(v, (int, np.integer)) and not isinstance(v, bool):
+                out.append((label, f"{v:,} {unit}".strip()))
+                continue
+            if unit == "%":  # the row holds a fraction [1], shown as a percentage
+                out.append((label, percent(v)))
                 continue
             se = self.stderr_of(key)
             out.append((label, quantity(v, unit, stderr=se, digits=6 if unit == "Hz" else 4)))

@@ -27,14 +27,8 @@ from test_browser import (  # noqa: F401 - lab and latencies are fixtures used b
     lab,
     latencies,
     pw,
+    pytestmark,
 )
-
-pytestmark = [
-    pytest.mark.browser,
-    pytest.mark.slow,
-    pytest.mark.skipif(not CHROMIUM.exists(),
-                       reason=f"Chromium not installed at {CHROMIUM} (apt-get install chromium)"),
-]
 
 CELLS = [
     "import warnings\n"

@@ -67,7 +67,7 @@ def test_needs_figure_reads_dataframe_rows():
     """Rows straight from pandas (NaN for missing text and flags) are read right."""
     import pandas as pd
 
-    df = pd.DataFrame({"status": ["ok", "ok"], "verdict": ["pass", None],
-                       "fit_flags": [np.nan, np.nan], "fit_ok": [True, np.nan]})
+    df = pd.DataFrame({"status": ["ok", "ok", "ok"], "verdict": ["pass", None, "fail"],
+                       "fit_flags": [np.nan, np.nan, np.nan], "fit_ok": [True, np.nan, True]})
     rows = df.to_dict("records")
-    assert [needs_figure(r, "flagged") for r in rows] == [False, False]
+    assert [needs_figure(r, "flagged") for r in rows] == [False, False, True]

@@ -57,7 +57,6 @@ MAX_RECORDS = 32
 #: Total size of the records kept at most [bytes] (the sweeps tables dominate).
 MAX_BYTES = 8 * 1024**3
 #: Files copied out of a record are read and hashed in pieces of this size [bytes].
-PIECE = 16 * 1024**2
 
 
 class LotStoreWarning(UserWarning):

@@ -46,6 +46,7 @@ def compile_pattern(pattern: str) -> re.Pattern[str]:
     return re.compile("^" + "".join(parts) + "$")
 
 
+@lru_cache(maxsize=64)
 def _types(pattern: str) -> dict[str, Any]:
     """Field name -> reader (str, int or float) by the pattern's ``{name:type}``."""
     return {m.group(1): _TYPES[m.group(2)][1] for m in _FIELD.finditer(pattern)}

@@ -59,7 +59,7 @@ class Sensitivity(Result):
     threshold: float
     notes: tuple[str, ...] = ()
 
-    _ROWS = (("f_hz", "design frequency", "Hz"), ("worst", "largest change of a part", ""))
+    _ROWS = (("f_hz", "design frequency", "Hz"), ("worst", "largest change of a part", "%"))
 
     @property
     def sensitive(self) -> bool:

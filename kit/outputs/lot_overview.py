@@ -30,7 +30,7 @@ import numpy as np
 from kit.outputs.part_figure import AXES_RECT, PALETTE, VERDICT_STYLE, encode_png
 from kit.review.capability import capability
 from kit.review.verdicts import reason_kinds
-from kit.units import eng, scale_for, unit_of
+from kit.units import eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["VERDICT_ORDER", "verdict_of", "counts_html", "quantities_html", "scatter_html",
            "overlay_html", "img_tag", "esc"]
@@ -103,7 +103,7 @@ def counts_html(summary) -> str:
     vc = Counter(verdicts)
     passed = vc.get("pass", 0)
     out = ["<h2>The lot</h2>"]
-    share = f" ({100.0 * passed / n:.1f} %)" if n else ""
+    share = f" ({percent(passed / n, digits=3)})" if n else ""
     out.append(f"<p class=yield>Yield: <b>{passed:,}</b> of {n:,} part(s) passed their "
                f"limits{share}. Yield = parts whose limits verdict is pass / all parts "
                "(parts that failed to load count as not passed).</p>")
@@ -184,7 +184,7 @@ def quantities_html(summary, limits, dpi: int = 80) -> str:
         finite = values[np.isfinite(values)]
 
         def num(v):
-            return "" if v is None or not math.isfinite(v) else f"{v:.3g}"
+            return "" if v is None or not math.isfinite(v) else quantity(v, "", digits=3)
 
         rows.append(
             f"<tr><td>{esc(_label(q))}</td><td>{esc(eng(q.min, unit) if q.min is not None else '')}"

@@ -62,7 +62,7 @@ from kit.outputs.part_figure import (  # noqa: F401 - figure_png, lot_figure: pu
 )
 from kit.outputs.summary import summary as lot_summary
 from kit.review.verdicts import reason_kinds, split_reasons
-from kit.units import eng, scale_for, unit_of
+from kit.units import percent, quantity, scale_for, unit_of
 
 __all__ = ["report", "TABLE_COLUMNS", "CSP", "esc", "figure_png", "lot_figure"]
 
@@ -146,8 +146,8 @@ def _margins(row: dict) -> str:
         r = float(rel) if isinstance(rel, (int, float)) else math.nan
         cls = "" if not math.isfinite(v) else (" class=v-pass" if v >= 0 else " class=v-fail")
         out.append(f"<tr><td>{esc(check)}</td><td{cls}>"
-                   f"{esc(eng(v, unit_of(key)) if math.isfinite(v) else 'not computed')}</td>"
-                   f"<td>{'' if not math.isfinite(r) else f'{r:+.3g}'}</td></tr>")
+                   f"{esc(quantity(v, unit_of(key)) if math.isfinite(v) else 'not computed')}</td>"
+                   f"<td>{'' if not math.isfinite(r) else esc(percent(r, signed=True))}</td></tr>")
     if not out:
         return ""
     return ("<table><tr><th>check</th><th>margin (positive inside)</th><th>relative</th></tr>"

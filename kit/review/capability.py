@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 
 from kit.results import Result
+from kit.units import unit_of
 
 __all__ = ["Capability", "capability"]
 
@@ -79,9 +80,12 @@ class Capability(Result):
     ok: bool = False
     reason: str = ""
 
-    _ROWS = (("n", "values", ""), ("mean", "mean", ""), ("std", "standard deviation", ""),
-             ("cp", "Cp", ""), ("cpk", "Cpk", ""), ("n_below", "below the lower bound", ""),
-             ("n_above", "above the upper bound", ""))
+    @property
+    def _ROWS(self):  # noqa: N802 - the Result protocol's row table, in the quantity's unit
+        u = unit_of(self.name)
+        return (("n", "values", ""), ("mean", "mean", u), ("std", "standard deviation", u),
+                ("cp", "Cp", ""), ("cpk", "Cpk", ""), ("n_below", "below the lower bound", ""),
+                ("n_above", "above the upper bound", ""))
 
     @property
     def heading(self) -> str:

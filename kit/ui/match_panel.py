@@ -253,7 +253,7 @@ class MatchPanel:
         kv.frame_return_loss(ar, float(self.rl_db.value), span_hz(self.band_mhz),
                              before.return_loss_db[sel], after.return_loss_db[sel])
         ar.set_xlim(v_lo, v_hi)
-        ar.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=7, frameon=False)
+        kv.legend_outside(ar, fontsize=7)
         self.host.refresh()
 
     def state(self) -> dict[str, Any]:

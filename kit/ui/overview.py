@@ -22,7 +22,7 @@ import numpy as np
 from kit.outputs.part_figure import VERDICT_STYLE
 from kit.review.capability import capability
 from kit.ui.common import FigureHost, MessageBar, classed, show
-from kit.units import quantity, unit_of
+from kit.units import column_label, quantity, unit_of
 from kit.views import lot_plots as lp
 
 __all__ = ["LotOverview", "overview_cell", "open_in_browser"]
@@ -96,9 +96,10 @@ class LotOverview:
         self.scatter = lp.plot_lot_scatter(fig.add_axes(_SCATTER_BOX), *self._xy(),
                                            self.verdicts, self.x.value, self.y.value,
                                            *self._bounds(self.x.value, self.y.value))
-        self.capability = self._capability()
+        values = self._values(self.hist.value)
+        self.capability = self._capability(values)
         self.histogram = lp.plot_lot_histogram(
-            fig.add_axes(_HIST_BOX), self._values(self.hist.value), self.hist.value,
+            fig.add_axes(_HIST_BOX), values, self.hist.value,
             lp.bounds_of(limits, self.hist.value), self.capability)
         self._last_mouse = None
         g = self.message.guard
@@ -127,9 +128,9 @@ class LotOverview:
     def _bounds(self, *names: str):
         return [lp.bounds_of(self.limits, n) for n in names]
 
-    def _capability(self):
+    def _capability(self, values):
         lo, hi = lp.bounds_of(self.limits, self.hist.value)
-        return capability(self._values(self.hist.value), None if math.isnan(lo) else lo,
+        return capability(values, None if math.isnan(lo) else lo,
                           None if math.isnan(hi) else hi, name=self.hist.value)
 
     def key_of(self, index: int) -> str:
@@ -154,8 +155,9 @@ class LotOverview:
 
     def redraw_histogram(self) -> None:
         """Show the chosen quantity's histogram, bounds and capability."""
-        self.capability = self._capability()
-        lp.update_lot_histogram(self.histogram, self._values(self.hist.value), self.hist.value,
+        values = self._values(self.hist.value)
+        self.capability = self._capability(values)
+        lp.update_lot_histogram(self.histogram, values, self.hist.value,
                                 lp.bounds_of(self.limits, self.hist.value), self.capability)
         self.host.refresh()
 
@@ -173,7 +175,7 @@ class LotOverview:
         i = self.opened
         v = self.verdicts[i]
         mark = VERDICT_STYLE[v][2]
-        figures = ", ".join(f"{lp.axis_label(c, [])[0].split(' [')[0]} "
+        figures = ", ".join(f"{column_label(c)[0]} "
                             f"{quantity(self._values(c)[i], unit_of(c))}"
                             for c in dict.fromkeys((self.x.value, self.y.value)))
         where = "opened in the lot browser" if self.browser is not None else (
