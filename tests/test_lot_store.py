@@ -15,6 +15,7 @@ from kit.batch.cli import main
 from kit.batch.engine import run
 from kit.batch.lot_store import Deferred, LotStoreWarning, lot_key
 from kit.io.cache import CaptureCache
+from kit.outputs import part_figure
 
 #: PNG signature: W3C Portable Network Graphics (PNG) Specification, 2nd ed. (ISO/IEC
 #: 15948:2003), section 5.2 "PNG signature".
@@ -188,12 +189,12 @@ def test_pictures_are_drawn_in_the_workers_for_parts_not_passed(lot, tmp_path):
     root, d, proc = lot
     old = batch.CHUNK
     batch.CHUNK = 2
-    batch._PAINTER.clear()
+    part_figure._PAINTERS.clear()
     try:
         res = run(proc, d, workers=2, use_cache=False)
     finally:
         batch.CHUNK = old
-    assert res.stats["engine"].endswith("local processes") and not batch._PAINTER
+    assert res.stats["engine"].endswith("local processes") and not part_figure._PAINTERS
     s = res.summary
     flagged = set(s.loc[(s["status"] == "ok") & (s["verdict"] != "pass"), "sha256"])
     assert set(s.loc[s["capture"].isin(["pzd7-04", "pzd7-07"]), "sha256"]) == flagged
@@ -253,3 +254,19 @@ def test_every_part_of_the_key_changes_it(paths, which):
         lambda: lot_key(paths, shas, "p" * 64, "flagged", 4),
     ][which]()
     assert other != base and base == lot_key(list(paths), list(shas), "p" * 64, "flagged", 3)
+
+
+def test_another_figures_setting_reuses_the_stored_fits(lot, tmp_path):
+    """The figures setting decides only which parts are pictured: a run under another one
+    misses the lot store (its outputs differ) but reuses every stored fit, and draws the
+    pictures the first run did not need."""
+    root, d, proc = lot
+    cache = tmp_path / "cache"
+    first = run(proc, d, workers=1, cache_dir=cache, figures="none")
+    assert first.pictures == {} and first.stats["results_reused"] == 0
+    again = run(proc, d, workers=1, cache_dir=cache, figures="all")
+    ok = int((again.summary["status"] == "ok").sum())
+    assert again.stats["lot_store"] == "miss" and again.stats["results_reused"] == ok
+    assert len(again.pictures) == ok
+    assert all(p.startswith(PNG_SIGNATURE) for p in again.pictures.values())
+    pd.testing.assert_frame_equal(again.summary, first.summary)

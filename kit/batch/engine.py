@@ -26,6 +26,7 @@ from kit.batch.lot_store import Deferred
 from kit.batch.procedure import Procedure, ProcedureError
 from kit.capture import Capture, CaptureError
 from kit.outputs.entries import Failure
+from kit.outputs.part_figure import FIGURE_CHOICES
 
 #: Captures per task sent to a worker (amortises process start-up and the chain build).
 CHUNK = 16
@@ -35,13 +36,12 @@ CHUNK = 16
 _CHAINS: dict[str, Any] = {}
 _LIMITS: dict[str, Any] = {}
 _CACHES: dict[str, Any] = {}
-_PAINTER: list[Any] = []  # this process's PartPainter (one matplotlib Figure, reused)
 #: Version of the stored per-capture results (resonance and fit dicts, failures, pictures,
 #: traces); a new version keys new cache entries, so results stored by an older kit are not
 #: misread.
 RESULTS_SCHEMA = 3
-#: The ``figures`` settings: a picture for the parts not passed or flagged, for all, for none.
-FIGURES = ("flagged", "all", "none")
+#: The ``figures`` settings (one list, :data:`kit.outputs.part_figure.FIGURE_CHOICES`).
+FIGURES = FIGURE_CHOICES
 
 
 @dataclass
@@ -165,10 +165,11 @@ def _cache_for(cache_dir: str):
     return _CACHES[cache_dir]
 
 
-def _result_key(digest: str, figures: str = "flagged") -> str:
-    """Cache key of the stored results: procedure digest, figures setting, kit version and
-    :data:`RESULTS_SCHEMA`."""
-    text = f"{digest}:figures-{figures}:kit-{__version__}:results-{RESULTS_SCHEMA}"
+def _result_key(digest: str) -> str:
+    """Cache key of the stored results: procedure digest, kit version and
+    :data:`RESULTS_SCHEMA`. Not the figures setting: it decides only which parts get a
+    picture, and a picture a stored record lacks is drawn when asked for (:func:`_figures`)."""
+    text = f"{digest}:kit-{__version__}:results-{RESULTS_SCHEMA}"
     return hashlib.sha256(text.encode()).hexdigest()
 
 
@@ -202,7 +203,7 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
     """
     from kit.outputs.summary import summary_rows
 
-    out = _analyse(item, proc, digest, cache_dir, figures)
+    out = _analyse(item, proc, digest, cache_dir)
     if digest not in _LIMITS:
         _LIMITS[digest] = proc.limits_object()
     # the row (masks, corrections, correction state) describes the capture as analysed: the
@@ -210,11 +211,11 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
     judged = out["corrected"] if isinstance(out["corrected"], Capture) else out["capture"]
     out["row"] = summary_rows([judged], fits=[out["fit"]],
                               resonances=[out["resonance"]], limits=_LIMITS[digest])[0]
-    _figures(out, judged, figures, _LIMITS[digest])
-    store = out.pop("_store", None)  # set when the analysis ran and the cache is in use
-    if store is not None:
+    drew = _figures(out, judged, figures, _LIMITS[digest])
+    store = out.pop("_store", None)  # the cache, when in use
+    if store is not None and (out.get("result_cache") != "hit" or drew):
         pic, trace = out["picture"], out["trace"]
-        store.put_result(out["capture"].sha256, _result_key(digest, figures), {
+        store.put_result(out["capture"].sha256, _result_key(digest), {
             "resonance": _to_store(out["resonance"]), "fit": _to_store(out["fit"]),
             "picture": None if pic is None else base64.b64encode(pic).decode("ascii"),
             "trace": None if trace is None else [np.asarray(a, float).tolist() for a in trace]})
@@ -225,31 +226,32 @@ def process_one(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
     return out
 
 
-def _figures(out: dict[str, Any], judged: Any, figures: str, limits: Any) -> None:
-    """The part's picture (when the rule asks for one) and trace, drawn in this process."""
+def _figures(out: dict[str, Any], judged: Any, figures: str, limits: Any) -> bool:
+    """The part's trace, and its picture when the rule asks for one: from the stored
+    results where they hold it, else drawn in this process. True when a picture was drawn
+    (the stored record then gains it)."""
+    from kit.outputs.part_figure import PartPainter, figure_png, needs_figure
+
     done = out.pop("_done", None) or {}
-    if "picture" in done:  # stored with the results (same bytes, procedure, figures setting)
-        out["picture"] = None if done["picture"] is None else base64.b64decode(done["picture"])
-        out["trace"] = None if done["trace"] is None else tuple(np.asarray(a) for a in done["trace"])
-        return
     out["picture"] = out["trace"] = None
+    if done.get("trace") is not None:
+        out["trace"] = tuple(np.asarray(a) for a in done["trace"])
+    elif isinstance(judged, Capture):
+        out["trace"] = PartPainter.trace(judged)
+    if not needs_figure(out["row"], figures):
+        return False
+    if done.get("picture") is not None:
+        out["picture"] = base64.b64decode(done["picture"])
+        return False
     if not isinstance(judged, Capture):
-        return
-    from kit.outputs.part_figure import PartPainter, needs_figure
-
-    out["trace"] = PartPainter.trace(judged)
-    if needs_figure(out["row"], figures):
-        # the figure (and matplotlib, about 0.6 s to import) only in a worker that draws
-        if not _PAINTER:
-            _PAINTER.append(PartPainter())
-        fit, res = out["fit"], out["resonance"]
-        out["picture"] = _PAINTER[0].png(judged, limits=limits,
-                                     fit=fit if isinstance(fit, dict) else None,
-                                     resonance=res if isinstance(res, dict) else None)
+        return False
+    fit, res = out["fit"], out["resonance"]
+    out["picture"] = figure_png(judged, limits, fit=fit if isinstance(fit, dict) else None,
+                                resonance=res if isinstance(res, dict) else None)
+    return True
 
 
-def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
-             figures: str = "flagged") -> dict[str, Any]:
+def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> dict[str, Any]:
     from kit.io.touchstone import load
 
     out: dict[str, Any] = {"capture": None, "corrected": None, "resonance": None, "fit": None,
@@ -269,7 +271,7 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
     store = None
     if cache_dir is not None and not isinstance(item, Capture) and cap.sha256:
         store = _cache_for(cache_dir)
-        done = store.get_result(cap.sha256, _result_key(digest, figures))
+        done = store.get_result(cap.sha256, _result_key(digest))
     else:
         done = None
     status, chain = _chain_for(proc, digest)
@@ -292,6 +294,7 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None,
         out["fit"] = _stored(done["fit"], "fit")
         out["result_cache"] = "hit"
         out["_done"] = done
+        out["_store"] = store
         return out
     method = proc.import_.get("method", "reflection")
     port = int(proc.import_.get("port", 1))

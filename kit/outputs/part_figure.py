@@ -412,12 +412,14 @@ class PartPainter:
 _PAINTERS: dict[int, PartPainter] = {}
 
 
-def figure_png(capture: Any, limits: Any = None, dpi: int = 80) -> bytes:
-    """PNG of a capture's main curve with the limits, by this process's :class:`PartPainter`."""
+def figure_png(capture: Any, limits: Any = None, dpi: int = 80, fit: Any = None,
+               resonance: Any = None) -> bytes:
+    """PNG of a part's picture (:meth:`PartPainter.png`) by this process's one
+    :class:`PartPainter` of that dpi (made on first use: matplotlib is imported only then)."""
     painter = _PAINTERS.get(dpi)
     if painter is None:
         painter = _PAINTERS[dpi] = PartPainter(dpi=dpi)
-    return painter.png(capture, limits)
+    return painter.png(capture, limits, fit=fit, resonance=resonance)
 
 
 def lot_figure(capture: Any, limits: Any = None, dpi: int = 80):
