@@ -207,3 +207,17 @@ def test_not_passed_table_is_capped():
     assert len(lines) == 1 + SHOWN_PARTS + 1 and lines[-1] == "5 more in summary.csv"
     assert lines[1].split() == ["p00", "fail", "reason", "0"]
     assert not_passed(pd.DataFrame(rows[-1:])) == []
+
+
+def test_python_export_refuses_a_folder_inside_an_input_folder(tmp_path, small_lot):
+    """The same rule from Python (kit.io.writer.refuse_input_folder, used by kit.export and
+    the report): any depth inside a folder of input captures is refused."""
+    from kit.io.touchstone import load
+    from kit.io.writer import ExportError, refuse_input_folder
+
+    d, _ = small_lot
+    cap = load(d / "pzd7-01.s1p")
+    for target in (d / "report.html", d / "a" / "b" / "report.html"):
+        with pytest.raises(ExportError, match="holds input captures"):
+            refuse_input_folder(target, [cap], "the report")
+    refuse_input_folder(tmp_path / "elsewhere" / "report.html", [cap], "the report")

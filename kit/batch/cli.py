@@ -108,16 +108,17 @@ def not_passed(summary, limit: int = SHOWN_PARTS) -> list[str]:
 def _out_in_inputs(out: str, inputs: list[str]) -> str | None:
     """Why ``--out`` may not be used: it is an input folder or inside one (None when fine).
 
-    A folder given as input is never written to, nor any folder in it; for a file given as
-    input, its own folder is not (as :func:`kit.io.writer.refuse_input_folder` rules).
+    A folder given as input, or holding an input file, is never written to, nor any folder
+    in it (the rule of :func:`kit.io.writer.refuse_input_folder`).
     """
-    o = Path(out).resolve()
+    from kit.io.writer import input_folder_holding
+
     for item in inputs:
-        p = Path(item).resolve()
-        if p.is_dir() and (o == p or p in o.parents):
+        p = Path(item)
+        if p.is_dir() and input_folder_holding(out, [p]):
             return f"--out {out} is inside the input folder {item}"
-        if p.is_file() and o == p.parent:
-            return f"--out {out} is the folder of the input {item}"
+        if p.is_file() and input_folder_holding(out, [p.parent]):
+            return f"--out {out} is the folder of the input {item}, or inside it"
     return None
 
 

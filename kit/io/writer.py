@@ -26,7 +26,8 @@ from kit.capture import Capture, CaptureError
 from kit.io.atomic import write_bytes
 from kit.results import plain
 
-__all__ = ["ExportError", "input_folders", "refuse_input_folder", "write_touchstone"]
+__all__ = ["ExportError", "input_folder_holding", "input_folders", "refuse_input_folder",
+           "write_touchstone"]
 
 
 class ExportError(CaptureError):
@@ -50,12 +51,21 @@ def input_folders(captures: Iterable[Any]) -> set[Path]:
     return out
 
 
-def refuse_input_folder(target: str | os.PathLike, captures: Iterable[Any], what: str) -> None:
-    """Raise ExportError when ``target`` (a file or folder to write) sits in an input folder."""
+def input_folder_holding(target: str | os.PathLike, folders: Iterable[Path]) -> Path | None:
+    """The input folder that is ``target`` or holds it at any depth (None when none does)."""
     t = Path(target).resolve()
-    folders = input_folders(captures)
-    if t in folders or t.parent in folders:
-        where = t if t in folders else t.parent
+    for f in folders:
+        f = Path(f).resolve()
+        if t == f or f in t.parents:
+            return f
+    return None
+
+
+def refuse_input_folder(target: str | os.PathLike, captures: Iterable[Any], what: str) -> None:
+    """Raise ExportError when ``target`` (a file or folder to write) is an input folder or
+    lies anywhere inside one."""
+    where = input_folder_holding(target, input_folders(captures))
+    if where is not None:
         raise ExportError(f"{what} {target} would be written into {where}, which holds input "
                           "captures; raw captures are evidence and their folder is never written "
                           "to (except the review log): choose another folder")
