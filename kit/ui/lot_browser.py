@@ -157,9 +157,6 @@ class LotBrowser:
         self.ax_rect = fig.add_axes(_RECT_BOX)
         self._polar_ax = None
         self._grid_artists: list[Any] = []
-        # the figure is drawn by its layers only: pyplot's "draw when stale" would ask the
-        # page for a second, full frame after every change
-        fig.stale_callback = None
         self.layers = BlitLayers(fig, self._dynamic_artists, fallback=self.host.refresh)
         self.layers.add_band("plane", 0.0, _SPLIT, lambda: [self._plane_ax()])
         self.layers.add_band("rect", _SPLIT, 1.0, lambda: [self.ax_rect])
@@ -351,7 +348,8 @@ class LotBrowser:
 
     def _render(self) -> None:
         """Show the figure: only what changed is drawn again (:attr:`layers`)."""
-        self.host.renders += 1
+        if self.layers.can_blit:  # else the layers' fallback is host.refresh, which counts
+            self.host.renders += 1
         self.layers.render()
 
     def _restyle(self, lines: list[Any]) -> None:

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 from typing import Any, Callable, Iterable
 
-#: How many times each kind of render ran (for tests and benchmarks).
+#: The kinds of render (:meth:`BlitLayers.render`), counted in :attr:`BlitLayers.counts`.
 RENDER_KINDS = ("full", "band", "blit")
 
 
@@ -64,9 +64,11 @@ class BlitLayers:
         self._blank = Rectangle((0, 0), 1, 1, transform=fig.transFigure, lw=0,
                                 antialiased=False)
         self._blank.set_figure(fig)
-        self._cid = None
         if self.can_blit:
-            self._cid = fig.canvas.mpl_connect("draw_event", self._on_draw)
+            fig.canvas.mpl_connect("draw_event", self._on_draw)
+            # the figure is drawn by its layers only: pyplot's "draw when stale" would ask
+            # the page for a second, full frame after every change
+            fig.stale_callback = None
 
     @property
     def can_blit(self) -> bool:
@@ -155,12 +157,6 @@ class BlitLayers:
         self.fig.stale = False
         self.counts[kind] += 1
         return kind
-
-    def disconnect(self) -> None:
-        """Stop following the canvas's draws."""
-        if self._cid is not None:
-            self.fig.canvas.mpl_disconnect(self._cid)
-            self._cid = None
 
 
 __all__ = ["BlitLayers", "RENDER_KINDS"]
