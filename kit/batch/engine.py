@@ -425,7 +425,7 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
         cdir = str(Path(cache_dir) if cache_dir is not None else default_cache_dir())
     lot = _lot_lookup(cdir, items, digest, figures)
     if lot.get("record") is not None:
-        return _from_record(lot, proc, items, digest, cdir, keep_captures, figures)
+        return _from_record(lot, proc, items, digest, cdir, keep_captures)
     show = sys.stderr.isatty() if progress is None else progress
     bar = None
     chunks = [items[i: i + CHUNK] for i in range(0, len(items), CHUNK)]
@@ -543,7 +543,7 @@ def _lot_lookup(cdir: str | None, items: list, digest: str, figures: str) -> dic
 
 
 def _from_record(lot: dict[str, Any], proc: Procedure, items: list, digest: str,
-                 cdir: str | None, keep_captures: bool, figures: str) -> BatchResult:
+                 cdir: str | None, keep_captures: bool) -> BatchResult:
     """The BatchResult of a whole-lot hit: nothing analysed, captures loaded on first use."""
     rec = lot["record"]
     doc = rec.doc
@@ -555,7 +555,8 @@ def _from_record(lot: dict[str, Any], proc: Procedure, items: list, digest: str,
     resonances = [_stored(r, "resonance") for r in doc["resonances"]]
     if keep_captures:
         def load() -> dict[str, list]:
-            outs = [process_one(it, proc, digest, cdir, True, figures) for it in items]
+            # import and correct only: the rows, traces and pictures come from the record
+            outs = [_analyse(it, proc, digest, cdir) for it in items]
             return {"captures": [o["capture"].error() if isinstance(o["capture"], Failure)
                                  else o["capture"] for o in outs],
                     "corrected": [o["corrected"] for o in outs]}
