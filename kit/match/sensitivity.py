@@ -168,23 +168,21 @@ def design_frequency(load, fit=None) -> tuple[float, str]:
     import numpy as np
 
     from kit.capture import CaptureError
+    from kit.network.accept import network_of
     from kit.resonators.fitting import fit as fit_bvd
-    from kit.resonators.frequencies import resonance
     from kit.resonators.starts import suggest_span
 
-    f = np.asarray(load.f if hasattr(load, "f") else load.f_hz, dtype=float)
+    f = np.asarray(network_of(load, "a design frequency").f, dtype=float)
     inside = lambda v: v is not None and math.isfinite(v) and f[0] <= v <= f[-1]  # noqa: E731
     if fit is not None and inside(getattr(fit, "fs_hz", None)):
         return float(fit.fs_hz), f"fs of the {fit.model} fit"
     try:
-        span = suggest_span([load]).span_hz
-        r = fit_bvd(load, model="bvd", span_hz=span)
+        start = suggest_span([load])  # reads kit.resonance's fs and fp over the sweep
+        r = fit_bvd(load, model="bvd", span_hz=start.span_hz)
         if r.ok and inside(r.fs_hz):
             return float(r.fs_hz), "fs of a Butterworth-Van Dyke fit"
-        res = resonance(load)
-        fs = res.fs_hz
-        if res.ok and inside(fs):
-            return float(fs), "fs read off the conductance peak (kit.resonance)"
+        if inside(start.fs_hz) and math.isfinite(start.fp_hz):
+            return float(start.fs_hz), "fs read off the conductance peak (kit.resonance)"
     except (CaptureError, ValueError):
         pass
     return float(np.sqrt(f[0] * f[-1])), "the middle of the sweep (no resonance found)"

@@ -55,6 +55,7 @@ from kit.outputs.lot_overview import (
 from kit.outputs.part_figure import (  # noqa: F401 - figure_png, lot_figure: public here too
     FIGURE_CHOICES,
     PALETTE,
+    RULE_COLUMNS,
     PartPainter,
     figure_png,
     lot_figure,
@@ -196,11 +197,6 @@ def _section(i: int, row: dict, anchor: str, picture: bytes | None, history: Any
     return "\n".join(sec)
 
 
-#: The columns :func:`needs_figure` reads.
-_RULE_COLUMNS = ("status", "verdict", "fit_ok", "fit_flags", "resonance_flags",
-                 "review_verdict", "retest_requested", "review_tags", "review_notes")
-
-
 def _figures_choice(figures: Any) -> str:
     if figures is True:  # the former boolean: a figure per part
         return "all"
@@ -275,7 +271,7 @@ def report(out_path: str | os.PathLike, captures: Any, summary: Any = None,
     pictures = dict(pictures or {})
     if traces is None:
         traces = {c.sha256: PartPainter.trace(c) for c in real}
-    rule = [c for c in _RULE_COLUMNS if c in summary.columns]
+    rule = [c for c in RULE_COLUMNS if c in summary.columns]
     shown = [i for i, r in enumerate(summary[rule].to_dict("records"))
              if needs_figure(r, figures)]
     rows = {i: _clean(summary.iloc[i].to_dict()) for i in shown}

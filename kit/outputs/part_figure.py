@@ -74,6 +74,11 @@ def _severe(flags: str) -> bool:
     return False
 
 
+#: The summary columns :func:`needs_figure` reads (kept beside the rule that reads them).
+RULE_COLUMNS = ("status", "verdict", "fit_ok", "fit_flags", "resonance_flags",
+                "review_verdict", "retest_requested", "review_tags", "review_notes")
+
+
 def needs_figure(row: Mapping, figures: str) -> bool:
     """Whether a part of a lot gets a picture: the one rule for the report and batch runs.
 

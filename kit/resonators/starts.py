@@ -80,14 +80,14 @@ def suggest_span(captures, method: str = "reflection", widen: float = WIDEN) -> 
         When no capture is given, or the captures share no frequency range.
     """
     from kit.capture import CaptureError
+    from kit.network.accept import network_of
     from kit.resonators.frequencies import resonance
     from kit.units import quantity
 
     caps = list(captures)
     if not caps:
         raise ValueError("no capture to read a span from: give at least one")
-    f = [np.asarray(c.f, dtype=float) if hasattr(c, "f") else np.asarray(c.f_hz, dtype=float)
-         for c in caps]
+    f = [np.asarray(network_of(c, "a span").f, dtype=float) for c in caps]
     ranges = [(float(x.min()), float(x.max())) for x in f]
     lo, hi = max(r[0] for r in ranges), min(r[1] for r in ranges)
     note = ""
