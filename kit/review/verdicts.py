@@ -126,19 +126,10 @@ class Verdict(Result):
                             columns=list(Check.__dataclass_fields__))
 
 
-def _fmt(x: float, unit: str) -> str:
-    """A value in words: :func:`kit.units.quantity` (SI prefix, four significant digits)."""
-    return quantity(x, unit)
-
-
 def _span(f0_hz: float, f1_hz: float) -> str:
     """"1.8..2.4 MHz": a frequency span in one prefixed unit (:func:`kit.units.scale_for`)."""
     k, unit = scale_for([f0_hz, f1_hz], "Hz")
     return f"{f0_hz * k:.6g}..{f1_hz * k:.6g} {unit}"
-
-
-def _at(f_hz: float) -> str:
-    return quantity(f_hz, "Hz")
 
 
 def _rel(margin: float, bound: float) -> float:
@@ -177,12 +168,12 @@ def check_quantity(q: QuantityLimit, row: Any) -> Check:
     rel_txt = f" ({percent(rel)} of the bound)" if math.isfinite(rel) else ""
     if margin >= 0:
         status = "pass"
-        reason = (f"{label} = {_fmt(x, unit)} is within limits; nearest bound {which} "
-                  f"{_fmt(bound, unit)}, margin {_fmt(margin, unit)}{rel_txt}")
+        reason = (f"{label} = {quantity(x, unit)} is within limits; nearest bound {which} "
+                  f"{quantity(bound, unit)}, margin {quantity(margin, unit)}{rel_txt}")
     else:
         status = "fail"
         word = "below the minimum" if which == "min" else "above the maximum"
-        reason = (f"{label} = {_fmt(x, unit)} is {word} {_fmt(bound, unit)} by "
+        reason = (f"{label} = {quantity(x, unit)} is {word} {quantity(bound, unit)} by "
                   f"{quantity(-margin, unit, digits=3)}{rel_txt}")
     return Check(q.name, "quantity", status, reason, x, bound, margin, rel, unit)
 
@@ -237,7 +228,7 @@ def check_mask(mask: Mask, capture: Any) -> Check:
     if not np.all(np.isfinite(ys)):
         bad = fs[~np.isfinite(ys)]
         return Check(mask.name, "mask", "incomplete", f"{what}: {bad.size} point(s) could not be "
-                     f"computed (first at {_at(bad[0])})", unit=unit)
+                     f"computed (first at {quantity(bad[0], 'Hz')})", unit=unit)
     cands = []
     lo = mask.bound("lower", fs)
     hi = mask.bound("upper", fs)
@@ -251,18 +242,18 @@ def check_mask(mask: Mask, capture: Any) -> Check:
         cands.append((float(d[k]), float(hi[k]), k, "upper"))
     margin, bound, k, which = min(cands, key=lambda c: c[0])
     rel = _rel(margin, bound)
-    at = _at(fs[k])
+    at = quantity(fs[k], "Hz")
     if margin >= 0:
         status = "pass"
-        reason = (f"{what}: inside; tightest at {at}, {_fmt(margin, unit)} from the {which} bound "
-                  f"{_fmt(bound, unit)}")
+        reason = (f"{what}: inside; tightest at {at}, {quantity(margin, unit)} from the {which} bound "
+                  f"{quantity(bound, unit)}")
     else:
         status = "fail"
         n_out = int(np.sum(((ys < lo) if lo is not None else False)
                            | ((ys > hi) if hi is not None else False)))
         word = "below the lower" if which == "lower" else "above the upper"
-        reason = (f"{what}: {_fmt(float(ys[k]), unit)} at {at} is {word} bound "
-                  f"{_fmt(bound, unit)} by {_fmt(-margin, unit)}; {n_out} of {fs.size} points "
+        reason = (f"{what}: {quantity(float(ys[k]), unit)} at {at} is {word} bound "
+                  f"{quantity(bound, unit)} by {quantity(-margin, unit)}; {n_out} of {fs.size} points "
                   "outside")
     return Check(mask.name, "mask", status, reason, float(ys[k]), bound, margin, rel, unit,
                  float(fs[k]))
