@@ -13,24 +13,24 @@ folder. Recipe: /work/shared/reference/notebook-testing.md (sections 4 and 6).
 from __future__ import annotations
 
 import contextlib
-import json
+import importlib.util
 import os
-import secrets
 import shutil
-import signal
-import socket
-import subprocess
-import sys
 import time
 import urllib.parse
 import urllib.request
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 pw = pytest.importorskip("playwright.sync_api", reason="the playwright package is not installed")
-CHROMIUM = Path(os.environ.get("CHROMIUM", "/usr/bin/chromium"))
+# The one launch recipe (Chromium flags, JupyterLab options, the private server, the long
+# lot) lives in bench/bench_browser.py, which the benchmark and these tests share.
+_spec = importlib.util.spec_from_file_location(
+    "bench_browser", Path(__file__).resolve().parents[1] / "bench" / "bench_browser.py")
+bench_browser = importlib.util.module_from_spec(_spec)
+_spec.loader.exec_module(bench_browser)
+CHROMIUM, FLAGS, RUN_ALL = bench_browser.CHROMIUM, bench_browser.FLAGS, bench_browser.RUN_ALL
 ROOT = Path(__file__).resolve().parents[1]
 pytestmark = [
     pytest.mark.browser,
@@ -38,15 +38,6 @@ pytestmark = [
     pytest.mark.skipif(not CHROMIUM.exists(),
                        reason=f"Chromium not installed at {CHROMIUM} (apt-get install chromium)"),
 ]
-FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-         "--disable-background-networking", "--disable-component-update", "--disable-sync",
-         "--host-resolver-rules=MAP * ~NOTFOUND , EXCLUDE 127.0.0.1"]
-LAB = ["--no-browser", "--allow-root", "--ServerApp.ip=127.0.0.1",
-       "--LabApp.expose_app_in_browser=True", "--LabApp.news_url=None",
-       "--LabApp.extension_manager=readonly",
-       "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate"]
-RUN_ALL = """async () => { const nb = window.jupyterapp.shell.currentWidget; await nb.context.ready;
-  await nb.sessionContext.ready; return window.jupyterapp.commands.execute('notebook:run-all-cells'); }"""
 CANVAS = """(sel) => [...document.querySelectorAll(sel + ' canvas')].map(c => c.toDataURL()).join('|')"""
 CHANGED = """([sel, before]) => { const s = [...document.querySelectorAll(sel + ' canvas')]
   .map(c => c.toDataURL()).join('|'); return s.length > 0 && s !== before; }"""
@@ -74,42 +65,10 @@ def lab(tmp_path):
     Yields ``(port, token, root)``; each test puts its notebook and data into ``root``
     (the server reads files on demand). The server is always stopped afterwards.
     """
-    root, cfg, log = tmp_path / "root", tmp_path / "cfg", tmp_path / "lab.log"
+    root = tmp_path / "root"
     root.mkdir()
-    tracker = cfg / "settings" / "@jupyterlab" / "notebook-extension"
-    tracker.mkdir(parents=True)
-    (tracker / "tracker.jupyterlab-settings").write_text(json.dumps({"windowingMode": "none"}))
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        port = s.getsockname()[1]
-    token = secrets.token_hex(16)
-    env = {**os.environ, "JUPYTER_CONFIG_DIR": str(cfg), "JUPYTER_RUNTIME_DIR": str(cfg / "rt"),
-           "JUPYTERLAB_SETTINGS_DIR": str(cfg / "settings"),
-           "JUPYTERLAB_WORKSPACES_DIR": str(cfg / "ws")}
-    cmd = [sys.executable, "-m", "jupyter", "lab", f"--port={port}",
-           f"--ServerApp.token={token}", f"--ServerApp.root_dir={root}", *LAB]
-    with log.open("wb") as out:
-        proc = subprocess.Popen(cmd, env=env, stdout=out, stderr=subprocess.STDOUT,
-                                start_new_session=True)
-        try:
-            for _ in range(600):
-                try:
-                    urllib.request.urlopen(f"http://127.0.0.1:{port}/api/status?token={token}",
-                                           timeout=1)
-                    break
-                except OSError:
-                    assert proc.poll() is None, log.read_text()
-                    time.sleep(0.2)
-            else:
-                pytest.fail("JupyterLab never answered:\n" + log.read_text())
-            yield port, token, root
-        finally:
-            proc.terminate()
-            try:
-                proc.wait(20)
-            except subprocess.TimeoutExpired:
-                os.killpg(proc.pid, signal.SIGKILL)
-                proc.wait()
+    with bench_browser.lab_server(root, tmp_path) as (port, token):
+        yield port, token, root
 
 
 @contextlib.contextmanager
@@ -239,26 +198,6 @@ def test_lot_review_notebook_in_a_real_browser(lab, tmp_path, latencies):
     latencies += [(1601, k, v) for k, v in timings.items()]
 
 
-def _write_long_lot(folder: Path, n: int = LONG_POINTS) -> None:
-    """Two invented BVD disc elements, n points each, as one-port S11 Touchstone files."""
-    import skrf
-
-    from kit.capture import from_network
-    from kit.io.writer import write_touchstone
-    from kit.resonators.registry import get_model
-
-    folder.mkdir()
-    f = np.linspace(1.5e6, 2.5e6, n)
-    bvd = get_model("bvd").circuit
-    for k, (c1, r1) in enumerate([(0.20e-9, 9.0), (0.21e-9, 12.0)], 1):
-        l1 = 1.0 / ((2 * np.pi * 1.95e6) ** 2 * c1)           # series resonance near 1.95 MHz
-        z = bvd.z(f, {"C0": 1.1e-9, "R1": r1, "L1": l1, "C1": c1})
-        s11 = (z - 50.0) / (z + 50.0)
-        ntwk = skrf.Network(frequency=skrf.Frequency.from_f(f, unit="hz"), s=s11, z0=50.0,
-                            name=f"long-{k:02d}")
-        write_touchstone(from_network(ntwk), folder / f"long-{k:02d}.s1p")
-
-
 def _write_long_notebook(path: Path) -> None:
     nbformat = pytest.importorskip("nbformat")
     nb = nbformat.v4.new_notebook(metadata={"kernelspec": {
@@ -277,7 +216,7 @@ def _write_long_notebook(path: Path) -> None:
 def test_lot_browser_on_100001_point_sweeps(lab, tmp_path, latencies):
     """The lot browser on two 100,001 point captures redraws after select, chart and span."""
     root = lab[2]
-    _write_long_lot(root / "long")
+    bench_browser.write_long_lot(root / "long", LONG_POINTS, count=2)
     _write_long_notebook(root / "long_sweeps.ipynb")
     expect, fig, panel = pw.expect, ".sb-lot-figure", ".sb-lot-browser"
     timings: dict[str, float] = {}
@@ -316,13 +255,8 @@ def test_lot_browser_latency_benchmark(tmp_path):
     """A short run of bench/bench_browser.py: every interaction (capture change, span
     slider, pin placement, view change) updates the figure at 1601 and 100,001 points;
     the medians and 95th percentiles are printed, not asserted (goal: median < 100 ms)."""
-    import importlib.util
-
     pytest.importorskip("nbformat")
-    spec = importlib.util.spec_from_file_location("bench_browser",
-                                                  ROOT / "bench" / "bench_browser.py")
-    bench = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(bench)
+    bench = bench_browser
     results = bench.run(repeat=3, python_path=str(ROOT), workdir=tmp_path,
                         screenshot=tmp_path / "bench.png")
     print("\nlot browser, interaction -> figure updated (short run; bench/bench_browser.py "
