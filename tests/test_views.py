@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import kit.views as kv
 
@@ -559,3 +561,78 @@ def test_select_by_name_sha_and_row(ipympl_figures, demo_dir):
     assert b.select.value == (other, row)
     with pytest.raises(KeyError, match="no-such"):
         b.select("no-such-part")
+
+
+def test_lot_browser_pictures_equal_full_draws_along_a_session(ipympl_figures, demo_dir):
+    """Along a session of capture flips, view and span changes back and forth and pins,
+    every picture the layers produce (blit, legend patch, band drawn, band restored from a
+    kept picture) equals, pixel for pixel, a full draw of the same state in a twin browser;
+    returns to an earlier look are restored, not drawn (reference: a full matplotlib draw)."""
+    import kit
+    from kit.ui.lot_browser import lot_browser
+
+    lot = kit.load_folder(demo_dir / "lot", pattern="{lot}-{serial}")
+    rows = [i for i in lot.index if str(lot.loc[i, "name"]).startswith("pzd7")]
+    a, b = (lot_browser(lot, select=[0], display=False, interactive=True) for _ in range(2))
+    for x in (a, b):
+        x.host.fig.canvas.syncing_data_url = False
+        x.host.fig.canvas.draw()
+    lo, hi = a.span.value
+    full = a.layers.counts["full"]
+    steps = [("select", (rows[0],)), ("select", (rows[1],)), ("select", (rows[0],)),
+             ("chart", "r"), ("chart", "z_mag"), ("chart", "r"),
+             ("span", (lo + 0.1 * (hi - lo), hi)), ("span", (lo, hi)),
+             ("span", (lo + 0.1 * (hi - lo), hi)), ("select", (rows[2], rows[3])),
+             ("select", (rows[3], rows[2])), ("chart", "z_mag"), ("plane", "smith:y"),
+             ("plane", "smith:z"), ("plane", "smith:y")]
+    for what, value in steps:
+        for x in (a, b):
+            setattr(getattr(x, what), "value", value)
+        b.host.fig.canvas.draw()  # the twin: a full draw of the same state
+        pa, pb = _pixels(a.host.fig), _pixels(b.host.fig)
+        where = np.argwhere((pa != pb).any(axis=2))
+        assert not where.size, (what, value, a.layers.counts, where.min(0), where.max(0),
+                                len(where))
+    counts = a.layers.counts
+    assert counts["kept"] >= 4 and counts["patch"] >= 1 and counts["full"] == full, counts
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.floats(1e-3, 1e6), st.floats(1.01, 1e3), st.floats(1e-3, 1e6), st.floats(1.01, 1e3),
+       st.booleans())
+def test_held_limits_show_the_data_and_fill_the_axis(c0, cr, w0, wr, log):
+    """The limits always hold the wanted range; when they are not exactly the wanted
+    ones, the wanted range fills at least 60 % of them (in decades on a log axis);
+    returning the same wanted range again changes nothing (common practice, no source)."""
+    cur, want = (c0, c0 * cr), (w0, w0 * wr)
+    lo, hi = kv.held_limits(cur, want, log=log)
+    assert lo <= want[0] and hi >= want[1]
+    ext = (lambda a, b: np.log10(b / a)) if log else (lambda a, b: b - a)
+    if (lo, hi) != want:
+        assert ext(*want) >= 0.6 * ext(lo, hi) * (1 - 1e-12)
+    assert kv.held_limits((lo, hi), want, log=log) == (lo, hi)
+
+
+def test_log_axis_ticks_are_plain_prefixed_numbers():
+    """A log |Z| axis over 1 Ω..3 kΩ labels its decades "1", "10", "100", "1k" (SI prefix,
+    unit in the label; BIPM SI brochure Table 7), no mathtext; a view inside one decade
+    gets labels that tell every tick apart."""
+    from matplotlib.figure import Figure
+
+    fig = Figure()
+    ax = fig.add_subplot()
+    kv.style_chart(ax, "z_mag")
+    ax.set_ylim(1.0, 3000.0)
+    fig.canvas.draw()
+    labels = [t.get_text() for t in ax.get_yticklabels() if t.get_text()]
+    assert {"1", "10", "100", "1k"} <= set(labels) and not any("$" in t for t in labels)
+    assert ax.get_ylabel() == "|Z| [Ω]"
+    ax.set_ylim(94.5, 99.0)
+    fig.canvas.draw()
+    lo, hi = ax.get_ylim()
+    shown = [(t.get_position()[1], t.get_text()) for t in
+             ax.get_yticklabels() + ax.get_yticklabels(minor=True)
+             if t.get_text() and lo <= t.get_position()[1] <= hi]
+    texts = [t for _, t in shown]
+    assert len(texts) >= 3 and len(set(texts)) == len(texts)
+    assert all(abs(float(t) - y) < 1e-6 * y + 0.051 for y, t in shown)

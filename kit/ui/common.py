@@ -22,6 +22,7 @@ import re
 import warnings
 from typing import Any, Callable
 
+from kit.ui.frames import faster_frames
 from kit.units import from_unit, to_unit
 
 #: Message colours (error, note).
@@ -86,6 +87,7 @@ class FigureHost:
                     setattr(canvas, attr, val)
                 except Exception:  # noqa: BLE001 - older ipympl lacks some traits
                     pass
+            faster_frames(canvas)  # the same frames, encoded 3-4x faster (kit.ui.frames)
             self.widget = canvas
         else:
             from matplotlib.figure import Figure

@@ -160,6 +160,7 @@ class LotBrowser:
         self.layers = BlitLayers(fig, self._dynamic_artists, fallback=self.host.refresh)
         self.layers.add_band("plane", 0.0, _SPLIT, lambda: [self._plane_ax()])
         self.layers.add_band("rect", _SPLIT, 1.0, lambda: [self.ax_rect])
+        self.layers.add_patch("legend", lambda: [self.ax_rect.get_legend()])
         self._draw_plane_grid()
         kv.style_chart(self.ax_rect, chart)
         self._empty = self.ax_rect.text(0.5, 0.5, "select captures on the left", ha="center",
@@ -396,7 +397,7 @@ class LotBrowser:
             kv.style_chart(self.ax_rect, chart)
         self.ax_rect.set_xlim(*span)
         self._empty.set_visible(not self.traces)
-        self._fit_y()
+        self._fit_y(chart)
         self._fit_plane(pax)
         self._legend()
         self._draw_pins()
@@ -406,15 +407,22 @@ class LotBrowser:
         for fn in self._listeners:
             fn()
 
-    def _fit_y(self) -> None:
+    def _fit_y(self, chart: str) -> None:
         """y limits of the rectangular chart around the visible curves, then held (so that
-        pins and selection rectangles never rescale it)."""
+        pins and selection rectangles never rescale it). Within one chart the limits stay
+        while the curves still fill them well (:func:`kit.views.held_limits`): flipping
+        through similar parts leaves the axis, and its ticks, where they are."""
         ax = self.ax_rect
+        before = ax.get_ylim()
         ax.set_autoscaley_on(True)
         if self.traces:
             ax.relim(visible_only=True)
             ax.autoscale_view(scalex=False)
-        ax.set_ylim(ax.get_ylim())
+        wanted = ax.get_ylim()
+        if self.traces and self._signature.get("held") == chart:
+            wanted = kv.held_limits(before, wanted, log=ax.get_yscale() == "log")
+        ax.set_ylim(wanted)
+        self._signature["held"] = chart if self.traces else None
 
     def _fit_plane(self, pax) -> None:
         if self.plane.value == "circle" and self.traces:
@@ -441,15 +449,19 @@ class LotBrowser:
     def _note_changes(self, chart: str, pax) -> None:
         """Mark the band whose static parts changed (limits, scale, chart, legend)."""
         rect = (chart, self.ax_rect.get_xlim(), self.ax_rect.get_ylim(),
-                self.ax_rect.get_yscale(), self._signature.get("legend"),
-                self._empty.get_visible())
+                self.ax_rect.get_yscale(), self._empty.get_visible())
+        legend = self._signature.get("legend")
         if rect != self._signature.get("rect"):
-            self.layers.invalidate("rect")
+            # the whole look of the band, legend included: a return to it is restored
+            self.layers.invalidate("rect", key=(rect, legend))
+        elif legend != self._signature.get("legend drawn"):
+            self.layers.invalidate("legend")  # only the legend's own region
+        self._signature["legend drawn"] = legend
         lims = ((pax.get_ylim(),) if self.plane.value == "polar"
                 else (pax.get_xlim(), pax.get_ylim()))
         plane = (self.plane.value, self.traces[0].z0_ohm if self.traces else 50.0, lims)
         if plane != self._signature.get("plane"):
-            self.layers.invalidate("plane")
+            self.layers.invalidate("plane", key=plane)
         self._signature.update(rect=rect, plane=plane, chart=chart, z0=plane[1])
 
     # -- pins ----------------------------------------------------------------------------

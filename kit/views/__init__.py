@@ -30,6 +30,7 @@ Example
 
 from __future__ import annotations
 
+import math
 from typing import Any, Iterable
 
 import numpy as np
@@ -75,7 +76,7 @@ from kit.views.smith import (
 )
 
 __all__ = [
-    "CHARTS", "color", "columns_of", "DASHES", "legend_outside", "LEGEND_MAX", "style",
+    "CHARTS", "color", "columns_of", "DASHES", "held_limits", "legend_outside", "LEGEND_MAX", "style",
     "update_pins", "db20", "draw_pin", "draw_pins", "find_pin",
     "fit_polar_radius", "frame_return_loss", "frequency_axis", "gamma_from_z",
     "group_delay_s", "PIN_SEARCHES", "pin_reading", "pins_display", "pins_table", "overlay",
@@ -111,6 +112,45 @@ def _prefixed_formatter(unit: str, name: str):
             return quantity(value, unit, digits=7)
 
     return PrefixedFormatter()
+
+
+def _log_formatter(unit: str, minor: bool):
+    """Log-axis tick labels as plain numbers with an SI prefix ("20", "100", "1k", "10k"),
+    the unit being in the axis label, in place of matplotlib's mathtext powers of ten
+    ("$10^{3}$", "$9.5\\times10^{1}$"): easier to read, and drawn as plain text (a
+    mathtext label costs several times a plain one to lay out and draw). Which ticks carry
+    a label is matplotlib's rule (:class:`matplotlib.ticker.LogFormatter`)."""
+    from matplotlib.ticker import LogFormatter
+
+    class PrefixedLogFormatter(LogFormatter):
+        step = None  # tick spacing when the view spans less than a decade
+
+        def set_locs(self, locs=None) -> None:
+            super().set_locs(locs)
+            lo, hi = sorted(self.axis.get_view_interval())
+            inside = np.sort(np.asarray([] if locs is None else locs, float))
+            inside = inside[(inside >= lo) & (inside <= hi)]
+            gaps = np.diff(inside)
+            self.step = (float(gaps.min()) if lo > 0 and hi / lo < 10.0 and gaps.size
+                         and gaps.min() > 0 else None)
+
+        def _num_to_string(self, x, vmin, vmax) -> str:
+            # less than a decade: one prefix for the view, decimals that tell ticks apart
+            factor, shown = scale_for([vmax if self.step else x], unit)
+            prefix = shown[:len(shown) - len(unit)] if unit else ""
+            if self.step:
+                step = self.step * factor
+                decimals = max(0, -math.floor(math.log10(step) + 1e-9))
+                while decimals < 9 and abs(step * 10 ** decimals
+                                           - round(step * 10 ** decimals)) > 1e-6:
+                    decimals += 1  # 0.0025 needs four decimals, not three
+                return f"{x * factor:.{decimals}f}{prefix}"
+            return f"{x * factor:.3g}{prefix}"
+
+        def format_data_short(self, value) -> str:  # the cursor read-out of ipympl
+            return quantity(value, unit, digits=5)
+
+    return PrefixedLogFormatter(labelOnlyBase=not minor)
 
 
 def frequency_axis(ax) -> None:
@@ -202,6 +242,45 @@ def plot_chart(ax, t: Any, chart: str = "z_mag", i: int = 0, label: str | None =
 LEGEND_MAX = 24
 
 
+def held_limits(current, wanted, log: bool = False, fill: float = 0.6) -> tuple[float, float]:
+    """Axis limits that stay put while the data still fill them well.
+
+    Flipping through the parts of a lot, an axis that rescales to every capture moves its
+    ticks on every step (and costs a redraw of the axis). Here the limits become the union
+    of the ``current`` limits and the ``wanted`` ones (those that fit the data now), as long
+    as the wanted range covers at least ``fill`` of that union; otherwise the axis zooms to
+    ``wanted``. Hence an axis grows at once to show all data and shrinks only when the data
+    would use less than ``fill`` of it.
+
+    Parameters
+    ----------
+    current, wanted : (float, float)
+        Limits shown now and limits that fit the data (low, high) [axis unit].
+    log : bool
+        Compare extents in decades (a logarithmic axis; limits must be positive).
+    fill : float
+        Smallest share of the shown range the wanted range may cover [1].
+
+    Returns
+    -------
+    (float, float)
+        The limits to show (low, high).
+
+    References
+    ----------
+    .. [1] Hysteresis in axis rescaling: common practice in live plotting, no source.
+    """
+    lo, hi = sorted(map(float, wanted))
+    c0, c1 = sorted(map(float, current))
+    if not all(math.isfinite(v) for v in (lo, hi, c0, c1)) or (log and min(lo, c0) <= 0):
+        return lo, hi
+    u0, u1 = min(lo, c0), max(hi, c1)
+    ext = (lambda a, b: math.log10(b / a)) if log else (lambda a, b: b - a)
+    if ext(u0, u1) > 0 and ext(lo, hi) >= fill * ext(u0, u1):
+        return u0, u1
+    return lo, hi
+
+
 def legend_outside(ax, handles=None, side: str = "right", **kw):
     """A legend outside the axes' data area, so that it covers no curve and no caption.
 
@@ -252,6 +331,13 @@ def style_chart(ax, chart: str) -> None:
     frequency_axis(ax)
     ax.set_ylabel(c.ylabel)
     ax.set_yscale(c.yscale)
+    name, unit = c.ylabel[:-1].rsplit(" [", 1) if c.ylabel.endswith("]") else (c.ylabel, "")
+    unit = "" if unit == "1" else unit
+    if c.yscale == "log":
+        ax.yaxis.set_major_formatter(_log_formatter(unit, minor=False))
+        ax.yaxis.set_minor_formatter(_log_formatter(unit, minor=True))
+    elif unit == "Ω":  # ohms span mΩ to MΩ: ticks and label in the prefix of the range
+        ax.yaxis.set_major_formatter(_prefixed_formatter(unit, name))
 
 
 def update_line(line, t: Trace, chart: str, columns: int | None = None, span_hz=None) -> None:

@@ -22,10 +22,13 @@ References
 
 from __future__ import annotations
 
+from collections import OrderedDict
 from typing import Any, Callable, Iterable
 
 #: The kinds of render (:meth:`BlitLayers.render`), counted in :attr:`BlitLayers.counts`.
-RENDER_KINDS = ("full", "band", "blit")
+RENDER_KINDS = ("full", "band", "patch", "blit")
+#: Band pictures kept for a return to an earlier look (about 1 MB each for a lot browser).
+KEEP = 16
 
 
 class BlitLayers:
@@ -44,26 +47,34 @@ class BlitLayers:
     Attributes
     ----------
     counts : dict of str -> int
-        Renders by kind: "full" (whole figure), "band" (one band redrawn), "blit"
-        (dynamic artists only).
+        Renders by kind: "full" (whole figure), "band" (one band redrawn), "patch" (only
+        small regions such as a legend redrawn), "blit" (dynamic artists only).
     """
 
     def __init__(self, fig, dynamic: Callable[[], Iterable[Any]],
                  fallback: Callable[[], None] | None = None) -> None:
         from matplotlib.patches import Rectangle
+        from matplotlib.transforms import IdentityTransform
 
         self.fig = fig
         self.dynamic = dynamic
         self.fallback = fallback
         self.bands: dict[str, tuple[float, float, Callable[[], list[Any]]]] = {}
-        self._dirty: set[str] = set()
+        self.patches: dict[str, Callable[[], list[Any]]] = {}
+        self._extents: dict[str, Any] = {}
+        self._dirty: dict[str, Any] = {}  # band or patch -> key of its new look (or None)
+        self._kept: OrderedDict[tuple[str, Any], Any] = OrderedDict()
         self._bg = None
         self._bg_size: tuple[int, int] | None = None
         self._full = True
         self.counts = dict.fromkeys(RENDER_KINDS, 0)
+        self.counts["kept"] = 0  # band pictures restored instead of drawn
         self._blank = Rectangle((0, 0), 1, 1, transform=fig.transFigure, lw=0,
                                 antialiased=False)
         self._blank.set_figure(fig)
+        self._blank_px = Rectangle((0, 0), 1, 1, transform=IdentityTransform(), lw=0,
+                                   antialiased=False)
+        self._blank_px.set_figure(fig)
         if self.can_blit:
             fig.canvas.mpl_connect("draw_event", self._on_draw)
             # the figure is drawn by its layers only: pyplot's "draw when stale" would ask
@@ -82,12 +93,25 @@ class BlitLayers:
         must not overlap, and each axes must draw inside its band."""
         self.bands[name] = (float(x0), float(x1), axes)
 
-    def invalidate(self, band: str | None = None) -> None:
-        """The static parts of ``band`` (of the whole figure when None) have changed."""
+    def add_patch(self, name: str, artists: Callable[[], list[Any]]) -> None:
+        """A small static region: the extent of the artists ``artists()`` returns (a legend
+        outside the axes, say). Invalidated, only that region (old and new extent) is
+        cleared and those artists drawn again. Nothing else may be drawn there."""
+        self.patches[name] = artists
+        self._extents[name] = None
+
+    def invalidate(self, band: str | None = None, key: Any = None) -> None:
+        """The static parts of ``band`` or patch (of the whole figure when None) have
+        changed.
+
+        ``key`` (hashable) names the band's new look completely (limits, scale, chart,
+        legend...): the band's pixels are then kept under that key, and a later return to
+        the same look restores them instead of drawing the band again. The caller answers
+        for the key holding everything the band shows."""
         if band is None:
             self._full = True
         else:
-            self._dirty.add(band)
+            self._dirty[band] = key
 
     def mark_dynamic(self, artists: Iterable[Any]) -> None:
         """Mark artists as dynamic (left out of the kept background)."""
@@ -98,6 +122,70 @@ class BlitLayers:
         arts = [a for a in self.dynamic() if a.get_visible()
                 and (a.axes is None or a.axes.get_visible())]
         return sorted(arts, key=lambda a: a.get_zorder())
+
+    def _extent(self, name: str, renderer):
+        """Union of the window extents [pixel] of a patch's visible artists (None if none)."""
+        from matplotlib.transforms import Bbox
+
+        boxes = [a.get_window_extent(renderer) for a in self.patches[name]()
+                 if a is not None and a.get_visible()]
+        return Bbox.union(boxes) if boxes else None
+
+    def _note_extents(self, renderer) -> None:
+        for name in self.patches:
+            self._extents[name] = self._extent(name, renderer)
+
+    def _redraw_patch(self, name: str, renderer, redrawn: list[tuple[float, float]]) -> bool:
+        """Clear a patch's old and new extent and draw its artists; False when a band
+        redrawn in this render already covered it."""
+        from matplotlib.transforms import Bbox
+
+        old, new = self._extents.get(name), self._extent(name, renderer)
+        boxes = [b for b in (old, new) if b is not None]
+        self._extents[name] = new
+        if not boxes:
+            return False
+        box = Bbox.union(boxes).padded(2.0)
+        width = self.fig.bbox.width
+        if any(x0 * width <= box.x0 and box.x1 <= x1 * width for x0, x1 in redrawn):
+            return False
+        self._blank_px.set_bounds(box.x0, box.y0, box.width, box.height)
+        self._blank_px.set_facecolor(self.fig.get_facecolor())
+        self._blank_px.draw(renderer)
+        for a in self.patches[name]():
+            if a is not None and a.get_visible():
+                a.draw(renderer)
+        return True
+
+    def _draw_band(self, name: str, key: Any, renderer) -> None:
+        """Draw a band's static parts again, or restore its pixels kept under ``key``."""
+        from matplotlib.transforms import Bbox
+
+        canvas = self.fig.canvas
+        x0, x1, axes = self.bands[name]
+        if key is not None and (name, key) in self._kept:
+            self._kept.move_to_end((name, key))
+            canvas.restore_region(self._kept[(name, key)])
+            for ax in axes():
+                # what Axes.draw would have done before drawing: an equal-aspect axes
+                # (Smith chart) takes its final box now, and the traces drawn over the
+                # restored pixels go through the same transform
+                if ax.get_visible():
+                    ax.apply_aspect()
+            self.counts["kept"] += 1
+            return
+        self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
+        self._blank.set_facecolor(self.fig.get_facecolor())
+        self._blank.draw(renderer)
+        for ax in axes():
+            if ax.get_visible():
+                ax.draw(renderer)  # animated children are left out
+        if key is not None:
+            w, h = self.fig.bbox.width, self.fig.bbox.height
+            self._kept[(name, key)] = canvas.copy_from_bbox(
+                Bbox.from_extents(x0 * w, 0.0, x1 * w, h))
+            while len(self._kept) > KEEP:
+                self._kept.popitem(last=False)
 
     def _draw_dynamic(self, renderer) -> None:
         for a in self._ordered():
@@ -113,8 +201,10 @@ class BlitLayers:
         renderer = canvas.get_renderer()
         self._bg = canvas.copy_from_bbox(self.fig.bbox)
         self._bg_size = canvas.get_width_height(physical=True)
+        self._note_extents(renderer)
         self._full = False
         self._dirty.clear()
+        self._kept.clear()  # a full draw: maybe another size, or other static parts
         self._draw_dynamic(renderer)
 
     def render(self) -> str:
@@ -140,14 +230,16 @@ class BlitLayers:
         kind = "blit"
         if self._dirty:
             kind = "band"
-            for name in sorted(self._dirty):
-                x0, x1, axes = self.bands[name]
-                self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
-                self._blank.set_facecolor(self.fig.get_facecolor())
-                self._blank.draw(renderer)
-                for ax in axes():
-                    if ax.get_visible():
-                        ax.draw(renderer)  # animated children are left out
+            redrawn = []
+            for name in sorted(set(self._dirty) & set(self.bands)):
+                self._draw_band(name, self._dirty[name], renderer)
+                redrawn.append(self.bands[name][:2])
+            patched = [self._redraw_patch(name, renderer, redrawn)
+                       for name in sorted(set(self._dirty) & set(self.patches))]
+            if not redrawn:
+                kind = "patch" if any(patched) else "blit"
+            if redrawn:
+                self._note_extents(renderer)
             self._dirty.clear()
             self._bg = canvas.copy_from_bbox(self.fig.bbox)
         self._draw_dynamic(renderer)
@@ -159,4 +251,4 @@ class BlitLayers:
         return kind
 
 
-__all__ = ["BlitLayers", "RENDER_KINDS"]
+__all__ = ["BlitLayers", "KEEP", "RENDER_KINDS"]
