@@ -119,6 +119,7 @@ class LotBrowser:
         self.pin_artists: list[Any] = []
         self._pins_rect: list[Any] = []
         self._pins_plane: list[Any] = []
+        self._spare_pins: dict[str, list[Any]] = {"rect": [], "plane": []}  # hidden, reused
         self.pins: list[dict[str, Any]] = []
         self._listeners: list[Callable[[], None]] = []
         self._signature: dict[str, Any] = {}
@@ -498,11 +499,13 @@ class LotBrowser:
             plane.append((*kv.plane_point(r, self.plane.value), r["pin"]))
         pax = self._plane_ax()
         if self._pins_plane and self._pins_plane[0].axes is not pax:
-            for a in self._pins_plane:
+            for a in self._pins_plane + self._spare_pins["plane"]:
                 a.remove()
-            self._pins_plane = []
-        self._pins_rect = kv.update_pins(self.ax_rect, self._pins_rect, rect)
-        self._pins_plane = kv.update_pins(pax, self._pins_plane, plane)
+            self._pins_plane, self._spare_pins["plane"] = [], []
+        self._pins_rect = kv.update_pins(self.ax_rect, self._pins_rect, rect,
+                                         spare=self._spare_pins["rect"])
+        self._pins_plane = kv.update_pins(pax, self._pins_plane, plane,
+                                          spare=self._spare_pins["plane"])
         self.pin_artists = self._pins_rect + self._pins_plane
         self.layers.mark_dynamic(self.pin_artists)
 

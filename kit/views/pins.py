@@ -221,7 +221,7 @@ def _new_pin(ax, color: str, **kw) -> list[Any]:
     return [dot, head]
 
 
-def update_pins(ax, artists, pins, **kw) -> list[Any]:
+def update_pins(ax, artists, pins, spare: list | None = None, **kw) -> list[Any]:
     """Move existing pin artists to new pins; make or remove artists only for a change in
     their number (:func:`draw_pins` places the heads the same way).
 
@@ -231,6 +231,10 @@ def update_pins(ax, artists, pins, **kw) -> list[Any]:
     artists : list of matplotlib artists
         [dot, head, dot, head, ...] from an earlier call (or []), all on ``ax``.
     pins : iterable of (x, y, name)
+    spare : list, optional
+        Hidden pin artists on ``ax`` kept for reuse: artists no longer needed are hidden
+        and put here instead of being removed, and new pins take theirs from here first
+        (making a pin's artists costs more than moving them).
     **kw
         Line properties of new dots (default colour :data:`PIN_COLOR`).
 
@@ -243,9 +247,20 @@ def update_pins(ax, artists, pins, **kw) -> list[Any]:
     pins = list(pins)
     arts = list(artists)
     while len(arts) > 2 * len(pins):
-        arts.pop().remove()
+        a = arts.pop()
+        if spare is None:
+            a.remove()
+        else:
+            a.set_visible(False)
+            spare.append(a)
     while len(arts) < 2 * len(pins):
-        arts += _new_pin(ax, color, **kw)
+        if spare and len(spare) >= 2 and spare[-1].axes is ax:
+            pair = [spare.pop(), spare.pop()]  # put away head first: back as (dot, head)
+            for a in pair:
+                a.set_visible(True)
+            arts += pair
+        else:
+            arts += _new_pin(ax, color, **kw)
     if not pins:
         return arts
     canvas = ax.figure.canvas
