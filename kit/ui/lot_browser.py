@@ -16,6 +16,7 @@ Computation happens in kit functions only: :func:`kit.load_folder`,
 
 from __future__ import annotations
 
+import functools
 from collections import OrderedDict
 from pathlib import Path
 from typing import Any, Callable
@@ -162,6 +163,9 @@ class LotBrowser:
         self.layers.add_band("plane", 0.0, _SPLIT, lambda: [self._plane_ax()])
         self.layers.add_band("rect", _SPLIT, 1.0, lambda: [self.ax_rect])
         self.layers.add_patch("legend", lambda: [self.ax_rect.get_legend()])
+        for axis in ("x", "y"):  # tick labels kept as pixels when only the other axis moves
+            self.layers.add_strip(f"{axis} labels", functools.partial(_axis_texts, self.ax_rect,
+                                                                      axis))
         self._draw_plane_grid()
         kv.style_chart(self.ax_rect, chart)
         self._empty = self.ax_rect.text(0.5, 0.5, "select captures on the left", ha="center",
@@ -452,9 +456,14 @@ class LotBrowser:
         rect = (chart, self.ax_rect.get_xlim(), self.ax_rect.get_ylim(),
                 self.ax_rect.get_yscale(), self._empty.get_visible())
         legend = self._signature.get("legend")
-        if rect != self._signature.get("rect"):
-            # the whole look of the band, legend included: a return to it is restored
-            self.layers.invalidate("rect", key=(rect, legend))
+        old = self._signature.get("rect")
+        if rect != old:
+            # the whole look of the band, legend included: a return to it is restored;
+            # when only one axis moved, the other one's labels keep their pixels
+            same = [old is not None and rect[i] == old[i] for i in range(len(rect))]
+            keep = (["x labels"] * same[1]                       # x labels: the span only
+                    + ["y labels"] * (same[0] and same[2] and same[3]))  # chart, limits, scale
+            self.layers.invalidate("rect", key=(rect, legend), keep=keep)
         elif legend != self._signature.get("legend drawn"):
             self.layers.invalidate("legend")  # only the legend's own region
         self._signature["legend drawn"] = legend
@@ -520,6 +529,13 @@ class LotBrowser:
         self._span_selector = SpanSelector(self.ax_rect, self.message.guard(_picked), "horizontal",
                                            useblit=False, props={"alpha": 0.15,
                                                                  "facecolor": kv.color(0)})
+
+
+def _axis_texts(ax, axis: str) -> list[Any]:
+    """The tick labels (major and minor), the label and the offset text of one axis."""
+    a = ax.xaxis if axis == "x" else ax.yaxis
+    ticks = a.get_major_ticks() + a.get_minor_ticks()
+    return [t.label1 for t in ticks] + [t.label2 for t in ticks] + [a.label, a.offsetText]
 
 
 def lot_browser(source, pattern: str | None = None, correction: Callable | None = None,

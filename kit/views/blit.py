@@ -31,6 +31,10 @@ RENDER_KINDS = ("full", "band", "patch", "blit")
 KEEP = 16
 
 
+def _skip(renderer) -> None:
+    """Draw nothing (stands in for the draw of an artist whose pixels are kept)."""
+
+
 class BlitLayers:
     """Static background kept as pixels; dynamic artists drawn over it on each render.
 
@@ -61,6 +65,8 @@ class BlitLayers:
         self.fallback = fallback
         self.bands: dict[str, tuple[float, float, Callable[[], list[Any]]]] = {}
         self.patches: dict[str, Callable[[], list[Any]]] = {}
+        self.strips: dict[str, Callable[[], list[Any]]] = {}
+        self._keep: dict[str, set[str]] = {}
         self._extents: dict[str, Any] = {}
         self._dirty: dict[str, Any] = {}  # band or patch -> key of its new look (or None)
         self._kept: OrderedDict[tuple[str, Any], Any] = OrderedDict()
@@ -69,6 +75,7 @@ class BlitLayers:
         self._full = True
         self.counts = dict.fromkeys(RENDER_KINDS, 0)
         self.counts["kept"] = 0  # band pictures restored instead of drawn
+        self.counts["strip"] = 0  # strips of a band kept while the band was drawn
         self._blank = Rectangle((0, 0), 1, 1, transform=fig.transFigure, lw=0,
                                 antialiased=False)
         self._blank.set_figure(fig)
@@ -100,17 +107,29 @@ class BlitLayers:
         self.patches[name] = artists
         self._extents[name] = None
 
-    def invalidate(self, band: str | None = None, key: Any = None) -> None:
+    def add_strip(self, name: str, artists: Callable[[], list[Any]]) -> None:
+        """Artists inside a band whose pixels can be kept when the band is drawn again
+        without them changing (an axis's tick labels and label when only the other axis
+        moved): :meth:`invalidate` with ``keep=(name,)``."""
+        self.strips[name] = artists
+
+    def invalidate(self, band: str | None = None, key: Any = None,
+                   keep: Iterable[str] = ()) -> None:
         """The static parts of ``band`` or patch (of the whole figure when None) have
         changed.
 
         ``key`` (hashable) names the band's new look completely (limits, scale, chart,
         legend...): the band's pixels are then kept under that key, and a later return to
         the same look restores them instead of drawing the band again. The caller answers
-        for the key holding everything the band shows."""
+        for the key holding everything the band shows.
+
+        ``keep`` names strips (:meth:`add_strip`) whose artists did not change: the band is
+        drawn without them and their old pixels are put back (text is the costly part of
+        a band)."""
         if band is None:
             self._full = True
         else:
+            self._keep[band] = set(keep) & self._keep.get(band, set(keep))
             self._dirty[band] = key
 
     def mark_dynamic(self, artists: Iterable[Any]) -> None:
@@ -174,18 +193,63 @@ class BlitLayers:
                     ax.apply_aspect()
             self.counts["kept"] += 1
             return
-        self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
-        self._blank.set_facecolor(self.fig.get_facecolor())
-        self._blank.draw(renderer)
-        for ax in axes():
-            if ax.get_visible():
-                ax.draw(renderer)  # animated children are left out
+        keep = self._keep.pop(name, set())
+        kept = self._strip_boxes(keep, renderer)  # (artist, pixel box) before the draw
+        self._paint_band(x0, x1, axes, [a for a, _ in kept])
+        if kept and self._overlaps_others(kept, keep, renderer):
+            kept = []  # a kept label would cover a new one: draw the band in full instead
+            self._paint_band(x0, x1, axes, [])
+        height = self.fig.bbox.height
+        for _, box in kept:  # the strips' old pixels, from the picture before this render
+            top, bottom = height - box.y1, height - box.y0  # the region's rows run downwards
+            canvas.restore_region(self._bg, bbox=(box.x0, top, box.x1, bottom), xy=(0, 0))
+        self.counts["strip"] += bool(kept)
         if key is not None:
             w, h = self.fig.bbox.width, self.fig.bbox.height
             self._kept[(name, key)] = canvas.copy_from_bbox(
                 Bbox.from_extents(x0 * w, 0.0, x1 * w, h))
             while len(self._kept) > KEEP:
                 self._kept.popitem(last=False)
+
+    def _paint_band(self, x0: float, x1: float, axes, skipped: list[Any]) -> None:
+        """Clear a band and draw its axes, leaving out the ``skipped`` artists."""
+        renderer = self.fig.canvas.get_renderer()
+        for a in skipped:
+            # skipped, not hidden: a hidden tick label would move the axis label, which
+            # matplotlib places from the tick labels' extents during the draw
+            a.draw = _skip
+        try:
+            self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
+            self._blank.set_facecolor(self.fig.get_facecolor())
+            self._blank.draw(renderer)
+            for ax in axes():
+                if ax.get_visible():
+                    ax.draw(renderer)  # animated children are left out
+        finally:
+            for a in skipped:
+                del a.draw
+
+    def _texts(self, names: Iterable[str]) -> list[Any]:
+        return [a for n in names for a in self.strips[n]()
+                if a is not None and a.get_visible()
+                and (not hasattr(a, "get_text") or a.get_text())]
+
+    def _strip_boxes(self, names: Iterable[str], renderer) -> list[tuple[Any, Any]]:
+        """(artist, whole-pixel box around it) of every visible artist of the strips."""
+        from matplotlib.transforms import Bbox
+
+        out = []
+        for a in self._texts(sorted(names)):
+            b = a.get_window_extent(renderer).padded(1.0)
+            out.append((a, Bbox.from_extents(int(max(b.x0, 0.0)), int(max(b.y0, 0.0)),
+                                             int(b.x1) + 1, int(b.y1) + 1)))
+        return out
+
+    def _overlaps_others(self, kept, keep: set[str], renderer) -> bool:
+        """Whether a kept box meets an artist of the other strips, as just drawn."""
+        others = [a.get_window_extent(renderer)
+                  for a in self._texts(n for n in self.strips if n not in keep)]
+        return any(box.overlaps(o) for _, box in kept for o in others)
 
     def _draw_dynamic(self, renderer) -> None:
         for a in self._ordered():
@@ -204,6 +268,7 @@ class BlitLayers:
         self._note_extents(renderer)
         self._full = False
         self._dirty.clear()
+        self._keep.clear()
         self._kept.clear()  # a full draw: maybe another size, or other static parts
         self._draw_dynamic(renderer)
 
@@ -241,6 +306,7 @@ class BlitLayers:
             if redrawn:
                 self._note_extents(renderer)
             self._dirty.clear()
+            self._keep.clear()
             self._bg = canvas.copy_from_bbox(self.fig.bbox)
         self._draw_dynamic(renderer)
         canvas.blit(self.fig.bbox)
