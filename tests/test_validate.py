@@ -146,3 +146,15 @@ def test_missing_inputs_are_problems(tmp_path, demo_proc):
     probs = validate(demo_proc, [tmp_path / "nope", tmp_path / "empty"])
     assert codes(probs) == ["no-inputs", "no-inputs"]
     assert probs[0].path == str(tmp_path / "nope") and "holds no Touchstone" in probs[1].message
+
+
+def test_only_number_fields_of_the_name_pattern_take_limits(tmp_path):
+    """A plain ``{serial}`` field is text (kit/io/names.py: "{serial} keeps '01'"), so a bound
+    on it is refused as a column the summary has no number in; ``{serial:int}`` gives an
+    integer column, which a bound may judge."""
+    p = tmp_path / "proc.toml"
+    p.write_text('[import]\nname_pattern = "{lot}-{serial}"\n[limits]\nserial = { min = 1 }\n')
+    (prob,) = validate(p)
+    assert prob.code == "limit-column" and "'serial'" in prob.message and prob.line == 4
+    p.write_text('[import]\nname_pattern = "{lot}-{serial:int}"\n[limits]\nserial = { min = 1 }\n')
+    assert validate(p) == []

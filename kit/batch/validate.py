@@ -60,13 +60,15 @@ def produced_columns(doc: dict[str, Any]) -> tuple[set[str], set[str]]:
     cols |= set(RESONANCE_COLUMNS) | set(RESONANCE_EXTRA)
     pattern = (doc.get("import") or {}).get("name_pattern")
     if isinstance(pattern, str):
-        from kit.io.names import compile_pattern
+        from kit.io.names import compile_pattern, number_fields
 
         try:
-            for f in compile_pattern(pattern).groupindex:
-                cols.add(f"field_{f}" if f in cols or f in ("capture", "path") else f)
+            compile_pattern(pattern)
         except ValueError:
-            pass
+            pass  # the pattern is reported elsewhere
+        else:  # text fields ({serial}) are columns too, but not numbers a limit can bound
+            for f in number_fields(pattern):
+                cols.add(f"field_{f}" if f in cols or f in ("capture", "path") else f)
     fit_all = set()
     for col in dict.fromkeys(PARAM_COLUMNS.values()):
         fit_all |= {col, unit_column(col, "stderr")}
