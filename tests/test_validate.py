@@ -158,3 +158,33 @@ def test_only_number_fields_of_the_name_pattern_take_limits(tmp_path):
     assert prob.code == "limit-column" and "'serial'" in prob.message and prob.line == 4
     p.write_text('[import]\nname_pattern = "{lot}-{serial:int}"\n[limits]\nserial = { min = 1 }\n')
     assert validate(p) == []
+
+
+def test_the_validator_and_the_reader_say_the_same_of_standards_and_double_limits(tmp_path):
+    """One check each (common practice, no source: one rule must not say two things): every
+    missing standard the validator lists is in the error of building the correction, and
+    every bound or mask it finds both inline and in the limits file (a mask without a name
+    is "mask1", docs/limits.md) is in the error of reading the limits, in the same words."""
+    p = tmp_path / "proc.toml"
+    p.write_text('[[correction]]\nkind = "osl"\nopen = "o.s1p"\nshort = "s.s1p"\n'
+                 'load = "l.s1p"\n')
+    proc = Procedure.from_file(p)
+    probs = validate(p)
+    assert [x.code for x in probs] == ["missing-file"] * 3
+    with pytest.raises(ProcedureError) as err:
+        proc.build_corrections()
+    assert all(f"{x.message} ({x.fix})" in str(err.value) for x in probs)
+
+    (tmp_path / "limits.toml").write_text(
+        '[quantity.k_eff]\nmin = 0.3\n[quantity.fs_hz]\nmin = 1e6\n'
+        '[[mask]]\ncurve = "z_mag_ohm"\nf_min_hz = 1e6\nf_max_hz = 2e6\nlower = 1.0\n')
+    p.write_text('limits_file = "limits.toml"\n[limits]\nk_eff = { min = 0.4 }\n'
+                 'fs_hz = { max = 2e6 }\n[[limits.mask]]\nname = "mask1"\ncurve = "z_mag_ohm"\n'
+                 'f_min_hz = 1e6\nf_max_hz = 2e6\nupper = 1e3\n')
+    probs = validate(p)
+    assert [(x.code, x.line) for x in probs] == [("duplicate-limit", 3), ("duplicate-limit", 4),
+                                                 ("duplicate-limit", 5)]
+    with pytest.raises(ProcedureError) as err:
+        Procedure.from_file(p)
+    assert all(f"{x.message} ({x.fix})" in str(err.value) for x in probs)
+    assert "mask 'mask1'" in str(err.value)

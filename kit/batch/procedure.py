@@ -22,6 +22,7 @@ import os
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+from types import SimpleNamespace
 from typing import Any
 
 from kit.batch.schema import (  # noqa: F401 - the format's names, kept importable from here
@@ -202,19 +203,31 @@ class Procedure:
         fname, path_keys = CORRECTION_KINDS[c["kind"]]
         args = {k: v for k, v in c.items() if k != "kind"}
         what = f"correction {i + 1} ({c['kind']})"
+        missing = self.missing_standards(i, c)
+        if missing:
+            raise ProcedureError(problems_text([SimpleNamespace(line=None, message=m, fix=STANDARD_FIX)
+                                                for _, m in missing]), self.source)
         for key in path_keys:
             if isinstance(args.get(key), str):
-                p = self.resolve(args[key])
-                if not p.is_file():
-                    raise ProcedureError(f"{what}: {key} standard {p} does not exist",
-                                         self.source)
-                args[key] = p
+                args[key] = self.resolve(args[key])
         try:
             return getattr(kc, fname)(**args)
         except CaptureError:
             raise
         except (TypeError, ValueError) as exc:
             raise ProcedureError(f"{what}: {exc}", self.source) from None
+
+    def missing_standards(self, i: int, c: dict[str, Any]) -> list[tuple[str, str]]:
+        """(key, message) of every standard of correction ``i`` (0-based) whose file does not
+        exist; the one check of :meth:`build_correction` and of the validator."""
+        out = []
+        for key in CORRECTION_KINDS[c["kind"]][1]:
+            if isinstance(c.get(key), str):
+                p = self.resolve(c[key])
+                if not p.is_file():
+                    out.append((key, f"correction {i + 1} ({c['kind']}): {key} standard {p} "
+                                "does not exist"))
+        return out
 
     def limits_object(self):
         """The limits as a :class:`kit.review.limits.Limits` (None without limits).
@@ -248,13 +261,36 @@ class Procedure:
                 raise ProcedureError(str(exc).replace("quantity.", ""), self.source) from None
         if inline is None or from_file is None:
             return inline or from_file
-        both = sorted({q.name for q in inline.quantities} & {q.name for q in from_file.quantities}
-                      | {m.name for m in inline.masks} & {m.name for m in from_file.masks})
+        both = limited_twice(([q.name for q in inline.quantities], [m.name for m in inline.masks]),
+                             ([q.name for q in from_file.quantities],
+                              [m.name for m in from_file.masks]), self.limits_file)
         if both:
-            raise ProcedureError(f"{', '.join(both)} limited both in [limits] and in "
-                                 f"{self.limits_file}; keep one of the two", self.source)
+            raise ProcedureError(problems_text([SimpleNamespace(line=None, message=m, fix=TWICE_FIX)
+                                                for _, _, m in both]), self.source)
         return Limits(from_file.quantities + inline.quantities, from_file.masks + inline.masks,
                       inline.name, f"{from_file.source} + [limits] of {self.source}")
+
+
+#: What to do about a standard that does not exist.
+STANDARD_FIX = "write the path relative to the procedure file's folder"
+#: What to do about a bound or mask both in ``[limits]`` and in the limits file.
+TWICE_FIX = "keep one of the two"
+
+
+def limited_twice(inline: tuple[Any, Any], from_file: tuple[Any, Any],
+                  limits_file: Any) -> list[tuple[str, str, str]]:
+    """Bounds and masks given both inline and in the limits file, which a merge would have to
+    guess between: (kind "quantity" or "mask", name, message) for each, quantities first.
+
+    ``inline`` and ``from_file`` are each (quantity columns, mask names); the one check of
+    :meth:`Procedure.limits_object` and of the validator.
+    """
+    out = []
+    for k, kind in enumerate(("quantity", "mask")):
+        for name in sorted(set(map(str, inline[k])) & set(map(str, from_file[k]))):
+            label = name if kind == "quantity" else f"mask {name!r}"
+            out.append((kind, name, f"{label} limited both in [limits] and in {limits_file}"))
+    return out
 
 
 def problems_text(problems) -> str:

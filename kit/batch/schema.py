@@ -385,7 +385,7 @@ def limit_text(exc: Exception) -> str:
 
 
 def check_masks(col: Collector, masks: Any, path: tuple, what: str) -> list[str]:
-    from kit.review.limits import LimitsError, limits_from_dict
+    from kit.review.limits import LimitsError, limits_from_dict, mask_name
 
     if not isinstance(masks, list):
         col.add(path, f"{what}: masks are written [[{'.'.join(path)}]]", "make each mask an "
@@ -398,7 +398,7 @@ def check_masks(col: Collector, masks: Any, path: tuple, what: str) -> list[str]
             continue
         unknown_keys(col, m, MASK_KEYS, mpath, f"mask {i + 1}")
         m = {k: v for k, v in m.items() if k in MASK_KEYS}
-        names.append(str(m.get("name") or f"mask{i + 1}"))
+        names.append(mask_name(m, i))
         try:
             limits_from_dict({"mask": [m]}, source="@")
         except LimitsError as exc:

@@ -22,7 +22,14 @@ import tomllib
 from pathlib import Path
 from typing import Any
 
-from kit.batch.procedure import CORRECTION_KINDS, MIN_SPAN_HZ, Procedure
+from kit.batch.procedure import (
+    CORRECTION_KINDS,
+    MIN_SPAN_HZ,
+    STANDARD_FIX,
+    TWICE_FIX,
+    Procedure,
+    limited_twice,
+)
 from kit.batch.schema import (
     LIMITS_FILE_KEYS,
     Collector,
@@ -151,20 +158,15 @@ def _limits_file(doc: dict, base: Path, pcol: Collector) -> tuple[Collector | No
 
 
 def _standards(doc: dict, base: Path, col: Collector) -> bool:
-    """Missing standards; True when every correction could be set up."""
+    """Missing standards (:meth:`Procedure.missing_standards`); True when there are none."""
     ok = True
+    proc = Procedure(base_dir=base, source=col.source)
     for i, c in enumerate(doc.get("correction") or []):
         if not isinstance(c, dict) or c.get("kind") not in CORRECTION_KINDS:
             continue
-        for key in CORRECTION_KINDS[c["kind"]][1]:
-            v = c.get(key)
-            if isinstance(v, str):
-                p = Path(v) if Path(v).is_absolute() else base / v
-                if not p.is_file():
-                    ok = False
-                    col.add(("correction", i, key), f"correction {i + 1} ({c['kind']}): {key} "
-                            f"standard {p} does not exist", "write the path relative to the "
-                            "procedure file's folder", "missing-file")
+        for key, message in proc.missing_standards(i, c):
+            ok = False
+            col.add(("correction", i, key), message, STANDARD_FIX, "missing-file")
     return ok
 
 
@@ -292,15 +294,13 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
     lim = doc.get("limits") if isinstance(doc.get("limits"), dict) else {}
     entries = [(k, ("limits", k)) for k in lim if k not in ("mask", "name")]
     _column_problems(col, doc, entries)
-    if isinstance(ldoc.get("quantity"), dict):
-        both = sorted(set(ldoc["quantity"]) & {k for k, _ in entries})
-        for k in both:
-            col.add(("limits", k), f"{k} is limited both in [limits] and in "
-                    f"{doc['limits_file']}", "keep one of the two bounds", "duplicate-limit")
-    if isinstance(ldoc.get("mask"), list) and isinstance(lim.get("mask"), list):
-        for k in sorted(_mask_names(ldoc["mask"]) & _mask_names(lim["mask"])):
-            col.add(("limits", "mask"), f"a mask named {k!r} is in both [limits] and "
-                    f"{doc['limits_file']}", "name the masks differently", "duplicate-limit")
+    if ldoc:
+        fq = ldoc.get("quantity") if isinstance(ldoc.get("quantity"), dict) else {}
+        for kind, k, message in limited_twice(
+                ([k for k, _ in entries], _mask_names(lim.get("mask"))),
+                (list(fq), _mask_names(ldoc.get("mask"))), doc["limits_file"]):
+            col.add(("limits", k) if kind == "quantity" else ("limits", "mask"), message,
+                    TWICE_FIX, "duplicate-limit")
     if _standards(doc, base, col) and not structure_problems(
             {"correction": doc.get("correction") or []}):
         _setup_corrections(doc, base, source, col)
@@ -327,9 +327,12 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
     return sorted(found, key=lambda p: (order.get(p.path, 2), p.line or math.inf))
 
 
-def _mask_names(masks: list) -> set[str]:
-    return {str(m.get("name") or f"mask{i + 1}") for i, m in enumerate(masks)
-            if isinstance(m, dict)}
+def _mask_names(masks: Any) -> list[str]:
+    from kit.review.limits import mask_name
+
+    if not isinstance(masks, list):
+        return []
+    return [mask_name(m, i) for i, m in enumerate(masks) if isinstance(m, dict)]
 
 
 def _setup_corrections(doc: dict, base: Path, source: str, col: Collector) -> None:
