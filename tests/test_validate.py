@@ -188,3 +188,25 @@ def test_the_validator_and_the_reader_say_the_same_of_standards_and_double_limit
         Procedure.from_file(p)
     assert all(f"{x.message} ({x.fix})" in str(err.value) for x in probs)
     assert "mask 'mask1'" in str(err.value)
+
+
+def test_python_callers_are_refused_limits_on_columns_the_run_will_not_fill(tmp_path):
+    """Procedure.from_dict (what kit.batch.run takes from Python) refuses a bound on a column
+    the summary will not have (docs/procedure.md, "[limits]"), inline or in the limits file,
+    with the validator's message."""
+    from kit.batch.engine import run
+
+    doc = {"limits": {"qn": {"min": 50}, "c0_f": {"max": 1e-9}}}
+    (want_qn, want_c0) = validate(doc)
+    with pytest.raises(ProcedureError) as err:
+        Procedure.from_dict(doc)
+    assert want_qn.message in str(err.value) and want_c0.message in str(err.value)
+    assert "did you mean 'qm'" in str(err.value) and "add a [fit] table" in str(err.value)
+    with pytest.raises(ProcedureError, match="'qn'"):  # a Procedure made directly, too
+        run(Procedure(limits=doc["limits"]), tmp_path, use_cache=False)
+    (tmp_path / "limits.toml").write_text('[quantity.fs_hz]\nmin = 1e6\n[quantity.qmm]\nmin = 5\n')
+    (tmp_path / "proc.toml").write_text('limits_file = "limits.toml"\n')
+    (prob,) = validate(tmp_path / "proc.toml")
+    with pytest.raises(ProcedureError) as err:
+        Procedure.from_dict({"limits_file": "limits.toml"}, base_dir=tmp_path)
+    assert prob.message in str(err.value) and "did you mean 'qm'" in str(err.value)

@@ -411,7 +411,13 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
     """
     from kit.outputs.summary import summary_frame
 
-    proc = procedure if isinstance(procedure, Procedure) else Procedure.from_file(procedure)
+    if isinstance(procedure, Procedure):
+        # a Procedure made in Python is refused what its file would be (workers read it so)
+        Procedure.from_dict(procedure.to_dict(), base_dir=procedure.base_dir,
+                            source=procedure.source or "<procedure>")
+        proc = procedure
+    else:
+        proc = Procedure.from_file(procedure)
     items = expand_inputs(inputs)
     if not items:
         raise ProcedureError("no inputs: give Touchstone files or folders that hold some")

@@ -31,6 +31,8 @@ from kit.batch.schema import (  # noqa: F401 - the format's names, kept importab
     FORMAT_VERSION,
     IMPORT_METHODS,
     MIN_SPAN_HZ,
+    Collector,
+    column_problems,
     correction_keys,
     structure_problems,
 )
@@ -86,9 +88,10 @@ class Procedure:
         """Validate a parsed procedure; raises ProcedureError listing every problem of its
         keys, kinds, models, spans and limits (:func:`kit.batch.schema.structure_problems`).
 
-        ``text`` (the TOML source, when known) only serves to name lines. Files (standards,
-        the limits file) are checked by :func:`kit.batch.validate.validate`; a limits file is
-        read here, so that a missing one is refused now, not on the hundredth capture.
+        ``text`` (the TOML source, when known) only serves to name lines. Standards are
+        checked by :func:`kit.batch.validate.validate`; a limits file is read here, so that a
+        missing one, or a bound in it on a column the run will not fill, is refused now, not on
+        the hundredth capture (the validator's words, :func:`kit.batch.schema.column_problems`).
         """
         problems = structure_problems(doc, source, text)
         if problems:
@@ -110,7 +113,15 @@ class Procedure:
                    base_dir=Path(base_dir).resolve(), source=source,
                    limits_file=doc.get("limits_file"),
                    description=str(doc.get("description", "")))
-        proc.limits_object()  # validate now, not on the hundredth capture
+        lim = proc.limits_object()  # validate now, not on the hundredth capture
+        if lim is not None and proc.limits_file:  # the inline bounds were checked above
+            inline = set(proc.limits or {})
+            col = Collector(source, text)
+            column_problems(col, doc, [(q.name, ("limits_file",)) for q in lim.quantities
+                                       if q.name not in inline])
+            if col.problems:
+                raise ProcedureError(problems_text(col.problems), source,
+                                     col.problems[0].line, col.problems)
         return proc
 
     @classmethod

@@ -36,10 +36,11 @@ from kit.batch.schema import (
     Problem,
     accepted_keys,
     check_masks,
+    column_problems,
     key_lines,
     limit_entries,
     limit_text,
-    nearest,
+    produced_columns,
     structure_problems,
     syntax_problem,
     unknown_keys,
@@ -52,71 +53,6 @@ __all__ = ["Problem", "validate", "structure_problems", "accepted_keys", "produc
 #: Input files whose frequency range is read (pre-flight scan) to check the spans: the first,
 #: the last and evenly spaced ones between; a lot is taken to share one sweep plan.
 SAMPLE = 5
-
-
-# ---------------------------------------------------------------------- columns
-def produced_columns(doc: dict[str, Any]) -> tuple[set[str], set[str]]:
-    """(numeric summary columns a run of this procedure fills, those only a fit fills).
-
-    Names and units: docs/nomenclature.md; columns of :mod:`kit.outputs.summary`.
-    """
-    from kit.outputs.entries import unit_column
-    from kit.outputs.summary import PARAM_COLUMNS, RESONANCE_COLUMNS, RESONANCE_EXTRA
-
-    cols = {"ports", "points", "f_start_hz", "f_stop_hz", "z0_ohm"}
-    cols |= set(RESONANCE_COLUMNS) | set(RESONANCE_EXTRA)
-    pattern = (doc.get("import") or {}).get("name_pattern")
-    if isinstance(pattern, str):
-        from kit.io.names import compile_pattern, number_fields
-
-        try:
-            compile_pattern(pattern)
-        except ValueError:
-            pass  # the pattern is reported elsewhere
-        else:  # text fields ({serial}) are columns too, but not numbers a limit can bound
-            for f in number_fields(pattern):
-                cols.add(f"field_{f}" if f in cols or f in ("capture", "path") else f)
-    fit_all = set()
-    for col in dict.fromkeys(PARAM_COLUMNS.values()):
-        fit_all |= {col, unit_column(col, "stderr")}
-    for k in RESONANCE_COLUMNS:
-        fit_all |= {f"fit_{k}", unit_column(f"fit_{k}", "stderr")}
-    fit_all.add("fit_residual_rel")
-    fit = doc.get("fit")
-    if isinstance(fit, dict):
-        from kit.resonators.registry import get_model
-
-        try:
-            opts = {k: fit[k] for k in ("z_front", "z_back") if k in fit}
-            params = get_model(fit.get("model", "bvd"), fit.get("modes", 1), **opts).params
-        except (TypeError, ValueError):
-            params = tuple(PARAM_COLUMNS)  # the model is reported elsewhere
-        for p in params:
-            if p in PARAM_COLUMNS:
-                cols |= {PARAM_COLUMNS[p], unit_column(PARAM_COLUMNS[p], "stderr")}
-        cols |= {c for c in fit_all if c.startswith("fit_")}
-    return cols, fit_all
-
-
-def _column_problems(col: Collector, doc: dict, entries: list[tuple[str, tuple]]) -> None:
-    cols, fit_only = produced_columns(doc)
-    fit = doc.get("fit")
-    for name, path in entries:
-        if name in cols:
-            continue
-        if name in fit_only and not isinstance(fit, dict):
-            col.add(path, f"a limit on {name!r}, which only a fit gives, in a procedure "
-                    "without [fit]", "add a [fit] table (model 'bvd' gives c0_f, r1_ohm, "
-                    "l1_h, c1_f) or remove the limit", "limit-column")
-        elif name in fit_only:
-            col.add(path, f"a limit on {name!r}, which fit model "
-                    f"{fit.get('model', 'bvd')!r} does not give", "choose a model that has "
-                    "it (docs/nomenclature.md) or remove the limit", "limit-column")
-        else:
-            near = nearest(name, cols)
-            col.add(path, f"a limit on {name!r}, which is not a number column of this run's "
-                    "summary", (f"did you mean {near!r}? " if near else "") + "columns: "
-                    "docs/nomenclature.md", "limit-column")
 
 
 # ---------------------------------------------------------------------- files and inputs
@@ -149,7 +85,7 @@ def _limits_file(doc: dict, base: Path, pcol: Collector) -> tuple[Collector | No
     q = ldoc.get("quantity", {})
     if isinstance(q, dict):
         entries = limit_entries(col, q, ("quantity",), str(path.name), skip=())
-        _column_problems(col, doc, entries)
+        column_problems(col, doc, entries)
     else:
         col.add(("quantity",), "quantity must be tables such as [quantity.fs_hz]",
                 "see docs/limits.md", "bad-limit")
@@ -293,7 +229,6 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
     lcol, ldoc = _limits_file(doc, base, col)
     lim = doc.get("limits") if isinstance(doc.get("limits"), dict) else {}
     entries = [(k, ("limits", k)) for k in lim if k not in ("mask", "name")]
-    _column_problems(col, doc, entries)
     if ldoc:
         fq = ldoc.get("quantity") if isinstance(ldoc.get("quantity"), dict) else {}
         for kind, k, message in limited_twice(
