@@ -221,3 +221,46 @@ def test_python_export_refuses_a_folder_inside_an_input_folder(tmp_path, small_l
         with pytest.raises(ExportError, match="holds input captures"):
             refuse_input_folder(target, [cap], "the report")
     refuse_input_folder(tmp_path / "elsewhere" / "report.html", [cap], "the report")
+
+
+def test_run_reads_the_procedure_and_builds_its_corrections_once(tmp_path, small_lot, demo_dir,
+                                                                 capsys, monkeypatch):
+    """`sweepbook run` hands what the validator read and built to the run: the procedure file
+    is parsed once, each correction (an open/short/load on the demo standards,
+    demo_data/README.md) built once, the input folder listed once; exit code and output as
+    before (common practice, no source: work done once is done right once)."""
+    import tomllib
+
+    from kit.batch import engine
+    from kit.batch.procedure import Procedure
+    from kit.io import folder
+
+    d, proc = small_lot
+    std = demo_dir / "standards"
+    proc.write_text(PROC + f'\n[[correction]]\nkind = "osl"\nopen = "{std / "open.s1p"}"\n'
+                    f'short = "{std / "short.s1p"}"\nload = "{std / "load.s1p"}"\n')
+    text = proc.read_text()
+    seen = {"parsed": 0, "built": 0, "listed": 0}
+    real_loads, real_build = tomllib.loads, Procedure.build_correction
+    real_list = folder.touchstone_files
+
+    def loads(s, *a, **k):
+        seen["parsed"] += s == text
+        return real_loads(s, *a, **k)
+
+    def build(self, i, c):
+        seen["built"] += 1
+        return real_build(self, i, c)
+
+    def listed(p, *a, **k):
+        seen["listed"] += 1
+        return real_list(p, *a, **k)
+
+    monkeypatch.setattr(tomllib, "loads", loads)
+    monkeypatch.setattr(Procedure, "build_correction", build)
+    monkeypatch.setattr(folder, "touchstone_files", listed)
+    monkeypatch.setattr(engine, "_CHAINS", {})  # no chain of an earlier test
+    assert main(["run", str(proc), str(d), "--out", str(tmp_path / "out"), "--workers", "1",
+                 "--no-cache", "--no-report"]) == 0
+    assert "3 capture(s), 0 error row(s)" in capsys.readouterr().out
+    assert seen == {"parsed": 1, "built": 1, "listed": 1}

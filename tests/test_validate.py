@@ -210,3 +210,20 @@ def test_python_callers_are_refused_limits_on_columns_the_run_will_not_fill(tmp_
     with pytest.raises(ProcedureError) as err:
         Procedure.from_dict({"limits_file": "limits.toml"}, base_dir=tmp_path)
     assert prob.message in str(err.value) and "did you mean 'qm'" in str(err.value)
+
+
+def test_a_checked_procedure_with_problems_does_not_run(tmp_path, demo_proc, demo_dir):
+    """kit.batch.run refuses a Checked that did not pass, with the validator's problems, and
+    runs one that did (the documented example on the demo lot, docs/procedure.md)."""
+    from kit.batch.engine import run
+    from kit.batch.validate import check
+
+    ok = check(demo_proc, [demo_dir / "lot"])
+    assert ok.problems == [] and ok.procedure.source == str(demo_proc)
+    assert len(ok.inputs) == len(list((demo_dir / "lot").glob("*.s1p")))
+    assert run(ok, ok.inputs, workers=1, use_cache=False).stats["errors"] == 0
+    demo_proc.write_text(demo_proc.read_text().replace('model = "bvd"', 'model = "bdv"'))
+    bad = check(demo_proc)
+    assert bad.procedure is None and [p.code for p in bad.problems] == ["unknown-model"]
+    with pytest.raises(ProcedureError, match="'bdv' does not exist"):
+        run(bad, [demo_dir / "lot"], use_cache=False)

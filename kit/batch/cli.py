@@ -145,11 +145,13 @@ def _run_args(p: argparse.ArgumentParser) -> None:
 
 def _run_cmd(args: argparse.Namespace) -> int:
     from kit.batch.engine import run
-    from kit.batch.validate import validate
+    from kit.batch.validate import check
     from kit.capture import CaptureError
 
-    # an invalid procedure or output folder is refused before any capture is analysed
-    problems = validate(args.procedure, args.inputs)
+    # an invalid procedure or output folder is refused before any capture is analysed; what
+    # the check read and built (procedure, corrections, listed inputs) is what runs
+    checked = check(args.procedure, args.inputs)
+    problems = checked.problems
     for p in problems:
         print(f"sweepbook run: {p}", file=sys.stderr)
     why = _out_in_inputs(args.out, args.inputs)
@@ -163,7 +165,7 @@ def _run_cmd(args: argparse.Namespace) -> int:
     with_report = not (args.no_report or args.summary_only)
     figures = args.figures if with_report else "none"  # no picture that no report shows
     try:
-        result = run(args.procedure, args.inputs, workers=args.workers, scheduler=args.scheduler,
+        result = run(checked, checked.inputs, workers=args.workers, scheduler=args.scheduler,
                      cache_dir=args.cache, use_cache=not args.no_cache,
                      keep_captures=not args.summary_only, figures=figures)
         out = result.write(args.out, report=with_report, review_log=args.review_log,

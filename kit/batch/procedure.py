@@ -97,6 +97,23 @@ class Procedure:
         if problems:
             raise ProcedureError(problems_text(problems), source,
                                  problems[0].line if len(problems) == 1 else None, problems)
+        proc = cls.of_checked(doc, base_dir, source)
+        lim = proc.limits_object()  # validate now, not on the hundredth capture
+        if lim is not None and proc.limits_file:  # the inline bounds were checked above
+            inline = set(proc.limits or {})
+            col = Collector(source, text)
+            column_problems(col, doc, [(q.name, ("limits_file",)) for q in lim.quantities
+                                       if q.name not in inline])
+            if col.problems:
+                raise ProcedureError(problems_text(col.problems), source,
+                                     col.problems[0].line, col.problems)
+        return proc
+
+    @classmethod
+    def of_checked(cls, doc: dict[str, Any], base_dir: str | Path = ".",
+                   source: str = "<procedure>") -> "Procedure":
+        """The procedure of a document already checked (:func:`kit.batch.validate.check`
+        passed it); checks nothing, reads no file. Anything else: :meth:`from_dict`."""
         imp = {"method": "reflection", "port": 1, **dict(doc.get("import", {}))}
         corrections = [dict(c) for c in doc.get("correction", [])]
         fit = doc.get("fit")
@@ -113,15 +130,6 @@ class Procedure:
                    base_dir=Path(base_dir).resolve(), source=source,
                    limits_file=doc.get("limits_file"),
                    description=str(doc.get("description", "")))
-        lim = proc.limits_object()  # validate now, not on the hundredth capture
-        if lim is not None and proc.limits_file:  # the inline bounds were checked above
-            inline = set(proc.limits or {})
-            col = Collector(source, text)
-            column_problems(col, doc, [(q.name, ("limits_file",)) for q in lim.quantities
-                                       if q.name not in inline])
-            if col.problems:
-                raise ProcedureError(problems_text(col.problems), source,
-                                     col.problems[0].line, col.problems)
         return proc
 
     @classmethod
@@ -201,10 +209,7 @@ class Procedure:
         """
         if not self.corrections:
             return None
-        import kit.corrections as kc
-
-        made = [self.build_correction(i, c) for i, c in enumerate(self.corrections)]
-        return made[0] if len(made) == 1 else kc.chain(*made)
+        return chain_of([self.build_correction(i, c) for i, c in enumerate(self.corrections)])
 
     def build_correction(self, i: int, c: dict[str, Any]):
         """Correction ``i`` (0-based) of the chain, its standards read; raises ProcedureError
@@ -280,6 +285,16 @@ class Procedure:
                                                 for _, _, m in both]), self.source)
         return Limits(from_file.quantities + inline.quantities, from_file.masks + inline.masks,
                       inline.name, f"{from_file.source} + [limits] of {self.source}")
+
+
+def chain_of(made: list) -> Any:
+    """The correction chain of the corrections built, in order (:func:`kit.chain`); None for
+    none, the correction itself for one."""
+    if not made:
+        return None
+    import kit.corrections as kc
+
+    return made[0] if len(made) == 1 else kc.chain(*made)
 
 
 #: What to do about a standard that does not exist.

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 import tomllib
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -28,6 +29,7 @@ from kit.batch.procedure import (
     STANDARD_FIX,
     TWICE_FIX,
     Procedure,
+    chain_of,
     limited_twice,
 )
 from kit.batch.schema import (
@@ -47,8 +49,8 @@ from kit.batch.schema import (
 )
 from kit.capture import CaptureError, Finding
 
-__all__ = ["Problem", "validate", "structure_problems", "accepted_keys", "produced_columns",
-           "key_lines", "SAMPLE"]
+__all__ = ["Problem", "Checked", "check", "validate", "structure_problems", "accepted_keys",
+           "produced_columns", "key_lines", "SAMPLE"]
 
 #: Input files whose frequency range is read (pre-flight scan) to check the spans: the first,
 #: the last and evenly spaced ones between; a lot is taken to share one sweep plan.
@@ -106,9 +108,11 @@ def _standards(doc: dict, base: Path, col: Collector) -> bool:
     return ok
 
 
-def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] | None:
+def _input_range(inputs: Any, col: Collector) -> tuple[tuple[float, float, int, int] | None,
+                                                        list[Any]]:
     """(lowest, highest frequency [Hz], files sampled, files) of the inputs, by the pre-flight
-    scan of up to :data:`SAMPLE` files; missing inputs become problems."""
+    scan of up to :data:`SAMPLE` files (None when none could be read), and the inputs with
+    their folders listed; missing inputs become problems."""
     import numpy as np
 
     from kit.capture import Capture
@@ -136,7 +140,7 @@ def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] |
         else:
             files.append(p)
     if not files:
-        return None
+        return None, files
     idx = sorted(set(np.linspace(0, len(files) - 1, min(SAMPLE, len(files))).round().astype(int)))
     lo, hi, n = math.inf, -math.inf, 0
     for k in idx:
@@ -150,7 +154,7 @@ def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] |
                 continue
         if f.size:
             lo, hi, n = min(lo, float(f.min())), max(hi, float(f.max())), n + 1
-    return (lo, hi, n, len(files)) if n else None
+    return ((lo, hi, n, len(files)) if n else None), files
 
 
 def _span_vs_inputs(col: Collector, span: Any, path: tuple, what: str,
@@ -199,6 +203,29 @@ def _load(procedure_or_path: Any) -> tuple[dict | None, str, str, Path, list[Pro
     return doc, text, str(path), path.parent.resolve(), []
 
 
+@dataclass
+class Checked:
+    """What :func:`check` found, and what it read and built on the way, for the run.
+
+    Attributes
+    ----------
+    problems : list of Problem
+        As :func:`validate` returns them.
+    procedure : Procedure or None
+        The procedure read (None when there are problems).
+    corrections : object or None
+        Its correction chain, built from the standards (None: no correction, or problems);
+        :func:`kit.batch.engine.run` uses it in this process instead of building it again.
+    inputs : list or None
+        The inputs with their folders listed (None when no inputs were given).
+    """
+
+    problems: list[Problem]
+    procedure: Procedure | None = None
+    corrections: Any = None
+    inputs: list[Any] | None = None
+
+
 def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
     """Every problem of a procedure, in file order by step; an empty list when it is sound.
 
@@ -221,9 +248,16 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
         input), ``line`` (where the key sits, when it can be found), ``message``, ``fix`` and
         ``code`` (e.g. "unknown-key", "span-in-mhz", "missing-file", "limit-column").
     """
+    return check(procedure_or_path, inputs).problems
+
+
+def check(procedure_or_path: Any, inputs: Any = None) -> Checked:
+    """:func:`validate`, keeping what it read and built: the procedure (parsed once), its
+    correction chain (standards read once) and the listed inputs, which
+    :func:`kit.batch.engine.run` takes as they are (``run(checked, checked.inputs)``)."""
     doc, text, source, base, problems = _load(procedure_or_path)
     if doc is None:
-        return problems
+        return Checked(problems)
     col = Collector(source, text)
     col.problems = structure_problems(doc, source, text)
     lcol, ldoc = _limits_file(doc, base, col)
@@ -236,11 +270,13 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
                 (list(fq), _mask_names(ldoc.get("mask"))), doc["limits_file"]):
             col.add(("limits", k) if kind == "quantity" else ("limits", "mask"), message,
                     TWICE_FIX, "duplicate-limit")
+    made = None
     if _standards(doc, base, col) and not structure_problems(
             {"correction": doc.get("correction") or []}):
-        _setup_corrections(doc, base, source, col)
+        made = _setup_corrections(doc, base, source, col)
+    files = None
     if inputs is not None:
-        rng = _input_range(inputs, col)
+        rng, files = _input_range(inputs, col)
         if rng is not None:
             spans = [(("resonance", "span_hz"), "[resonance] span_hz",
                       (doc.get("resonance") or {}).get("span_hz")),
@@ -259,7 +295,12 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
                                         f"mask {i + 1} span", rng)
     found = col.problems + (lcol.problems if lcol is not None else [])
     order = {source: 0, getattr(lcol, "source", None): 1}
-    return sorted(found, key=lambda p: (order.get(p.path, 2), p.line or math.inf))
+    found = sorted(found, key=lambda p: (order.get(p.path, 2), p.line or math.inf))
+    if found or made is None:
+        return Checked(found, inputs=files)
+    proc = (procedure_or_path if isinstance(procedure_or_path, Procedure)
+            else Procedure.of_checked(doc, base, source))
+    return Checked([], proc, chain_of(made), files)
 
 
 def _mask_names(masks: Any) -> list[str]:
@@ -270,14 +311,21 @@ def _mask_names(masks: Any) -> list[str]:
     return [mask_name(m, i) for i, m in enumerate(masks) if isinstance(m, dict)]
 
 
-def _setup_corrections(doc: dict, base: Path, source: str, col: Collector) -> None:
-    """Build each correction as the run will (standards read once here); collect failures."""
+def _setup_corrections(doc: dict, base: Path, source: str, col: Collector) -> list | None:
+    """Build each correction as the run will (standards read once here); collect failures.
+    Returns the corrections built, None when one failed."""
     items = [c for c in doc.get("correction") or [] if isinstance(c, dict)]
     proc = Procedure(corrections=items, base_dir=base, source=source)
+    made: list | None = []
     for i, c in enumerate(items):
         try:
-            proc.build_correction(i, c)
+            built = proc.build_correction(i, c)
         except CaptureError as exc:
             col.add(("correction", i), getattr(exc, "reason", str(exc)),
                     "check the standards and the step's values (docs/procedure.md)",
                     "correction-setup")
+            made = None
+        else:
+            if made is not None:
+                made.append(built)
+    return made
