@@ -551,7 +551,7 @@ def _lot_lookup(cdir: str | None, items: list, digest: str, figures: str) -> dic
 
     try:
         shas = [file_sha256(it) for it in items]
-    except OSError:  # an unreadable file: the run reports it as an error row
+    except CaptureError:  # an unreadable file: the run reports it as an error row
         return {}
     store = LotStore(cdir)
     key = lot_key(items, shas, digest, figures, RESULTS_SCHEMA)
