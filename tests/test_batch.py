@@ -240,3 +240,36 @@ lower = 17.0
     assert batch.loc["pzd7-01", "mask_below_fs_margin_ohm"] > 0
     raw = kit.summary([kit.load(d / "pzd7-01.s1p")], limits=proc.limits_object())
     assert raw["mask_below_fs_margin_ohm"].iloc[0] < 0
+
+
+def test_dask_reports_progress_and_stops_when_cancelled(lot, monkeypatch):
+    """On a Dask client (a LocalCluster of threads, processes=False: the same client API as
+    a remote scheduler, dask.distributed documentation) on_progress counts the captures as
+    chunks finish, up to all of them, and a set cancel flag stops the run with Cancelled
+    after the chunk in hand; nothing is returned."""
+    distributed = pytest.importorskip("dask.distributed")
+    import threading
+
+    from kit.batch import engine as batch
+    from kit.io.pool import Cancelled
+
+    root, d, proc = lot
+    monkeypatch.setattr(batch, "CHUNK", 1)
+    n = len(list(d.iterdir()))
+    seen, stop = [], threading.Event()
+
+    def on_progress(done, total):
+        seen.append((done, total))
+        stop.set()  # the second run is cancelled from its first report on
+
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=1, processes=False,
+                                  dashboard_address=None) as cluster, \
+            distributed.Client(cluster) as client:
+        res = run(proc, d, client=client, use_cache=False,
+                  on_progress=lambda done, total: seen.append((done, total)))
+        assert seen == [(k, n) for k in range(1, n + 1)]
+        assert len(res.summary) == n and res.stats["engine"].startswith("dask")
+        seen.clear()
+        with pytest.raises(Cancelled) as err:
+            run(proc, d, client=client, use_cache=False, on_progress=on_progress, cancel=stop)
+    assert (err.value.done, err.value.total) == (1, n) and seen == [(1, n)]

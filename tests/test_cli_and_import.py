@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 import shutil
 import subprocess
 import sys
@@ -221,3 +222,91 @@ def test_python_export_refuses_a_folder_inside_an_input_folder(tmp_path, small_l
         with pytest.raises(ExportError, match="holds input captures"):
             refuse_input_folder(target, [cap], "the report")
     refuse_input_folder(tmp_path / "elsewhere" / "report.html", [cap], "the report")
+
+
+def test_run_reads_the_procedure_and_builds_its_corrections_once(tmp_path, small_lot, demo_dir,
+                                                                 capsys, monkeypatch):
+    """`sweepbook run` hands what the validator read and built to the run: the procedure file
+    is parsed once, each correction (an open/short/load on the demo standards,
+    demo_data/README.md) built once, the input folder listed once; exit code and output as
+    before (common practice, no source: work done once is done right once)."""
+    import tomllib
+
+    from kit.batch import engine
+    from kit.batch.procedure import Procedure
+    from kit.io import folder
+
+    d, proc = small_lot
+    std = demo_dir / "standards"
+    proc.write_text(PROC + f'\n[[correction]]\nkind = "osl"\nopen = "{std / "open.s1p"}"\n'
+                    f'short = "{std / "short.s1p"}"\nload = "{std / "load.s1p"}"\n')
+    text = proc.read_text()
+    seen = {"parsed": 0, "built": 0, "listed": 0}
+    real_loads, real_build = tomllib.loads, Procedure.build_correction
+    real_list = folder.touchstone_files
+
+    def loads(s, *a, **k):
+        seen["parsed"] += s == text
+        return real_loads(s, *a, **k)
+
+    def build(self, i, c):
+        seen["built"] += 1
+        return real_build(self, i, c)
+
+    def listed(p, *a, **k):
+        seen["listed"] += 1
+        return real_list(p, *a, **k)
+
+    monkeypatch.setattr(tomllib, "loads", loads)
+    monkeypatch.setattr(Procedure, "build_correction", build)
+    monkeypatch.setattr(folder, "touchstone_files", listed)
+    monkeypatch.setattr(engine, "_CHAINS", {})  # no chain of an earlier test
+    assert main(["run", str(proc), str(d), "--out", str(tmp_path / "out"), "--workers", "1",
+                 "--no-cache", "--no-report"]) == 0
+    assert "3 capture(s), 0 error row(s)" in capsys.readouterr().out
+    assert seen == {"parsed": 1, "built": 1, "listed": 1}
+
+
+def test_ctrl_c_stops_a_run_with_nothing_half_written(tmp_path, demo_dir):
+    """SIGINT (what Ctrl-C sends, POSIX signal.h) to `python -m kit run` during the analysis
+    stops it after the captures in hand with exit code 130 (128 + SIGINT, as shells report
+    it: common practice, no source), clear lines and no traceback; --out is not created and
+    no temporary export folder is left beside it."""
+    import os
+    import signal
+    import time
+
+    if os.name != "posix":
+        pytest.skip("SIGINT to a child process is POSIX")
+    lot = tmp_path / "lot"
+    lot.mkdir()
+    for k in range(40):  # long enough to be interrupted in the middle of the analysis
+        data = (demo_dir / "lot" / "pzd7-01.s1p").read_bytes()
+        (lot / f"pzd7-{k:03d}.s1p").write_bytes(data + f"! copy {k}\n".encode())  # distinct
+    proc = tmp_path / "proc.toml"
+    proc.write_text(PROC)
+    cache, out = tmp_path / "cache", tmp_path / "out"
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join(sys.path)}
+    child = subprocess.Popen([sys.executable, "-m", "kit", "run", str(proc), str(lot), "--out",
+                              str(out), "--workers", "1", "--cache", str(cache)],
+                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    try:
+        deadline = time.monotonic() + 120
+        while not any(p.is_file() for p in cache.rglob("*.npz")):  # the analysis has begun
+            assert child.poll() is None and time.monotonic() < deadline, child.communicate()
+            time.sleep(0.05)
+        child.send_signal(signal.SIGINT)
+        _, err = child.communicate(timeout=120)
+    finally:
+        if child.poll() is None:
+            child.kill()
+    assert child.returncode == 130, err
+    assert "Traceback" not in err
+    said = err.strip().splitlines()
+    assert said[0] == ("sweepbook run: stopping after the captures in hand (Ctrl-C again: at "
+                       "once)")
+    assert re.fullmatch(r"sweepbook run: interrupted after (\d+) of 40 capture\(s\); nothing "
+                        rf"was written to {re.escape(str(out))}; run the same command again to "
+                        r"finish; exit code 130", said[-1]), said
+    assert not out.exists() and sorted(p.name for p in tmp_path.iterdir()) == [
+        "cache", "lot", "proc.toml"]

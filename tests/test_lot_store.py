@@ -270,3 +270,24 @@ def test_another_figures_setting_reuses_the_stored_fits(lot, tmp_path):
     assert len(again.pictures) == ok
     assert all(p.startswith(PNG_SIGNATURE) for p in again.pictures.values())
     pd.testing.assert_frame_equal(again.summary, first.summary)
+
+
+def test_the_lot_key_reads_inputs_as_every_reader_does(tmp_path):
+    """file_sha256 reads through kit.io.preflight.read_bytes: the SHA-256 of the bytes
+    (FIPS 180-4; checked against hashlib on the same bytes), and an unreadable input is that
+    reader's CaptureError naming the file, which leaves the lot store out of the run."""
+    import hashlib
+
+    from kit.batch.lot_store import file_sha256
+    from kit.capture import CaptureError
+
+    f = tmp_path / "a.s1p"
+    f.write_bytes(b"# Hz S RI R 50\n1e6 0.1 0\n")
+    assert file_sha256(f) == hashlib.sha256(f.read_bytes()).hexdigest()
+    with pytest.raises(CaptureError, match="file not found") as err:
+        file_sha256(tmp_path / "gone.s1p")
+    assert "gone.s1p" in str(err.value)
+    with pytest.raises(CaptureError, match="is a folder"):
+        file_sha256(tmp_path)
+    assert batch._lot_lookup(str(tmp_path / "cache"), [str(tmp_path / "gone.s1p")], "d",
+                             "flagged") == {}

@@ -193,6 +193,25 @@ def test_settings_without_a_control_are_kept(panel, tmp_path):
     assert panel.message.kind == "note"
 
 
+def test_description_and_limits_file_survive_load_and_save(panel, tmp_path):
+    """A procedure with a description and a limits file (docs/procedure.md, top-level keys),
+    loaded into the panel and saved, reads back equal: tomllib reads both files to the same
+    document, and the limits file is still the one named."""
+    (tmp_path / "limits.toml").write_text('[quantity.qm]\nmin = 50.0\n')
+    first = panel.save(tmp_path / "first.toml")
+    src = tmp_path / "src.toml"
+    src.write_text('description = "lot B, after the fixture change"\n'
+                   'limits_file = "limits.toml"\n' + first.read_text())
+    loaded = panel.load_file(src)
+    again = panel.save(tmp_path / "again.toml")
+    assert tomllib.loads(again.read_text()) == tomllib.loads(src.read_text())
+    back = Procedure.from_file(again)
+    assert back.to_dict() == loaded.to_dict()
+    assert back.description == "lot B, after the fixture change"
+    assert back.limits_object().quantities == loaded.limits_object().quantities
+    assert [q.name for q in back.limits_object().quantities] == ["qm", "fs_hz", "k_eff"]
+
+
 def test_from_panels_takes_the_corrections_and_fit_settings(demo_dir, small_lot):
     """A panel built from a corrections panel and a fit panel holds their settings."""
     from kit.ui.corrections_panel import corrections_panel

@@ -146,3 +146,84 @@ def test_missing_inputs_are_problems(tmp_path, demo_proc):
     probs = validate(demo_proc, [tmp_path / "nope", tmp_path / "empty"])
     assert codes(probs) == ["no-inputs", "no-inputs"]
     assert probs[0].path == str(tmp_path / "nope") and "holds no Touchstone" in probs[1].message
+
+
+def test_only_number_fields_of_the_name_pattern_take_limits(tmp_path):
+    """A plain ``{serial}`` field is text (kit/io/names.py: "{serial} keeps '01'"), so a bound
+    on it is refused as a column the summary has no number in; ``{serial:int}`` gives an
+    integer column, which a bound may judge."""
+    p = tmp_path / "proc.toml"
+    p.write_text('[import]\nname_pattern = "{lot}-{serial}"\n[limits]\nserial = { min = 1 }\n')
+    (prob,) = validate(p)
+    assert prob.code == "limit-column" and "'serial'" in prob.message and prob.line == 4
+    p.write_text('[import]\nname_pattern = "{lot}-{serial:int}"\n[limits]\nserial = { min = 1 }\n')
+    assert validate(p) == []
+
+
+def test_the_validator_and_the_reader_say_the_same_of_standards_and_double_limits(tmp_path):
+    """One check each (common practice, no source: one rule must not say two things): every
+    missing standard the validator lists is in the error of building the correction, and
+    every bound or mask it finds both inline and in the limits file (a mask without a name
+    is "mask1", docs/limits.md) is in the error of reading the limits, in the same words."""
+    p = tmp_path / "proc.toml"
+    p.write_text('[[correction]]\nkind = "osl"\nopen = "o.s1p"\nshort = "s.s1p"\n'
+                 'load = "l.s1p"\n')
+    proc = Procedure.from_file(p)
+    probs = validate(p)
+    assert [x.code for x in probs] == ["missing-file"] * 3
+    with pytest.raises(ProcedureError) as err:
+        proc.build_corrections()
+    assert all(f"{x.message} ({x.fix})" in str(err.value) for x in probs)
+
+    (tmp_path / "limits.toml").write_text(
+        '[quantity.k_eff]\nmin = 0.3\n[quantity.fs_hz]\nmin = 1e6\n'
+        '[[mask]]\ncurve = "z_mag_ohm"\nf_min_hz = 1e6\nf_max_hz = 2e6\nlower = 1.0\n')
+    p.write_text('limits_file = "limits.toml"\n[limits]\nk_eff = { min = 0.4 }\n'
+                 'fs_hz = { max = 2e6 }\n[[limits.mask]]\nname = "mask1"\ncurve = "z_mag_ohm"\n'
+                 'f_min_hz = 1e6\nf_max_hz = 2e6\nupper = 1e3\n')
+    probs = validate(p)
+    assert [(x.code, x.line) for x in probs] == [("duplicate-limit", 3), ("duplicate-limit", 4),
+                                                 ("duplicate-limit", 5)]
+    with pytest.raises(ProcedureError) as err:
+        Procedure.from_file(p)
+    assert all(f"{x.message} ({x.fix})" in str(err.value) for x in probs)
+    assert "mask 'mask1'" in str(err.value)
+
+
+def test_python_callers_are_refused_limits_on_columns_the_run_will_not_fill(tmp_path):
+    """Procedure.from_dict (what kit.batch.run takes from Python) refuses a bound on a column
+    the summary will not have (docs/procedure.md, "[limits]"), inline or in the limits file,
+    with the validator's message."""
+    from kit.batch.engine import run
+
+    doc = {"limits": {"qn": {"min": 50}, "c0_f": {"max": 1e-9}}}
+    (want_qn, want_c0) = validate(doc)
+    with pytest.raises(ProcedureError) as err:
+        Procedure.from_dict(doc)
+    assert want_qn.message in str(err.value) and want_c0.message in str(err.value)
+    assert "did you mean 'qm'" in str(err.value) and "add a [fit] table" in str(err.value)
+    with pytest.raises(ProcedureError, match="'qn'"):  # a Procedure made directly, too
+        run(Procedure(limits=doc["limits"]), tmp_path, use_cache=False)
+    (tmp_path / "limits.toml").write_text('[quantity.fs_hz]\nmin = 1e6\n[quantity.qmm]\nmin = 5\n')
+    (tmp_path / "proc.toml").write_text('limits_file = "limits.toml"\n')
+    (prob,) = validate(tmp_path / "proc.toml")
+    with pytest.raises(ProcedureError) as err:
+        Procedure.from_dict({"limits_file": "limits.toml"}, base_dir=tmp_path)
+    assert prob.message in str(err.value) and "did you mean 'qm'" in str(err.value)
+
+
+def test_a_checked_procedure_with_problems_does_not_run(tmp_path, demo_proc, demo_dir):
+    """kit.batch.run refuses a Checked that did not pass, with the validator's problems, and
+    runs one that did (the documented example on the demo lot, docs/procedure.md)."""
+    from kit.batch.engine import run
+    from kit.batch.validate import check
+
+    ok = check(demo_proc, [demo_dir / "lot"])
+    assert ok.problems == [] and ok.procedure.source == str(demo_proc)
+    assert len(ok.inputs) == len(list((demo_dir / "lot").glob("*.s1p")))
+    assert run(ok, ok.inputs, workers=1, use_cache=False).stats["errors"] == 0
+    demo_proc.write_text(demo_proc.read_text().replace('model = "bvd"', 'model = "bdv"'))
+    bad = check(demo_proc)
+    assert bad.procedure is None and [p.code for p in bad.problems] == ["unknown-model"]
+    with pytest.raises(ProcedureError, match="'bdv' does not exist"):
+        run(bad, [demo_dir / "lot"], use_cache=False)

@@ -8,7 +8,10 @@ sits at the top of the batch stage: it imports the stages below it, never the ot
 from __future__ import annotations
 
 import argparse
+import contextlib
+import signal
 import sys
+import threading
 from pathlib import Path
 from typing import Callable
 
@@ -75,6 +78,10 @@ def _check_procedure_run(args: argparse.Namespace) -> int:
     print(f"{args.procedure}: ok{checked}")
     return 0
 
+
+#: Exit code of a run stopped by Ctrl-C (SIGINT): 128 + the signal's number, as shells report
+#: a process ended by a signal (common practice, no source).
+INTERRUPTED = 130
 
 #: Parts listed after a run that did not pass (the rest: summary.csv).
 SHOWN_PARTS = 20
@@ -143,13 +150,40 @@ def _run_args(p: argparse.ArgumentParser) -> None:
                         "(password from PGPASSWORD or ~/.pgpass)")
 
 
+@contextlib.contextmanager
+def _ctrl_c_stops(stop: threading.Event):
+    """While inside, a first Ctrl-C (SIGINT) sets ``stop`` (the run ends after the captures
+    in hand, :class:`kit.io.pool.Cancelled`) instead of raising at a random point of the
+    analysis; a second one raises KeyboardInterrupt at once. Outside the main thread (no
+    signal handler can be set there) Ctrl-C keeps Python's behaviour."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+
+    def on_sigint(signum, frame):
+        if stop.is_set():
+            raise KeyboardInterrupt
+        stop.set()
+        print("sweepbook run: stopping after the captures in hand (Ctrl-C again: at once)",
+              file=sys.stderr)
+
+    before = signal.signal(signal.SIGINT, on_sigint)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, before)
+
+
 def _run_cmd(args: argparse.Namespace) -> int:
     from kit.batch.engine import run
-    from kit.batch.validate import validate
+    from kit.batch.validate import check
     from kit.capture import CaptureError
+    from kit.io.pool import Cancelled
 
-    # an invalid procedure or output folder is refused before any capture is analysed
-    problems = validate(args.procedure, args.inputs)
+    # an invalid procedure or output folder is refused before any capture is analysed; what
+    # the check read and built (procedure, corrections, listed inputs) is what runs
+    checked = check(args.procedure, args.inputs)
+    problems = checked.problems
     for p in problems:
         print(f"sweepbook run: {p}", file=sys.stderr)
     why = _out_in_inputs(args.out, args.inputs)
@@ -162,15 +196,29 @@ def _run_cmd(args: argparse.Namespace) -> int:
         return 2
     with_report = not (args.no_report or args.summary_only)
     figures = args.figures if with_report else "none"  # no picture that no report shows
+    stage, stop = "run", threading.Event()
     try:
-        result = run(args.procedure, args.inputs, workers=args.workers, scheduler=args.scheduler,
-                     cache_dir=args.cache, use_cache=not args.no_cache,
-                     keep_captures=not args.summary_only, figures=figures)
+        with _ctrl_c_stops(stop):
+            result = run(checked, checked.inputs, workers=args.workers,
+                         scheduler=args.scheduler, cache_dir=args.cache,
+                         use_cache=not args.no_cache, keep_captures=not args.summary_only,
+                         figures=figures, cancel=stop)
+        stage = "write"
         out = result.write(args.out, report=with_report, review_log=args.review_log,
                            figures=figures)
     except (CaptureError, ValueError, OSError) as exc:
         print(f"sweepbook run: {exc}", file=sys.stderr)
         return 2
+    except (Cancelled, KeyboardInterrupt) as exc:
+        # the worker processes are ended by the pool (kit.io.pool); an export is built beside
+        # --out and renamed into place, so --out holds the previous export or none, whole
+        done = (f" after {exc.done} of {exc.total} capture(s)"
+                if isinstance(exc, Cancelled) else "")
+        where = ("nothing was written to" if stage == "run" else
+                 "the export was written whole or not at all; report.html may be missing in")
+        print(f"sweepbook run: interrupted{done}; {where} {args.out}; run the same command "
+              f"again to finish; exit code {INTERRUPTED}", file=sys.stderr)
+        return INTERRUPTED
     s = result.stats
     verdicts = result.summary["verdict"].value_counts(dropna=True).to_dict()
     print(f"{s['inputs']} capture(s), {s['errors']} error row(s), engine: {s['engine']}, "
@@ -242,7 +290,8 @@ COMMANDS: dict[str, tuple[str, Callable, Callable]] = {
     "check-procedure": ("list every problem of a procedure (and its spans against captures); "
                         "exit code 2 when any", _check_procedure_args, _check_procedure_run),
     "run": ("run a procedure over captures; writes summary, sweeps, provenance, report; exit "
-            "code 1 when some captures are errors, 3 when all are, 2 when it cannot run",
+            "code 1 when some captures are errors, 3 when all are, 2 when it cannot run, "
+            "130 when interrupted (Ctrl-C)",
             _run_args, _run_cmd),
     "review": ("share the review log: push, pull, status, init (a postgresql:// server)",
                _review_args, _review_cmd),

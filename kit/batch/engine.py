@@ -23,7 +23,8 @@ import numpy as np
 
 from kit._version import __version__
 from kit.batch.lot_store import Deferred
-from kit.batch.procedure import Procedure, ProcedureError
+from kit.batch.procedure import Procedure, ProcedureError, problems_text
+from kit.batch.validate import Checked
 from kit.capture import Capture, CaptureError
 from kit.outputs.entries import Failure
 from kit.outputs.part_figure import FIGURE_CHOICES
@@ -365,8 +366,10 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
 
     Parameters
     ----------
-    procedure : Procedure or path
-        The pipeline (see :mod:`kit.batch.procedure`).
+    procedure : Procedure, path or kit.batch.validate.Checked
+        The pipeline (see :mod:`kit.batch.procedure`); a :class:`~kit.batch.validate.Checked`
+        that passed is used as the validator read and built it (nothing is read or built
+        again in this process).
     inputs : path, folder, Capture or an iterable of them
     workers : int, optional
         Local worker processes; default: the usable CPUs (:mod:`kit.io.pool`). ``1`` runs
@@ -411,13 +414,27 @@ def run(procedure: Procedure | str | Path, inputs: Any, *, workers: int | None =
     """
     from kit.outputs.summary import summary_frame
 
-    proc = procedure if isinstance(procedure, Procedure) else Procedure.from_file(procedure)
+    built = None
+    if isinstance(procedure, Checked):  # read, checked and built by the validator: used as is
+        if procedure.problems or procedure.procedure is None:
+            raise ProcedureError(problems_text(procedure.problems or []) or "the procedure "
+                                 "did not pass kit.batch.validate.check")
+        proc, built = procedure.procedure, ("ok", procedure.corrections)
+    elif isinstance(procedure, Procedure):
+        # a Procedure made in Python is refused what its file would be (workers read it so)
+        Procedure.from_dict(procedure.to_dict(), base_dir=procedure.base_dir,
+                            source=procedure.source or "<procedure>")
+        proc = procedure
+    else:
+        proc = Procedure.from_file(procedure)
     items = expand_inputs(inputs)
     if not items:
         raise ProcedureError("no inputs: give Touchstone files or folders that hold some")
     if figures not in FIGURES:
         raise ProcedureError(f"figures={figures!r}: give one of {', '.join(FIGURES)}")
     digest = proc.digest()
+    if built is not None:  # this process analyses with the chain already built
+        _CHAINS.setdefault(digest, built)
     cdir = None
     if use_cache:
         from kit.io.cache import default_cache_dir
@@ -534,7 +551,7 @@ def _lot_lookup(cdir: str | None, items: list, digest: str, figures: str) -> dic
 
     try:
         shas = [file_sha256(it) for it in items]
-    except OSError:  # an unreadable file: the run reports it as an error row
+    except CaptureError:  # an unreadable file: the run reports it as an error row
         return {}
     store = LotStore(cdir)
     key = lot_key(items, shas, digest, figures, RESULTS_SCHEMA)

@@ -11,7 +11,11 @@ outputs are then written from the record (:meth:`LotRecord.export_part`, used by
 **Key.** SHA-256 over the ordered list of input paths (as given) with the SHA-256 of each
 file's content, the procedure digest (its content and its standards' bytes), the kit version,
 the figures setting and the engine's results schema. Changing one byte of one file, the
-procedure, a standard, the figures setting or the kit gives another key: a miss.
+procedure, a standard, the figures setting or the kit gives another key: a miss. The files
+are read by :func:`kit.io.preflight.read_bytes`. On a miss each capture is read and hashed
+again where it is imported (:meth:`kit.io.cache.CaptureCache.load`): that second hash is the
+check that the bytes parsed and cached are the bytes their cache entry is named by (a file
+changed since the lookup gets an entry of its own), and costs about a sixtieth of the parse.
 
 **Records** are folders ``<cache>/lots/<key>/`` built in a temporary folder beside them and
 renamed into place, so a reader sees a whole record or none. Nothing is pickled: the summary
@@ -64,9 +68,12 @@ class LotStoreWarning(UserWarning):
 
 
 def file_sha256(path: str | os.PathLike) -> str:
-    """SHA-256 of a file's bytes, read in one go (input captures are small)."""
-    with open(path, "rb") as fh:
-        return hashlib.sha256(fh.read()).hexdigest()
+    """SHA-256 of an input's bytes, read in one go (input captures are small) by
+    :func:`kit.io.preflight.read_bytes`, the one reader of an input's bytes; an unreadable
+    file is its :class:`~kit.capture.CaptureError`."""
+    from kit.io.preflight import read_bytes
+
+    return hashlib.sha256(read_bytes(Path(path))).hexdigest()
 
 
 def lot_key(paths: Sequence[str], shas: Sequence[str], digest: str, figures: str,

@@ -22,6 +22,7 @@ import os
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+from types import SimpleNamespace
 from typing import Any
 
 from kit.batch.schema import (  # noqa: F401 - the format's names, kept importable from here
@@ -30,6 +31,8 @@ from kit.batch.schema import (  # noqa: F401 - the format's names, kept importab
     FORMAT_VERSION,
     IMPORT_METHODS,
     MIN_SPAN_HZ,
+    Collector,
+    column_problems,
     correction_keys,
     structure_problems,
 )
@@ -85,14 +88,32 @@ class Procedure:
         """Validate a parsed procedure; raises ProcedureError listing every problem of its
         keys, kinds, models, spans and limits (:func:`kit.batch.schema.structure_problems`).
 
-        ``text`` (the TOML source, when known) only serves to name lines. Files (standards,
-        the limits file) are checked by :func:`kit.batch.validate.validate`; a limits file is
-        read here, so that a missing one is refused now, not on the hundredth capture.
+        ``text`` (the TOML source, when known) only serves to name lines. Standards are
+        checked by :func:`kit.batch.validate.validate`; a limits file is read here, so that a
+        missing one, or a bound in it on a column the run will not fill, is refused now, not on
+        the hundredth capture (the validator's words, :func:`kit.batch.schema.column_problems`).
         """
         problems = structure_problems(doc, source, text)
         if problems:
             raise ProcedureError(problems_text(problems), source,
                                  problems[0].line if len(problems) == 1 else None, problems)
+        proc = cls.of_checked(doc, base_dir, source)
+        lim = proc.limits_object()  # validate now, not on the hundredth capture
+        if lim is not None and proc.limits_file:  # the inline bounds were checked above
+            inline = set(proc.limits or {})
+            col = Collector(source, text)
+            column_problems(col, doc, [(q.name, ("limits_file",)) for q in lim.quantities
+                                       if q.name not in inline])
+            if col.problems:
+                raise ProcedureError(problems_text(col.problems), source,
+                                     col.problems[0].line, col.problems)
+        return proc
+
+    @classmethod
+    def of_checked(cls, doc: dict[str, Any], base_dir: str | Path = ".",
+                   source: str = "<procedure>") -> "Procedure":
+        """The procedure of a document already checked (:func:`kit.batch.validate.check`
+        passed it); checks nothing, reads no file. Anything else: :meth:`from_dict`."""
         imp = {"method": "reflection", "port": 1, **dict(doc.get("import", {}))}
         corrections = [dict(c) for c in doc.get("correction", [])]
         fit = doc.get("fit")
@@ -109,7 +130,6 @@ class Procedure:
                    base_dir=Path(base_dir).resolve(), source=source,
                    limits_file=doc.get("limits_file"),
                    description=str(doc.get("description", "")))
-        proc.limits_object()  # validate now, not on the hundredth capture
         return proc
 
     @classmethod
@@ -189,10 +209,7 @@ class Procedure:
         """
         if not self.corrections:
             return None
-        import kit.corrections as kc
-
-        made = [self.build_correction(i, c) for i, c in enumerate(self.corrections)]
-        return made[0] if len(made) == 1 else kc.chain(*made)
+        return chain_of([self.build_correction(i, c) for i, c in enumerate(self.corrections)])
 
     def build_correction(self, i: int, c: dict[str, Any]):
         """Correction ``i`` (0-based) of the chain, its standards read; raises ProcedureError
@@ -202,19 +219,31 @@ class Procedure:
         fname, path_keys = CORRECTION_KINDS[c["kind"]]
         args = {k: v for k, v in c.items() if k != "kind"}
         what = f"correction {i + 1} ({c['kind']})"
+        missing = self.missing_standards(i, c)
+        if missing:
+            raise ProcedureError(problems_text([SimpleNamespace(line=None, message=m, fix=STANDARD_FIX)
+                                                for _, m in missing]), self.source)
         for key in path_keys:
             if isinstance(args.get(key), str):
-                p = self.resolve(args[key])
-                if not p.is_file():
-                    raise ProcedureError(f"{what}: {key} standard {p} does not exist",
-                                         self.source)
-                args[key] = p
+                args[key] = self.resolve(args[key])
         try:
             return getattr(kc, fname)(**args)
         except CaptureError:
             raise
         except (TypeError, ValueError) as exc:
             raise ProcedureError(f"{what}: {exc}", self.source) from None
+
+    def missing_standards(self, i: int, c: dict[str, Any]) -> list[tuple[str, str]]:
+        """(key, message) of every standard of correction ``i`` (0-based) whose file does not
+        exist; the one check of :meth:`build_correction` and of the validator."""
+        out = []
+        for key in CORRECTION_KINDS[c["kind"]][1]:
+            if isinstance(c.get(key), str):
+                p = self.resolve(c[key])
+                if not p.is_file():
+                    out.append((key, f"correction {i + 1} ({c['kind']}): {key} standard {p} "
+                                "does not exist"))
+        return out
 
     def limits_object(self):
         """The limits as a :class:`kit.review.limits.Limits` (None without limits).
@@ -248,13 +277,46 @@ class Procedure:
                 raise ProcedureError(str(exc).replace("quantity.", ""), self.source) from None
         if inline is None or from_file is None:
             return inline or from_file
-        both = sorted({q.name for q in inline.quantities} & {q.name for q in from_file.quantities}
-                      | {m.name for m in inline.masks} & {m.name for m in from_file.masks})
+        both = limited_twice(([q.name for q in inline.quantities], [m.name for m in inline.masks]),
+                             ([q.name for q in from_file.quantities],
+                              [m.name for m in from_file.masks]), self.limits_file)
         if both:
-            raise ProcedureError(f"{', '.join(both)} limited both in [limits] and in "
-                                 f"{self.limits_file}; keep one of the two", self.source)
+            raise ProcedureError(problems_text([SimpleNamespace(line=None, message=m, fix=TWICE_FIX)
+                                                for _, _, m in both]), self.source)
         return Limits(from_file.quantities + inline.quantities, from_file.masks + inline.masks,
                       inline.name, f"{from_file.source} + [limits] of {self.source}")
+
+
+def chain_of(made: list) -> Any:
+    """The correction chain of the corrections built, in order (:func:`kit.chain`); None for
+    none, the correction itself for one."""
+    if not made:
+        return None
+    import kit.corrections as kc
+
+    return made[0] if len(made) == 1 else kc.chain(*made)
+
+
+#: What to do about a standard that does not exist.
+STANDARD_FIX = "write the path relative to the procedure file's folder"
+#: What to do about a bound or mask both in ``[limits]`` and in the limits file.
+TWICE_FIX = "keep one of the two"
+
+
+def limited_twice(inline: tuple[Any, Any], from_file: tuple[Any, Any],
+                  limits_file: Any) -> list[tuple[str, str, str]]:
+    """Bounds and masks given both inline and in the limits file, which a merge would have to
+    guess between: (kind "quantity" or "mask", name, message) for each, quantities first.
+
+    ``inline`` and ``from_file`` are each (quantity columns, mask names); the one check of
+    :meth:`Procedure.limits_object` and of the validator.
+    """
+    out = []
+    for k, kind in enumerate(("quantity", "mask")):
+        for name in sorted(set(map(str, inline[k])) & set(map(str, from_file[k]))):
+            label = name if kind == "quantity" else f"mask {name!r}"
+            out.append((kind, name, f"{label} limited both in [limits] and in {limits_file}"))
+    return out
 
 
 def problems_text(problems) -> str:

@@ -3,7 +3,8 @@
 One list of the keys the format takes (:func:`accepted_keys`; docs/procedure.md documents
 exactly these, tests/test_validate.py checks it) and :func:`structure_problems`: every
 unknown key (with the nearest valid one), unknown correction kind or fit model (with the
-valid ones), reversed span or span in MHz, and limit that does not read, each a
+valid ones), reversed span or span in MHz, limit that does not read and limit on a column
+the run does not fill (:func:`column_problems`), each a
 :class:`kit.capture.Finding` naming the file, the line where the key sits and what to do.
 :meth:`kit.batch.procedure.Procedure.from_dict` raises on these; :func:`kit.batch.validate.validate`
 adds the checks against files and inputs. :func:`key_lines` finds where keys sit in TOML text.
@@ -20,7 +21,7 @@ from kit.capture import Finding
 
 __all__ = ["Problem", "CORRECTION_KINDS", "FIT_KEYS", "IMPORT_METHODS", "MIN_SPAN_HZ",
            "correction_keys", "accepted_keys", "structure_problems", "key_lines", "TOP_KEYS",
-           "QUANTITY_KEYS", "MASK_KEYS", "LIMITS_FILE_KEYS"]
+           "QUANTITY_KEYS", "MASK_KEYS", "LIMITS_FILE_KEYS", "produced_columns", "column_problems"]
 
 FORMAT_VERSION = 1
 IMPORT_METHODS = ("reflection", "series-through", "shunt-through")
@@ -385,7 +386,7 @@ def limit_text(exc: Exception) -> str:
 
 
 def check_masks(col: Collector, masks: Any, path: tuple, what: str) -> list[str]:
-    from kit.review.limits import LimitsError, limits_from_dict
+    from kit.review.limits import LimitsError, limits_from_dict, mask_name
 
     if not isinstance(masks, list):
         col.add(path, f"{what}: masks are written [[{'.'.join(path)}]]", "make each mask an "
@@ -398,7 +399,7 @@ def check_masks(col: Collector, masks: Any, path: tuple, what: str) -> list[str]
             continue
         unknown_keys(col, m, MASK_KEYS, mpath, f"mask {i + 1}")
         m = {k: v for k, v in m.items() if k in MASK_KEYS}
-        names.append(str(m.get("name") or f"mask{i + 1}"))
+        names.append(mask_name(m, i))
         try:
             limits_from_dict({"mask": [m]}, source="@")
         except LimitsError as exc:
@@ -409,6 +410,74 @@ def check_masks(col: Collector, masks: Any, path: tuple, what: str) -> list[str]
         col.add(path, f"{what}: two masks are named {dup[0]!r}", "give every mask its own "
                 "name", "duplicate-limit")
     return names
+
+
+# ---------------------------------------------------------------------- columns
+def produced_columns(doc: dict[str, Any]) -> tuple[set[str], set[str]]:
+    """(numeric summary columns a run of this procedure fills, those only a fit fills).
+
+    Names and units: docs/nomenclature.md; columns of :mod:`kit.outputs.summary`.
+    """
+    from kit.outputs.entries import unit_column
+    from kit.outputs.summary import PARAM_COLUMNS, RESONANCE_COLUMNS, RESONANCE_EXTRA
+
+    cols = {"ports", "points", "f_start_hz", "f_stop_hz", "z0_ohm"}
+    cols |= set(RESONANCE_COLUMNS) | set(RESONANCE_EXTRA)
+    pattern = (doc.get("import") or {}).get("name_pattern")
+    if isinstance(pattern, str):
+        from kit.io.names import compile_pattern, number_fields
+
+        try:
+            compile_pattern(pattern)
+        except ValueError:
+            pass  # the pattern is reported elsewhere
+        else:  # text fields ({serial}) are columns too, but not numbers a limit can bound
+            for f in number_fields(pattern):
+                cols.add(f"field_{f}" if f in cols or f in ("capture", "path") else f)
+    fit_all = set()
+    for col in dict.fromkeys(PARAM_COLUMNS.values()):
+        fit_all |= {col, unit_column(col, "stderr")}
+    for k in RESONANCE_COLUMNS:
+        fit_all |= {f"fit_{k}", unit_column(f"fit_{k}", "stderr")}
+    fit_all.add("fit_residual_rel")
+    fit = doc.get("fit")
+    if isinstance(fit, dict):
+        from kit.resonators.registry import get_model
+
+        try:
+            opts = {k: fit[k] for k in ("z_front", "z_back") if k in fit}
+            params = get_model(fit.get("model", "bvd"), fit.get("modes", 1), **opts).params
+        except (TypeError, ValueError):
+            params = tuple(PARAM_COLUMNS)  # the model is reported elsewhere
+        for p in params:
+            if p in PARAM_COLUMNS:
+                cols |= {PARAM_COLUMNS[p], unit_column(PARAM_COLUMNS[p], "stderr")}
+        cols |= {c for c in fit_all if c.startswith("fit_")}
+    return cols, fit_all
+
+
+def column_problems(col: Collector, doc: dict, entries: list[tuple[str, tuple]]) -> None:
+    """A problem for each bound (column, key path) on a column a run of ``doc`` does not
+    fill (:func:`produced_columns`): the one check of the validator and of
+    :meth:`kit.batch.procedure.Procedure.from_dict`."""
+    cols, fit_only = produced_columns(doc)
+    fit = doc.get("fit")
+    for name, path in entries:
+        if name in cols:
+            continue
+        if name in fit_only and not isinstance(fit, dict):
+            col.add(path, f"a limit on {name!r}, which only a fit gives, in a procedure "
+                    "without [fit]", "add a [fit] table (model 'bvd' gives c0_f, r1_ohm, "
+                    "l1_h, c1_f) or remove the limit", "limit-column")
+        elif name in fit_only:
+            col.add(path, f"a limit on {name!r}, which fit model "
+                    f"{fit.get('model', 'bvd')!r} does not give", "choose a model that has "
+                    "it (docs/nomenclature.md) or remove the limit", "limit-column")
+        else:
+            near = nearest(name, cols)
+            col.add(path, f"a limit on {name!r}, which is not a number column of this run's "
+                    "summary", (f"did you mean {near!r}? " if near else "") + "columns: "
+                    "docs/nomenclature.md", "limit-column")
 
 
 def structure_problems(doc: dict[str, Any], source: str = "<procedure>",
@@ -438,7 +507,7 @@ def structure_problems(doc: dict[str, Any], source: str = "<procedure>",
         _fit(col, doc["fit"])
     lim = doc.get("limits")
     if lim is not None and _is_table(col, lim, ("limits",), "[limits]"):
-        limit_entries(col, lim, ("limits",), "[limits]")
+        column_problems(col, doc, limit_entries(col, lim, ("limits",), "[limits]"))
         if "mask" in lim:
             check_masks(col, lim["mask"], ("limits", "mask"), "[limits]")
         if "name" in lim and not isinstance(lim["name"], str):

@@ -19,95 +19,42 @@ from __future__ import annotations
 
 import math
 import tomllib
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from kit.batch.procedure import CORRECTION_KINDS, MIN_SPAN_HZ, Procedure
+from kit.batch.procedure import (
+    CORRECTION_KINDS,
+    MIN_SPAN_HZ,
+    STANDARD_FIX,
+    TWICE_FIX,
+    Procedure,
+    chain_of,
+    limited_twice,
+)
 from kit.batch.schema import (
     LIMITS_FILE_KEYS,
     Collector,
     Problem,
     accepted_keys,
     check_masks,
+    column_problems,
     key_lines,
     limit_entries,
     limit_text,
-    nearest,
+    produced_columns,
     structure_problems,
     syntax_problem,
     unknown_keys,
 )
 from kit.capture import CaptureError, Finding
 
-__all__ = ["Problem", "validate", "structure_problems", "accepted_keys", "produced_columns",
-           "key_lines", "SAMPLE"]
+__all__ = ["Problem", "Checked", "check", "validate", "structure_problems", "accepted_keys",
+           "produced_columns", "key_lines", "SAMPLE"]
 
 #: Input files whose frequency range is read (pre-flight scan) to check the spans: the first,
 #: the last and evenly spaced ones between; a lot is taken to share one sweep plan.
 SAMPLE = 5
-
-
-# ---------------------------------------------------------------------- columns
-def produced_columns(doc: dict[str, Any]) -> tuple[set[str], set[str]]:
-    """(numeric summary columns a run of this procedure fills, those only a fit fills).
-
-    Names and units: docs/nomenclature.md; columns of :mod:`kit.outputs.summary`.
-    """
-    from kit.outputs.entries import unit_column
-    from kit.outputs.summary import PARAM_COLUMNS, RESONANCE_COLUMNS, RESONANCE_EXTRA
-
-    cols = {"ports", "points", "f_start_hz", "f_stop_hz", "z0_ohm"}
-    cols |= set(RESONANCE_COLUMNS) | set(RESONANCE_EXTRA)
-    pattern = (doc.get("import") or {}).get("name_pattern")
-    if isinstance(pattern, str):
-        from kit.io.names import compile_pattern
-
-        try:
-            for f in compile_pattern(pattern).groupindex:
-                cols.add(f"field_{f}" if f in cols or f in ("capture", "path") else f)
-        except ValueError:
-            pass
-    fit_all = set()
-    for col in dict.fromkeys(PARAM_COLUMNS.values()):
-        fit_all |= {col, unit_column(col, "stderr")}
-    for k in RESONANCE_COLUMNS:
-        fit_all |= {f"fit_{k}", unit_column(f"fit_{k}", "stderr")}
-    fit_all.add("fit_residual_rel")
-    fit = doc.get("fit")
-    if isinstance(fit, dict):
-        from kit.resonators.registry import get_model
-
-        try:
-            opts = {k: fit[k] for k in ("z_front", "z_back") if k in fit}
-            params = get_model(fit.get("model", "bvd"), fit.get("modes", 1), **opts).params
-        except (TypeError, ValueError):
-            params = tuple(PARAM_COLUMNS)  # the model is reported elsewhere
-        for p in params:
-            if p in PARAM_COLUMNS:
-                cols |= {PARAM_COLUMNS[p], unit_column(PARAM_COLUMNS[p], "stderr")}
-        cols |= {c for c in fit_all if c.startswith("fit_")}
-    return cols, fit_all
-
-
-def _column_problems(col: Collector, doc: dict, entries: list[tuple[str, tuple]]) -> None:
-    cols, fit_only = produced_columns(doc)
-    fit = doc.get("fit")
-    for name, path in entries:
-        if name in cols:
-            continue
-        if name in fit_only and not isinstance(fit, dict):
-            col.add(path, f"a limit on {name!r}, which only a fit gives, in a procedure "
-                    "without [fit]", "add a [fit] table (model 'bvd' gives c0_f, r1_ohm, "
-                    "l1_h, c1_f) or remove the limit", "limit-column")
-        elif name in fit_only:
-            col.add(path, f"a limit on {name!r}, which fit model "
-                    f"{fit.get('model', 'bvd')!r} does not give", "choose a model that has "
-                    "it (docs/nomenclature.md) or remove the limit", "limit-column")
-        else:
-            near = nearest(name, cols)
-            col.add(path, f"a limit on {name!r}, which is not a number column of this run's "
-                    "summary", (f"did you mean {near!r}? " if near else "") + "columns: "
-                    "docs/nomenclature.md", "limit-column")
 
 
 # ---------------------------------------------------------------------- files and inputs
@@ -140,7 +87,7 @@ def _limits_file(doc: dict, base: Path, pcol: Collector) -> tuple[Collector | No
     q = ldoc.get("quantity", {})
     if isinstance(q, dict):
         entries = limit_entries(col, q, ("quantity",), str(path.name), skip=())
-        _column_problems(col, doc, entries)
+        column_problems(col, doc, entries)
     else:
         col.add(("quantity",), "quantity must be tables such as [quantity.fs_hz]",
                 "see docs/limits.md", "bad-limit")
@@ -149,26 +96,23 @@ def _limits_file(doc: dict, base: Path, pcol: Collector) -> tuple[Collector | No
 
 
 def _standards(doc: dict, base: Path, col: Collector) -> bool:
-    """Missing standards; True when every correction could be set up."""
+    """Missing standards (:meth:`Procedure.missing_standards`); True when there are none."""
     ok = True
+    proc = Procedure(base_dir=base, source=col.source)
     for i, c in enumerate(doc.get("correction") or []):
         if not isinstance(c, dict) or c.get("kind") not in CORRECTION_KINDS:
             continue
-        for key in CORRECTION_KINDS[c["kind"]][1]:
-            v = c.get(key)
-            if isinstance(v, str):
-                p = Path(v) if Path(v).is_absolute() else base / v
-                if not p.is_file():
-                    ok = False
-                    col.add(("correction", i, key), f"correction {i + 1} ({c['kind']}): {key} "
-                            f"standard {p} does not exist", "write the path relative to the "
-                            "procedure file's folder", "missing-file")
+        for key, message in proc.missing_standards(i, c):
+            ok = False
+            col.add(("correction", i, key), message, STANDARD_FIX, "missing-file")
     return ok
 
 
-def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] | None:
+def _input_range(inputs: Any, col: Collector) -> tuple[tuple[float, float, int, int] | None,
+                                                        list[Any]]:
     """(lowest, highest frequency [Hz], files sampled, files) of the inputs, by the pre-flight
-    scan of up to :data:`SAMPLE` files; missing inputs become problems."""
+    scan of up to :data:`SAMPLE` files (None when none could be read), and the inputs with
+    their folders listed; missing inputs become problems."""
     import numpy as np
 
     from kit.capture import Capture
@@ -196,7 +140,7 @@ def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] |
         else:
             files.append(p)
     if not files:
-        return None
+        return None, files
     idx = sorted(set(np.linspace(0, len(files) - 1, min(SAMPLE, len(files))).round().astype(int)))
     lo, hi, n = math.inf, -math.inf, 0
     for k in idx:
@@ -210,7 +154,7 @@ def _input_range(inputs: Any, col: Collector) -> tuple[float, float, int, int] |
                 continue
         if f.size:
             lo, hi, n = min(lo, float(f.min())), max(hi, float(f.max())), n + 1
-    return (lo, hi, n, len(files)) if n else None
+    return ((lo, hi, n, len(files)) if n else None), files
 
 
 def _span_vs_inputs(col: Collector, span: Any, path: tuple, what: str,
@@ -259,6 +203,29 @@ def _load(procedure_or_path: Any) -> tuple[dict | None, str, str, Path, list[Pro
     return doc, text, str(path), path.parent.resolve(), []
 
 
+@dataclass
+class Checked:
+    """What :func:`check` found, and what it read and built on the way, for the run.
+
+    Attributes
+    ----------
+    problems : list of Problem
+        As :func:`validate` returns them.
+    procedure : Procedure or None
+        The procedure read (None when there are problems).
+    corrections : object or None
+        Its correction chain, built from the standards (None: no correction, or problems);
+        :func:`kit.batch.engine.run` uses it in this process instead of building it again.
+    inputs : list or None
+        The inputs with their folders listed (None when no inputs were given).
+    """
+
+    problems: list[Problem]
+    procedure: Procedure | None = None
+    corrections: Any = None
+    inputs: list[Any] | None = None
+
+
 def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
     """Every problem of a procedure, in file order by step; an empty list when it is sound.
 
@@ -281,29 +248,35 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
         input), ``line`` (where the key sits, when it can be found), ``message``, ``fix`` and
         ``code`` (e.g. "unknown-key", "span-in-mhz", "missing-file", "limit-column").
     """
+    return check(procedure_or_path, inputs).problems
+
+
+def check(procedure_or_path: Any, inputs: Any = None) -> Checked:
+    """:func:`validate`, keeping what it read and built: the procedure (parsed once), its
+    correction chain (standards read once) and the listed inputs, which
+    :func:`kit.batch.engine.run` takes as they are (``run(checked, checked.inputs)``)."""
     doc, text, source, base, problems = _load(procedure_or_path)
     if doc is None:
-        return problems
+        return Checked(problems)
     col = Collector(source, text)
     col.problems = structure_problems(doc, source, text)
     lcol, ldoc = _limits_file(doc, base, col)
     lim = doc.get("limits") if isinstance(doc.get("limits"), dict) else {}
     entries = [(k, ("limits", k)) for k in lim if k not in ("mask", "name")]
-    _column_problems(col, doc, entries)
-    if isinstance(ldoc.get("quantity"), dict):
-        both = sorted(set(ldoc["quantity"]) & {k for k, _ in entries})
-        for k in both:
-            col.add(("limits", k), f"{k} is limited both in [limits] and in "
-                    f"{doc['limits_file']}", "keep one of the two bounds", "duplicate-limit")
-    if isinstance(ldoc.get("mask"), list) and isinstance(lim.get("mask"), list):
-        for k in sorted(_mask_names(ldoc["mask"]) & _mask_names(lim["mask"])):
-            col.add(("limits", "mask"), f"a mask named {k!r} is in both [limits] and "
-                    f"{doc['limits_file']}", "name the masks differently", "duplicate-limit")
+    if ldoc:
+        fq = ldoc.get("quantity") if isinstance(ldoc.get("quantity"), dict) else {}
+        for kind, k, message in limited_twice(
+                ([k for k, _ in entries], _mask_names(lim.get("mask"))),
+                (list(fq), _mask_names(ldoc.get("mask"))), doc["limits_file"]):
+            col.add(("limits", k) if kind == "quantity" else ("limits", "mask"), message,
+                    TWICE_FIX, "duplicate-limit")
+    made = None
     if _standards(doc, base, col) and not structure_problems(
             {"correction": doc.get("correction") or []}):
-        _setup_corrections(doc, base, source, col)
+        made = _setup_corrections(doc, base, source, col)
+    files = None
     if inputs is not None:
-        rng = _input_range(inputs, col)
+        rng, files = _input_range(inputs, col)
         if rng is not None:
             spans = [(("resonance", "span_hz"), "[resonance] span_hz",
                       (doc.get("resonance") or {}).get("span_hz")),
@@ -322,22 +295,37 @@ def validate(procedure_or_path: Any, inputs: Any = None) -> list[Problem]:
                                         f"mask {i + 1} span", rng)
     found = col.problems + (lcol.problems if lcol is not None else [])
     order = {source: 0, getattr(lcol, "source", None): 1}
-    return sorted(found, key=lambda p: (order.get(p.path, 2), p.line or math.inf))
+    found = sorted(found, key=lambda p: (order.get(p.path, 2), p.line or math.inf))
+    if found or made is None:
+        return Checked(found, inputs=files)
+    proc = (procedure_or_path if isinstance(procedure_or_path, Procedure)
+            else Procedure.of_checked(doc, base, source))
+    return Checked([], proc, chain_of(made), files)
 
 
-def _mask_names(masks: list) -> set[str]:
-    return {str(m.get("name") or f"mask{i + 1}") for i, m in enumerate(masks)
-            if isinstance(m, dict)}
+def _mask_names(masks: Any) -> list[str]:
+    from kit.review.limits import mask_name
+
+    if not isinstance(masks, list):
+        return []
+    return [mask_name(m, i) for i, m in enumerate(masks) if isinstance(m, dict)]
 
 
-def _setup_corrections(doc: dict, base: Path, source: str, col: Collector) -> None:
-    """Build each correction as the run will (standards read once here); collect failures."""
+def _setup_corrections(doc: dict, base: Path, source: str, col: Collector) -> list | None:
+    """Build each correction as the run will (standards read once here); collect failures.
+    Returns the corrections built, None when one failed."""
     items = [c for c in doc.get("correction") or [] if isinstance(c, dict)]
     proc = Procedure(corrections=items, base_dir=base, source=source)
+    made: list | None = []
     for i, c in enumerate(items):
         try:
-            proc.build_correction(i, c)
+            built = proc.build_correction(i, c)
         except CaptureError as exc:
             col.add(("correction", i), getattr(exc, "reason", str(exc)),
                     "check the standards and the step's values (docs/procedure.md)",
                     "correction-setup")
+            made = None
+        else:
+            if made is not None:
+                made.append(built)
+    return made

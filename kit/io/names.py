@@ -52,6 +52,12 @@ def _types(pattern: str) -> dict[str, Any]:
     return {m.group(1): _TYPES[m.group(2)][1] for m in _FIELD.finditer(pattern)}
 
 
+def number_fields(pattern: str) -> tuple[str, ...]:
+    """The fields of a pattern that give numbers: ``{name:int}`` and ``{name:float}``, in
+    pattern order (a plain ``{name}`` is text, even when the name holds digits)."""
+    return tuple(k for k, read in _types(pattern).items() if read is not str)
+
+
 def parse_name(stem: str, pattern: str, path: str | None = None) -> tuple[dict[str, Any], Finding | None]:
     """Fields of ``stem`` by ``pattern``.
 

@@ -321,7 +321,7 @@ def limits_from_dict(doc: dict[str, Any], source: str = "<limits>", text: str = 
             hi = np.atleast_1d(bounds["upper"])
             if np.any(np.broadcast_to(lo, (2,)) > np.broadcast_to(hi, (2,))):
                 raise LimitsError(f"{where}: mask {i + 1} has lower above upper")
-        name = str(m.get("name") or f"mask{i + 1}")
+        name = mask_name(m, i)
         if name in names:
             raise LimitsError(f"{where}: two masks are named {name!r}; names must differ")
         names.add(name)
@@ -335,6 +335,11 @@ def limits_from_dict(doc: dict[str, Any], source: str = "<limits>", text: str = 
         masks.append(Mask(name, str(curve), f0, f1, bounds["lower"], bounds["upper"],
                           z_method, port))
     return Limits(tuple(quantities), tuple(masks), str(doc.get("name", "")), source)
+
+
+def mask_name(mask: dict[str, Any], i: int) -> str:
+    """The name of mask ``i`` (0-based) of a list: its ``name``, else ``mask<i + 1>``."""
+    return str(mask.get("name") or f"mask{i + 1}")
 
 
 def load_limits(path: str | os.PathLike) -> Limits:

@@ -52,6 +52,10 @@ TABLE_COLUMNS = ("capture", "status", "fs_hz", "fp_hz", "k_eff", "qm", "c0_f", "
                  "verdict", "error")
 
 
+#: Top-level settings of a loaded procedure that no control shows, saved as they were.
+KEPT_AS_LOADED = ("name", "description", "limits_file", "resonance")
+
+
 def _number(text: str, what: str) -> float | None:
     """A bound typed by the user: '' means no bound; anything else must be a number."""
     t = text.strip()
@@ -303,7 +307,7 @@ class ProcedurePanel:
                 limits[key] = bounds
         if limits:
             doc["limits"] = limits
-        for k in ("name", "resonance"):
+        for k in KEPT_AS_LOADED:
             if self.kept.get(k):
                 doc[k] = self.kept[k]
         return Procedure.from_dict(doc, base_dir=Path.cwd(), source="<procedure panel>")
@@ -409,6 +413,10 @@ class ProcedurePanel:
                 else:
                     lo.value = hi.value = ""
             self.kept = {"fit": fit, "limits": limits, "name": proc.name,
+                         "description": proc.description,
+                         # absolute: the panel's procedure is read from the current folder
+                         "limits_file": (str(proc.resolve(proc.limits_file))
+                                         if proc.limits_file else ""),
                          "resonance": dict(proc.resonance)}
         finally:
             self._quiet = False
