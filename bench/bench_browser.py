@@ -2,12 +2,16 @@
 
 For captures of 1601 and of 100,001 points the script starts a private JupyterLab on
 loopback, opens a notebook with one lot browser and pin panel per length, and drives each
-browser from headless Chromium (Playwright): capture change, span slider, pin placement,
-right-view change. Each interaction is timed in the page itself, from the first DOM event
-of the action (pointer, key, input or change, caught in the capture phase) to the last
-frame that ipympl painted into the figure's canvas before the figure stayed quiet for
-``QUIET_MS`` (``drawImage`` on the visible canvas, hooked before the page loads). The
-median and 95th percentile per interaction are printed; nothing is asserted on time.
+browser from headless Chromium (Playwright): span slider, right-view change, capture change
+and pin placement. The first three are measured twice: going somewhere new each time (a
+span, a view or a part not shown before, so that the chart's band of the figure is drawn)
+and going back and forth between two states with nothing else changing (the band's kept
+picture is restored, :class:`kit.views.blit.BlitLayers`). Each interaction is timed in the
+page itself, from the first DOM event of the action (pointer, key, input or change, caught
+in the capture phase) to the last frame that ipympl painted into the figure's canvas
+before the figure stayed quiet for ``QUIET_MS`` (``drawImage`` on the visible canvas,
+hooked before the page loads). The median and 95th percentile per interaction are
+printed; nothing is asserted on time.
 
 Run: ``PYTHONPATH=$PWD .venv/bin/python bench/bench_browser.py [--repeat 15]``
 (needs Chromium at /usr/bin/chromium or ``$CHROMIUM``, and the playwright package; no
@@ -48,7 +52,9 @@ RUN_ALL = """async () => { const nb = window.jupyterapp.shell.currentWidget; awa
   await nb.sessionContext.ready; return window.jupyterapp.commands.execute('notebook:run-all-cells'); }"""
 LENGTHS = (1601, 100_001)
 QUIET_MS = 350  # the figure counts as updated when no frame followed for this long
-INTERACTIONS = ("capture change", "span slider", "pin placement", "view change")
+INTERACTIONS = ("capture change, next", "capture change, back and forth", "view change, next",
+                "view change, back and forth", "span slider, new span",
+                "span slider, back and forth", "pin placement")
 
 #: Installed before any page script: frames painted into a lot-browser canvas, and the
 #: first user event of an action, both on the page's clock (performance.now()).
@@ -191,7 +197,11 @@ def _settle(page, bench: str, action) -> None:
 
 
 def drive(page, n: int, repeat: int) -> dict[str, list[float]]:
-    """Each interaction ``repeat`` times on the browser of length ``n``: latencies [s]."""
+    """Each interaction ``repeat`` times on the browser of length ``n``: latencies [s].
+
+    Every interaction is measured two ways: going somewhere new (the next part of the lot,
+    the next of the ten views, a span not shown before: the figure's band is drawn) and
+    going back and forth between two states (the band's kept picture is restored)."""
     expect = __import__("playwright.sync_api", fromlist=["expect"]).expect
     area = f".bench-{n}"
     page.evaluate("(a) => document.querySelector(a).setAttribute('data-bench', a)", area)
@@ -201,21 +211,33 @@ def drive(page, n: int, repeat: int) -> dict[str, list[float]]:
     box.locator(".sb-lot-figure").scroll_into_view_if_needed()
     page.wait_for_timeout(800)  # ipympl settles its first frame
     select = box.locator(".sb-select select")
-    labels = [o.strip() for o in select.locator("option").all_inner_texts()][:2]
+    labels = [o.strip() for o in select.locator("option").all_inner_texts()]
     chart = box.locator(".sb-chart select")
+    views = [o.strip() for o in chart.locator("option").all_inner_texts()]
     handle = box.locator(".sb-span .noUi-handle").first
     out: dict[str, list[float]] = {k: [] for k in INTERACTIONS}
-    for k in range(repeat):
-        out["capture change"].append(_timed(
-            page, area, lambda: select.select_option(label=labels[(k + 1) % 2])))
-        out["view change"].append(_timed(
-            page, area, lambda: chart.select_option(label=["R", "|Z|"][k % 2])))
+    parts = labels[1:] if len(labels) > 2 else labels
+    for k in range(repeat):  # somewhere new each time: a new span, then a view and a part
         handle.focus()
-        out["span slider"].append(_timed(
-            page, area, lambda: page.keyboard.press(["PageUp", "PageDown"][k % 2])))
+        out["span slider, new span"].append(_timed(
+            page, area, lambda: page.keyboard.press("ArrowRight")))
+        out["view change, next"].append(_timed(
+            page, area, lambda: chart.select_option(label=views[(k + 1) % len(views)])))
+        out["capture change, next"].append(_timed(
+            page, area, lambda: select.select_option(label=parts[(k + 1) % len(parts)])))
         out["pin placement"].append(_timed(
             page, area, lambda: box.locator("button.sb-pin-place").click()))
         _settle(page, area, lambda: box.locator("button.sb-pin-clear").click())
+    for k in range(repeat):  # back and forth between two parts, nothing else changing
+        out["capture change, back and forth"].append(_timed(
+            page, area, lambda: select.select_option(label=labels[k % 2])))
+    for k in range(repeat):
+        out["view change, back and forth"].append(_timed(
+            page, area, lambda: chart.select_option(label=["R", "|Z|"][k % 2])))
+    handle.focus()
+    for k in range(repeat):
+        out["span slider, back and forth"].append(_timed(
+            page, area, lambda: page.keyboard.press(["PageUp", "PageDown"][k % 2])))
     return out
 
 

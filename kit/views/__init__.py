@@ -246,11 +246,12 @@ def held_limits(current, wanted, log: bool = False, fill: float = 0.6) -> tuple[
     """Axis limits that stay put while the data still fill them well.
 
     Flipping through the parts of a lot, an axis that rescales to every capture moves its
-    ticks on every step (and costs a redraw of the axis). Here the limits become the union
-    of the ``current`` limits and the ``wanted`` ones (those that fit the data now), as long
-    as the wanted range covers at least ``fill`` of that union; otherwise the axis zooms to
-    ``wanted``. Hence an axis grows at once to show all data and shrinks only when the data
-    would use less than ``fill`` of it.
+    ticks on every step (and costs a redraw of the axis). Here the ``current`` limits stay
+    while they hold the ``wanted`` ones (those that fit the data now) and the wanted range
+    covers at least ``fill`` of them. When the data reach beyond, the limits grow to the
+    union, widened to a round step (a tenth of the range, 1-2-5 series) so that the next
+    similar part fits without another change; when the data would use less than ``fill``,
+    the axis zooms to ``wanted`` (widened the same way if the data still fill it).
 
     Parameters
     ----------
@@ -275,10 +276,36 @@ def held_limits(current, wanted, log: bool = False, fill: float = 0.6) -> tuple[
     if not all(math.isfinite(v) for v in (lo, hi, c0, c1)) or (log and min(lo, c0) <= 0):
         return lo, hi
     u0, u1 = min(lo, c0), max(hi, c1)
-    ext = (lambda a, b: math.log10(b / a)) if log else (lambda a, b: b - a)
-    if ext(u0, u1) > 0 and ext(lo, hi) >= fill * ext(u0, u1):
-        return u0, u1
+    if (u0, u1) == (c0, c1):
+        if hi > lo and _extent(lo, hi, log) >= fill * _extent(c0, c1, log):
+            return c0, c1  # the data still fill the shown range: nothing moves
+    else:
+        n0, n1 = _outward(u0, u1, log)  # growing: to a round step, so the next part fits
+        if _extent(lo, hi, log) >= fill * _extent(n0, n1, log):
+            return n0, n1
+    n0, n1 = _outward(lo, hi, log)
+    if hi > lo and _extent(lo, hi, log) >= fill * _extent(n0, n1, log):
+        return n0, n1
     return lo, hi
+
+
+def _extent(lo: float, hi: float, log: bool) -> float:
+    return math.log10(hi / lo) if log else hi - lo
+
+
+def _outward(lo: float, hi: float, log: bool) -> tuple[float, float]:
+    """(lo, hi) widened to whole steps of a 1-2-5 series near a tenth of the range (of
+    the decades on a log axis); ends already on a step stay."""
+    a, b = (math.log10(lo), math.log10(hi)) if log else (lo, hi)
+    if not b > a:
+        return lo, hi
+    raw = (b - a) / 10.0
+    mag = 10.0 ** math.floor(math.log10(raw))
+    step = next(m * mag for m in (1.0, 2.0, 5.0, 10.0) if m * mag >= raw)
+    tol = 1e-9 * step
+    a2 = a if abs(a / step - round(a / step)) * step <= tol else math.floor(a / step) * step
+    b2 = b if abs(b / step - round(b / step)) * step <= tol else math.ceil(b / step) * step
+    return (10.0 ** a2, 10.0 ** b2) if log else (a2, b2)
 
 
 def legend_outside(ax, handles=None, side: str = "right", **kw):

@@ -67,6 +67,7 @@ class BlitLayers:
         self.patches: dict[str, Callable[[], list[Any]]] = {}
         self.strips: dict[str, Callable[[], list[Any]]] = {}
         self._keep: dict[str, set[str]] = {}
+        self._drawn: set[str] = set()  # bands whose artists match their pixels
         self._extents: dict[str, Any] = {}
         self._dirty: dict[str, Any] = {}  # band or patch -> key of its new look (or None)
         self._kept: OrderedDict[tuple[str, Any], Any] = OrderedDict()
@@ -192,8 +193,12 @@ class BlitLayers:
                 if ax.get_visible():
                     ax.apply_aspect()
             self.counts["kept"] += 1
+            # matplotlib's tick labels still hold the last drawn look, not this one: no
+            # strip of this band can be kept until the band is drawn again
+            self._drawn.discard(name)
             return
-        keep = self._keep.pop(name, set())
+        keep = self._keep.pop(name, set()) if name in self._drawn else set()
+        self._drawn.add(name)
         kept = self._strip_boxes(keep, renderer)  # (artist, pixel box) before the draw
         self._paint_band(x0, x1, axes, [a for a, _ in kept])
         if kept and self._overlaps_others(kept, keep, renderer):
@@ -270,6 +275,7 @@ class BlitLayers:
         self._dirty.clear()
         self._keep.clear()
         self._kept.clear()  # a full draw: maybe another size, or other static parts
+        self._drawn = set(self.bands)
         self._draw_dynamic(renderer)
 
     def render(self) -> str:
