@@ -2,10 +2,10 @@
 
 Every public parameter, result field and summary column that carries a unit ends in the
 suffix of that unit (SI, no prefixes): see :data:`SUFFIXES` and ``docs/nomenclature.md``.
-:func:`unit_of` reads the unit off a name; :func:`scale_for` and :func:`eng` turn values
-into prefixed units for axes, and the number formatter (:func:`quantity`, :func:`delta`,
-:func:`percent`, :func:`column_label`, :func:`table`) writes every number a user reads, so
-that no widget or report scales or rounds by hand.
+:func:`unit_of` reads the unit off a name; :func:`scale_for` turns values into prefixed
+units for axes, and the number formatter (:func:`quantity`, its trimmed form :func:`eng`,
+:func:`delta`, :func:`percent`, :func:`column_label`, :func:`table`) writes every number a
+user reads, so that no widget or report scales or rounds by hand.
 
 References
 ----------
@@ -89,16 +89,18 @@ def scale_for(values, unit: str) -> tuple[float, str]:
 
 
 def eng(value: float, unit: str, digits: int = 4) -> str:
-    """Engineering notation with an SI prefix, e.g. ``eng(3.9e-8, "H") == "39 nH"``.
+    """:func:`quantity` with trailing zeros dropped: ``eng(3.9e-8, "H") == "39 nH"``.
 
-    NaN and None read "not found"; zero and infinities are printed without a prefix.
+    For titles, legends and part values, where "39 nH" reads better than "39.00 nH"; the
+    prefix, rounding, minus sign and missing text are those of :func:`quantity` (there is
+    one SI-prefix formatter). ``digits`` is the most significant digits shown.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
+       prefixes).
     """
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return "not found"
-    if not np.isfinite(value) or value == 0:
-        return f"{value:g} {unit}".strip()
-    factor, prefixed = scale_for([value], unit)
-    return f"{value * factor:.{digits}g} {prefixed}".strip()
+    return quantity(value, unit, digits=digits, trim=True)
 
 
 def _prefix_exp(unit: str) -> int:
@@ -208,7 +210,7 @@ def _infinite(value: float, unit: str) -> str:
     return _join(("" if value > 0 else MINUS) + "∞", unit)
 
 
-def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
+def quantity(value, unit: str = "", stderr=None, digits: int = 4, trim: bool = False) -> str:
     """A value with its unit in an SI prefix, and its standard uncertainty if given.
 
     Parameters
@@ -221,6 +223,9 @@ def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
         Standard uncertainty of ``value`` [unit]; NaN says it could not be estimated.
     digits : int
         Significant digits of the value (trailing zeros kept).
+    trim : bool
+        Drop trailing zeros (and a bare decimal point) of the value: "39 nH" for
+        "39.00 nH" (see :func:`eng`); the uncertainty is never trimmed.
 
     Returns
     -------
@@ -247,15 +252,16 @@ def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
         return _infinite(x, unit)
     digits = max(int(digits), 1)
     if x == 0:
-        head = _join(_fixed(0.0, digits - 1), unit)
+        number, shown = _fixed(0.0, digits - 1), unit
     elif (not unit or unit in UNPREFIXED) and not 1e-3 <= abs(x) < 1e6:
-        head = _join(_power_of_ten(x, digits), unit)
+        number, shown = _power_of_ten(x, digits, trim), unit
     else:
         place = _place(x, digits)
         u = None if stderr is None else float(stderr)
         if u is not None and math.isfinite(u) and u > 0:
             place = max(place, _place(u, 2))
-        head = _join(*_parts(x, unit, place))
+        number, shown = _parts(x, unit, place)
+    head = _join(_trimmed(number) if trim else number, shown)
     if stderr is None:
         return head
     return head + " ± " + _uncertainty(stderr, unit)
@@ -277,12 +283,19 @@ def _uncertainty(stderr, unit: str) -> str:
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
 
-def _power_of_ten(x: float, digits: int) -> str:
+def _power_of_ten(x: float, digits: int, trim: bool = False) -> str:
     """"1.234 × 10⁻⁷": a mantissa of ``digits`` significant digits and a power of ten."""
     place = _place(x, digits)
     e = place + digits - 1
     mantissa = _fixed(round(x, -place) / 10.0 ** e, digits - 1)
-    return f"{mantissa} × 10{str(e).translate(_SUPERSCRIPT)}"
+    return f"{_trimmed(mantissa) if trim else mantissa} × 10{str(e).translate(_SUPERSCRIPT)}"
+
+
+def _trimmed(number: str) -> str:
+    """A number text without trailing zeros after its decimal point: "39.00" -> "39"."""
+    if "." not in number or "×" in number:
+        return number
+    return number.rstrip("0").rstrip(".")
 
 
 def percent(fraction, digits: int = 2, signed: bool = False) -> str:
