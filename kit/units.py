@@ -20,7 +20,8 @@ import math
 import numpy as np
 
 __all__ = ["SUFFIXES", "PREFIXES", "UNPREFIXED", "unit_of", "circuit_unit", "scale_for", "eng",
-           "to_unit", "from_unit", "quantity", "delta", "percent", "column_label", "table"]
+           "to_unit", "from_unit", "quantity", "complex_quantity", "delta", "percent", "column_label",
+           "table"]
 
 #: name suffix -> unit symbol. `_s` is seconds only; siemens is `_siemens`.
 SUFFIXES: tuple[tuple[str, str], ...] = (
@@ -278,6 +279,36 @@ def _uncertainty(stderr, unit: str) -> str:
     if (not unit or unit in UNPREFIXED) and not 1e-3 <= u < 1e6:
         return _join(_power_of_ten(u, 2), unit)
     return _join(*_parts(u, unit, _place(u, 2)))
+
+
+def complex_quantity(value, unit: str = "", digits: int = 4) -> str:
+    """A complex value as "12.30 Ω − j4.500 Ω": both parts by :func:`quantity`.
+
+    Parameters
+    ----------
+    value : complex
+        The value in the SI unit ``unit`` [unit].
+    unit : str
+        Unit symbol without prefix ("Ω", "S").
+    digits : int
+        Significant digits of each part.
+
+    Returns
+    -------
+    str
+        Real part, the sign of the imaginary part (the true minus sign U+2212), "j" and
+        the magnitude of the imaginary part, each part in its own SI prefix.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
+       prefixes); IEC 60027-1 writes the imaginary unit j in electrical engineering (from
+       memory).
+    """
+    v = complex(value)
+    sign = "+" if v.imag >= 0 else MINUS
+    return (f"{quantity(v.real, unit, digits=digits)} {sign} "
+            f"j{quantity(abs(v.imag), unit, digits=digits)}")
 
 
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")

@@ -15,7 +15,7 @@ import numpy as np
 
 from kit.resonators.registry import get_model
 from kit.results import Result
-from kit.units import percent, quantity, scale_for, unit_of
+from kit.units import eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["FitResult", "param_unit"]
 
@@ -176,9 +176,9 @@ class FitResult(Result):
         """Plain-text summary: values with standard errors, derived figures, flags."""
         lines = [self.heading, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
                  f"flags: {', '.join(self.flags) or 'none'}",
-                 f"residual (normalised RMS): {self.residual_rel:.3g}; noise (normalised RMS, "
-                 f"from the data): {self.noise_rms:.3g}; residual / noise: "
-                 f"{self.residual_to_noise:.3g}",
+                 f"residual (normalised RMS): {eng(self.residual_rel, '', 3)}; noise "
+                 f"(normalised RMS, from the data): {eng(self.noise_rms, '', 3)}; residual / "
+                 f"noise: {eng(self.residual_to_noise, '', 3)}",
                  f"points: {self.n_points}; "
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]
         lines.append("values ± standard uncertainty (not a confidence interval)")
@@ -198,8 +198,8 @@ class FitResult(Result):
         flags = esc(", ".join(self.flags) or "none")
         status = "ok" if self.ok else "NOT ok: " + esc(self.reason)
         return (f"<div><b>{esc(self.model)}</b> fit of {esc(self.name or '<arrays>')} &mdash; "
-                f"{status}<br>flags: {flags}; residual {self.residual_rel:.3g}; noise "
-                f"{self.noise_rms:.3g} (ratio {self.residual_to_noise:.3g})"
+                f"{status}<br>flags: {flags}; residual {eng(self.residual_rel, '', 3)}; noise "
+                f"{eng(self.noise_rms, '', 3)} (ratio {eng(self.residual_to_noise, '', 3)})"
                 "<table><tr><th>parameter</th><th>value ± standard uncertainty</th>"
                 f"<th>relative uncertainty</th></tr>{rows}</table></div>")
 
