@@ -73,7 +73,7 @@ def parts_table_html(design, rounded, stress) -> str:
     def cells(name, a, b):
         s = by_name.get(name)
         v = "" if s is None else "</td><td>".join(
-            html.escape(quantity(x, u)) for x, u in ((s.v_rms, "V"), (s.v_peak, "V"), (s.i_rms, "A")))
+            html.escape(quantity(x, u)) for x, u in ((s.v_rms_v, "V"), (s.v_peak_v, "V"), (s.i_rms_a, "A")))
         return f"<tr><td>{html.escape(name)}</td><td>{a}</td><td>{b}</td><td>{v}</td></tr>"
 
     rows.append(cells("element", "", ""))
