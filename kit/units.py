@@ -372,9 +372,12 @@ _ELEMENT_STEM = ("c0", "c1", "c2", "r0", "r1", "r2", "l1", "l2", "esr", "esl", "
 
 def column_label(name: str) -> tuple[str, str]:
     """(label, unit) of a column by the suffix rule: ``"fs_hz" -> ("fs", "Hz")``,
-    ``"c0_f" -> ("C0", "F")``, ``"k_eff" -> ("k_eff", "")``; circuit elements in capitals."""
+    ``"c0_f" -> ("C0", "F")``, ``"k_eff" -> ("k_eff", "")``; circuit elements with a
+    capital initial ("Cp", "R1"), ESR and ESL in capitals."""
     unit = unit_of(name)
     low = name.lower()
+    if low in _DIMENSIONLESS:  # a symbol of its own: k_eff, tan_delta, qm
+        return name, ""
     stem = name
     for suffix, u in sorted(SUFFIXES, key=lambda su: -len(su[0])):
         if low.endswith(suffix) and u == unit:
@@ -383,7 +386,7 @@ def column_label(name: str) -> tuple[str, str]:
     head, _, rest = stem.partition("_")
     if head.lower() in _ELEMENT_STEM or (head[:1].lower() in "rlc" and head[1:].isdigit()
                                          and head[1:] != ""):
-        head = head.upper()
+        head = head.upper() if head.lower() in ("esr", "esl") else head[0].upper() + head[1:]
     label = head + (" " + rest.replace("_", " ") if rest else "")
     return label, unit
 

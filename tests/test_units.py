@@ -188,6 +188,9 @@ def test_table_puts_units_in_the_headers():
     assert list(out["serial"]) == ["01", "02"]
     assert list(df.columns) == ["capture", "serial", "fs_hz", "c0_f", "r1_ohm", "n_points"]
     assert column_label("fs_stderr_hz") == ("fs stderr", "Hz")
+    # symbols keep their spelling (common practice, no source): k_eff, Cp, ESR
+    assert column_label("k_eff") == ("k_eff", "")
+    assert column_label("Cp") == ("Cp", "F") and column_label("ESR") == ("ESR", "Ω")
 
 
 @given(st.floats(min_value=-1e13, max_value=1e13, allow_nan=False).filter(lambda v: v != 0),

@@ -15,7 +15,7 @@ import numpy as np
 
 from kit.resonators.registry import get_model
 from kit.results import Result
-from kit.units import eng, percent, quantity, scale_for, unit_of
+from kit.units import column_label, eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["FitResult", "param_unit"]
 
@@ -125,7 +125,7 @@ class FitResult(Result):
     f_hz: Any = field(default=None, repr=False, compare=False)
     z: Any = field(default=None, repr=False, compare=False)
 
-    _ROWS = (("fs_hz", "fs_hz", "Hz"), ("fp_hz", "fp_hz", "Hz"), ("k_eff", "k_eff", ""),
+    _ROWS = (("fs_hz", "fs", "Hz"), ("fp_hz", "fp", "Hz"), ("k_eff", "k_eff", ""),
              ("qm", "qm", ""), ("residual_rel", "residual (normalised RMS)", ""),
              ("noise_rms", "noise (normalised RMS, from the data)", ""),
              ("residual_to_noise", "residual / noise", ""))
@@ -183,7 +183,8 @@ class FitResult(Result):
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]
         lines.append("values ± standard uncertainty (not a confidence interval)")
         for p, v, e, rel in self._rows():
-            lines.append(f"  {p:>10s} = {self._value(p, v, e)}  ({percent(rel / 100)})")
+            lines.append(f"  {column_label(p)[0]:>10s} = {self._value(p, v, e)}  "
+                         f"({percent(rel / 100)})")
         return "\n".join(lines)
 
     def __str__(self) -> str:
@@ -192,7 +193,8 @@ class FitResult(Result):
     def _repr_html_(self) -> str:
         esc = html.escape
         rows = "".join(
-            f"<tr><td>{esc(p)}</td><td style='text-align:right'>{esc(self._value(p, v, e))}</td>"
+            f"<tr><td>{esc(column_label(p)[0])}</td>"
+            f"<td style='text-align:right'>{esc(self._value(p, v, e))}</td>"
             f"<td style='text-align:right'>{esc(percent(rel / 100))}</td></tr>"
             for p, v, e, rel in self._rows())
         flags = esc(", ".join(self.flags) or "none")
