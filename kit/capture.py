@@ -14,6 +14,8 @@ from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 
+from kit.units import eng
+
 if TYPE_CHECKING:  # pragma: no cover - typing only
     import skrf
 
@@ -177,7 +179,7 @@ class Capture:
 
     def __repr__(self) -> str:
         f = self.network.frequency.f
-        span = f"{f[0]:.6g}..{f[-1]:.6g} Hz" if len(f) else "empty"
+        span = f"{eng(f[0], 'Hz', 7)} to {eng(f[-1], 'Hz', 7)}" if len(f) else "empty"
         warn = sum(1 for x in self.findings if x.severity == "warning")
         return (f"Capture({self.name!r}, ports={self.ports}, points={self.points}, {span}, "
                 f"warnings={warn}, steps={len(self.provenance)})")

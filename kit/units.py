@@ -2,10 +2,10 @@
 
 Every public parameter, result field and summary column that carries a unit ends in the
 suffix of that unit (SI, no prefixes): see :data:`SUFFIXES` and ``docs/nomenclature.md``.
-:func:`unit_of` reads the unit off a name; :func:`scale_for` and :func:`eng` turn values
-into prefixed units for axes, and the number formatter (:func:`quantity`, :func:`delta`,
-:func:`percent`, :func:`column_label`, :func:`table`) writes every number a user reads, so
-that no widget or report scales or rounds by hand.
+:func:`unit_of` reads the unit off a name; :func:`scale_for` turns values into prefixed
+units for axes, and the number formatter (:func:`quantity`, its trimmed form :func:`eng`,
+:func:`delta`, :func:`percent`, :func:`column_label`, :func:`table`) writes every number a
+user reads, so that no widget or report scales or rounds by hand.
 
 References
 ----------
@@ -20,7 +20,8 @@ import math
 import numpy as np
 
 __all__ = ["SUFFIXES", "PREFIXES", "UNPREFIXED", "unit_of", "circuit_unit", "scale_for", "eng",
-           "to_unit", "from_unit", "quantity", "delta", "percent", "column_label", "table"]
+           "to_unit", "from_unit", "quantity", "complex_quantity", "delta", "percent", "column_label",
+           "table"]
 
 #: name suffix -> unit symbol. `_s` is seconds only; siemens is `_siemens`.
 SUFFIXES: tuple[tuple[str, str], ...] = (
@@ -89,16 +90,18 @@ def scale_for(values, unit: str) -> tuple[float, str]:
 
 
 def eng(value: float, unit: str, digits: int = 4) -> str:
-    """Engineering notation with an SI prefix, e.g. ``eng(3.9e-8, "H") == "39 nH"``.
+    """:func:`quantity` with trailing zeros dropped: ``eng(3.9e-8, "H") == "39 nH"``.
 
-    NaN and None read "not found"; zero and infinities are printed without a prefix.
+    For titles, legends and part values, where "39 nH" reads better than "39.00 nH"; the
+    prefix, rounding, minus sign and missing text are those of :func:`quantity` (there is
+    one SI-prefix formatter). ``digits`` is the most significant digits shown.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
+       prefixes).
     """
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return "not found"
-    if not np.isfinite(value) or value == 0:
-        return f"{value:g} {unit}".strip()
-    factor, prefixed = scale_for([value], unit)
-    return f"{value * factor:.{digits}g} {prefixed}".strip()
+    return quantity(value, unit, digits=digits, trim=True)
 
 
 def _prefix_exp(unit: str) -> int:
@@ -208,7 +211,7 @@ def _infinite(value: float, unit: str) -> str:
     return _join(("" if value > 0 else MINUS) + "∞", unit)
 
 
-def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
+def quantity(value, unit: str = "", stderr=None, digits: int = 4, trim: bool = False) -> str:
     """A value with its unit in an SI prefix, and its standard uncertainty if given.
 
     Parameters
@@ -221,6 +224,9 @@ def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
         Standard uncertainty of ``value`` [unit]; NaN says it could not be estimated.
     digits : int
         Significant digits of the value (trailing zeros kept).
+    trim : bool
+        Drop trailing zeros (and a bare decimal point) of the value: "39 nH" for
+        "39.00 nH" (see :func:`eng`); the uncertainty is never trimmed.
 
     Returns
     -------
@@ -247,15 +253,16 @@ def quantity(value, unit: str = "", stderr=None, digits: int = 4) -> str:
         return _infinite(x, unit)
     digits = max(int(digits), 1)
     if x == 0:
-        head = _join(_fixed(0.0, digits - 1), unit)
+        number, shown = _fixed(0.0, digits - 1), unit
     elif (not unit or unit in UNPREFIXED) and not 1e-3 <= abs(x) < 1e6:
-        head = _join(_power_of_ten(x, digits), unit)
+        number, shown = _power_of_ten(x, digits, trim), unit
     else:
         place = _place(x, digits)
         u = None if stderr is None else float(stderr)
         if u is not None and math.isfinite(u) and u > 0:
             place = max(place, _place(u, 2))
-        head = _join(*_parts(x, unit, place))
+        number, shown = _parts(x, unit, place)
+    head = _join(_trimmed(number) if trim else number, shown)
     if stderr is None:
         return head
     return head + " ± " + _uncertainty(stderr, unit)
@@ -274,15 +281,52 @@ def _uncertainty(stderr, unit: str) -> str:
     return _join(*_parts(u, unit, _place(u, 2)))
 
 
+def complex_quantity(value, unit: str = "", digits: int = 4) -> str:
+    """A complex value as "12.30 Ω − j4.500 Ω": both parts by :func:`quantity`.
+
+    Parameters
+    ----------
+    value : complex
+        The value in the SI unit ``unit`` [unit].
+    unit : str
+        Unit symbol without prefix ("Ω", "S").
+    digits : int
+        Significant digits of each part.
+
+    Returns
+    -------
+    str
+        Real part, the sign of the imaginary part (the true minus sign U+2212), "j" and
+        the magnitude of the imaginary part, each part in its own SI prefix.
+
+    References
+    ----------
+    .. [1] BIPM, *The International System of Units (SI)*, 9th ed., 2019, Table 7 (decimal
+       prefixes); IEC 60027-1 writes the imaginary unit j in electrical engineering (from
+       memory).
+    """
+    v = complex(value)
+    sign = "+" if v.imag >= 0 else MINUS
+    return (f"{quantity(v.real, unit, digits=digits)} {sign} "
+            f"j{quantity(abs(v.imag), unit, digits=digits)}")
+
+
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
 
-def _power_of_ten(x: float, digits: int) -> str:
+def _power_of_ten(x: float, digits: int, trim: bool = False) -> str:
     """"1.234 × 10⁻⁷": a mantissa of ``digits`` significant digits and a power of ten."""
     place = _place(x, digits)
     e = place + digits - 1
     mantissa = _fixed(round(x, -place) / 10.0 ** e, digits - 1)
-    return f"{mantissa} × 10{str(e).translate(_SUPERSCRIPT)}"
+    return f"{_trimmed(mantissa) if trim else mantissa} × 10{str(e).translate(_SUPERSCRIPT)}"
+
+
+def _trimmed(number: str) -> str:
+    """A number text without trailing zeros after its decimal point: "39.00" -> "39"."""
+    if "." not in number or "×" in number:
+        return number
+    return number.rstrip("0").rstrip(".")
 
 
 def percent(fraction, digits: int = 2, signed: bool = False) -> str:
@@ -328,9 +372,12 @@ _ELEMENT_STEM = ("c0", "c1", "c2", "r0", "r1", "r2", "l1", "l2", "esr", "esl", "
 
 def column_label(name: str) -> tuple[str, str]:
     """(label, unit) of a column by the suffix rule: ``"fs_hz" -> ("fs", "Hz")``,
-    ``"c0_f" -> ("C0", "F")``, ``"k_eff" -> ("k_eff", "")``; circuit elements in capitals."""
+    ``"c0_f" -> ("C0", "F")``, ``"k_eff" -> ("k_eff", "")``; circuit elements with a
+    capital initial ("Cp", "R1"), ESR and ESL in capitals."""
     unit = unit_of(name)
     low = name.lower()
+    if low in _DIMENSIONLESS:  # a symbol of its own: k_eff, tan_delta, qm
+        return name, ""
     stem = name
     for suffix, u in sorted(SUFFIXES, key=lambda su: -len(su[0])):
         if low.endswith(suffix) and u == unit:
@@ -339,7 +386,7 @@ def column_label(name: str) -> tuple[str, str]:
     head, _, rest = stem.partition("_")
     if head.lower() in _ELEMENT_STEM or (head[:1].lower() in "rlc" and head[1:].isdigit()
                                          and head[1:] != ""):
-        head = head.upper()
+        head = head.upper() if head.lower() in ("esr", "esl") else head[0].upper() + head[1:]
     label = head + (" " + rest.replace("_", " ") if rest else "")
     return label, unit
 

@@ -100,8 +100,9 @@ def test_grid_mismatch_names_both_grids_then_resample_is_recorded():
     with pytest.raises(kit.CaptureError) as err:
         c(dut)
     msg = str(err.value)
-    assert "1000000 Hz to 10000000 Hz, 21 points" in msg
-    assert "1000000 Hz to 10000000 Hz, 11 points" in msg
+    # 1e6 Hz and 1e7 Hz in SI prefixes (BIPM SI brochure, 9th ed., Table 7)
+    assert "1 MHz to 10 MHz, 21 points" in msg
+    assert "1 MHz to 10 MHz, 11 points" in msg
     assert "resample=True" in msg
     out = kit.osl(*stds, resample=True)(dut)
     step = out.provenance[-1]

@@ -189,10 +189,10 @@ def test_stress_into_matched_resistor_is_the_available_power():
     # Available power Vs^2/(4 R0) (maximum power transfer; Pozar 4th ed. ch. 2, from memory).
     s = m.stress(None, 50.0, 1e6, 1.0)
     e = s.row("element")
-    assert e.v_rms == pytest.approx(np.sqrt(50.0), rel=1e-12)
-    assert e.i_rms == pytest.approx(1 / np.sqrt(50.0), rel=1e-12)
-    assert e.p_w == pytest.approx(1.0, rel=1e-12)
-    assert e.v_peak == pytest.approx(10.0, rel=1e-12)
+    assert e.v_rms_v == pytest.approx(np.sqrt(50.0), rel=1e-12)
+    assert e.i_rms_a == pytest.approx(1 / np.sqrt(50.0), rel=1e-12)
+    assert e.power_w == pytest.approx(1.0, rel=1e-12)
+    assert e.v_peak_v == pytest.approx(10.0, rel=1e-12)
     assert "available power" in s.assumptions
 
 
@@ -211,16 +211,16 @@ def test_stress_of_tuned_transformer_on_bvd_at_fs():
     d = m.tuned_transformer(bvd(fs), fs)
     s = m.stress(d, bvd, fs, 100.0)
     v = np.sqrt(100.0 * r1)
-    assert s.row("element").v_rms == pytest.approx(v, rel=1e-9)
-    assert s.row("element").p_w == pytest.approx(100.0, rel=1e-9)
-    assert s.row("L1").v_rms == pytest.approx(v, rel=1e-9)
-    assert s.row("L1").i_rms == pytest.approx(v / (ws * d.values["L1"]), rel=1e-9)
-    assert s.row("T1 primary").v_rms == pytest.approx(np.sqrt(100.0 * 50.0), rel=1e-9)
-    assert s.row("T1 secondary").v_rms == pytest.approx(v, rel=1e-9)
+    assert s.row("element").v_rms_v == pytest.approx(v, rel=1e-9)
+    assert s.row("element").power_w == pytest.approx(100.0, rel=1e-9)
+    assert s.row("L1").v_rms_v == pytest.approx(v, rel=1e-9)
+    assert s.row("L1").i_rms_a == pytest.approx(v / (ws * d.values["L1"]), rel=1e-9)
+    assert s.row("T1 primary").v_rms_v == pytest.approx(np.sqrt(100.0 * 50.0), rel=1e-9)
+    assert s.row("T1 secondary").v_rms_v == pytest.approx(v, rel=1e-9)
     # a high-resistance element (a 2 kohm parallel resonance) at 100 W: hundreds of volts
     hv = m.stress(m.transformer(2000.0, 50.0), 2000.0, fs, 100.0)
-    assert hv.row("element").v_rms == pytest.approx(np.sqrt(100.0 * 2000.0), rel=1e-9)
-    assert hv.row("element").v_peak > 600.0
+    assert hv.row("element").v_rms_v == pytest.approx(np.sqrt(100.0 * 2000.0), rel=1e-9)
+    assert hv.row("element").v_peak_v > 600.0
     assert "element" in str(s)
     assert list(s.to_frame()["name"])[0] == "element"
 

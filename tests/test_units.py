@@ -29,10 +29,16 @@ def test_scale_for_uses_si_prefixes():
 
 
 def test_eng_prints_prefixed_values():
-    """3.9e-8 H is 39 nH; 3.316e-6 H is 3.316 µH; NaN reads 'not found'."""
+    """3.9e-8 H is 39 nH; 3.316e-6 H is 3.316 µH (BIPM SI brochure, 9th ed., Table 7); eng
+    is quantity without trailing zeros: same prefix, rounding, minus sign (U+2212) and
+    missing text."""
     assert eng(3.9e-8, "H") == "39 nH"
     assert eng(3.316e-6, "H") == "3.316 µH"
-    assert eng(math.nan, "H") == "not found"
+    assert eng(-4.7e-12, "F") == "\u22124.7 pF"
+    assert eng(0.0, "Ω") == "0 Ω"
+    assert eng(1.5e-7, "") == "1.5 × 10\u207b\u2077"
+    assert eng(999.96, "Hz") == "1 kHz"  # rounds up into the next prefix, as quantity does
+    assert eng(math.nan, "H") == "not available"
 
 
 def test_display_units_follow_the_si_prefixes():
@@ -182,3 +188,21 @@ def test_table_puts_units_in_the_headers():
     assert list(out["serial"]) == ["01", "02"]
     assert list(df.columns) == ["capture", "serial", "fs_hz", "c0_f", "r1_ohm", "n_points"]
     assert column_label("fs_stderr_hz") == ("fs stderr", "Hz")
+    # symbols keep their spelling (common practice, no source): k_eff, Cp, ESR
+    assert column_label("k_eff") == ("k_eff", "")
+    assert column_label("Cp") == ("Cp", "F") and column_label("ESR") == ("ESR", "Ω")
+
+
+@given(st.floats(min_value=-1e13, max_value=1e13, allow_nan=False).filter(lambda v: v != 0),
+       st.sampled_from(["Hz", "F", "Ω", "dB", ""]), st.integers(1, 7))
+def test_eng_is_quantity_without_trailing_zeros(value, unit, digits):
+    """One SI-prefix formatter: eng's text is quantity's with the zeros after the decimal
+    point dropped (same number: common practice, no source)."""
+    q, e = quantity(value, unit, digits=digits), eng(value, unit, digits)
+    q_num, _, q_rest = q.partition(" ")
+    e_num, _, e_rest = e.partition(" ")
+    assert q_rest == e_rest
+    if "." in q_num:
+        assert q_num.rstrip("0").rstrip(".") == e_num
+    else:
+        assert q_num == e_num

@@ -24,6 +24,7 @@ import numpy as np
 from kit.capture import Capture, CaptureError, Finding, from_network
 from kit.network.coerce import is_network
 from kit.results import Result, nan_if_none
+from kit.units import eng
 
 #: Default tolerance on |S| (or the largest singular value of S) above 1 before a
 #: corrected capture is reported as active. Common practice, no source; real calibrated
@@ -94,11 +95,12 @@ def identity(cap: Capture) -> dict[str, Any]:
 
 # ---------------------------------------------------------------------------- grids
 def grid_text(f_hz: np.ndarray) -> str:
-    """``start .. stop Hz, N points`` (with "non-uniform" when the steps differ)."""
+    """``1 MHz to 10 MHz, 21 points`` (with "non-uniform" when the steps differ); the ends
+    to 9 significant digits, so that two grids that differ read differently."""
     f = np.asarray(f_hz, dtype=float)
     if f.size == 0:
         return "an empty grid"
-    text = f"{f[0]:.9g} Hz to {f[-1]:.9g} Hz, {f.size} points"
+    text = f"{eng(f[0], 'Hz', 9)} to {eng(f[-1], 'Hz', 9)}, {f.size} points"
     if not is_uniform(f):
         text += ", non-uniform"
     return text
@@ -256,9 +258,9 @@ def passivity_finding(before: Capture, after: Capture, tol: float) -> tuple[dict
         return entry, ()
     p0 = passivity(before)
     what = "|S11|" if after.ports == 1 else "the largest singular value of S"
-    msg = (f"the corrected capture is active: {what} reaches {p.worst:.6g} at "
-           f"{p.f_hz:.6g} Hz, {p.excess:.3g} above 1 (tolerance {tol:g}); before the "
-           f"correction the worst was {p0.worst:.6g}")
+    msg = (f"the corrected capture is active: {what} reaches {eng(p.worst, '', 6)} at "
+           f"{eng(p.f_hz, 'Hz', 7)}, {eng(p.excess, '', 3)} above 1 (tolerance "
+           f"{eng(tol, '')}); before the correction the worst was {eng(p0.worst, '', 6)}")
     fix = ("check the standards, the cable or fixture parameters and that the grids match; "
            "a small excess is normal in calibrated data")
     finding = Finding("warning", msg, None, fix, "active",

@@ -14,6 +14,7 @@ from kit.corrections.base import as_capture
 from kit.network.coerce import sweep
 from kit.network.immittance import SingularPointsWarning
 from kit.results import Result, nan_if_none
+from kit.units import delta, eng
 
 _ARRAYS = ("rel", "z_ohm", "expected_ohm", "freq_hz")
 
@@ -81,10 +82,10 @@ class Residual(Result):
     def __str__(self) -> str:
         if not self.ok:
             return f"{self.name}: residual not computed: {self.reason}"
-        text = (f"{self.name}: worst |Z - Zexp|/|Zexp| = {self.worst_rel:.3g} at "
-                f"{self.f_hz:.6g} Hz (median {self.median_rel:.3g})")
+        text = (f"{self.name}: worst |Z \u2212 Zexp|/|Zexp| = {eng(self.worst_rel, '', 3)} at "
+                f"{eng(self.f_hz, 'Hz', 7)} (median {eng(self.median_rel, '', 3)})")
         if not math.isnan(self.limit):
-            text += f", margin to limit {self.limit:g}: {self.margin:+.3g}"
+            text += f", margin to limit {eng(self.limit, '')}: {delta(self.margin, '', digits=3)}"
         return text
 
 

@@ -213,9 +213,9 @@ class FanoLimit(Result):
             eq += f", L = {quantity(self.l_h, 'H')}"
         lines = [f"Bode-Fano limit ({self.model}: {eq}) over "
                  f"{quantity(self.f_lo_hz, 'Hz', digits=6)}..{quantity(self.f_hi_hz, 'Hz', digits=6)}",
-                 f"  limit on the integral of ln(1/|Gamma|) d omega = {self.bound_rad_s:.4g} "
-                 "rad/s; best constant |Gamma| over the band "
-                 f"{self.gamma_min:.4g} (return loss {self.rl_max_db:.2f} dB)"]
+                 f"  limit on the integral of ln(1/|Gamma|) d omega = "
+                 f"{quantity(self.bound_rad_s, 'rad/s')}; best constant |Gamma| over the band "
+                 f"{quantity(self.gamma_min, '')} (return loss {self.rl_max_db:.2f} dB)"]
         lines += ["  caution: " + x for x in self.flags]
         return "\n".join(lines)
 

@@ -118,7 +118,7 @@ class Part:
         """Human text such as ``"L1 series inductor 38.98 nH"``."""
         if self.kind == "T":
             t = f" ({self.turns[0]}:{self.turns[1]} turns)" if self.turns else ""
-            return f"{self.name} ideal transformer Np/Ns = {self.value:.4g}{t}"
+            return f"{self.name} ideal transformer Np/Ns = {eng(self.value, '')}{t}"
         what = "inductor" if self.kind == "L" else "capacitor"
         return f"{self.name} {self.placement} {what} {eng(self.value, UNITS[self.kind])}"
 
@@ -291,7 +291,7 @@ class MatchDesign(Result):
         rows = [(k, "not used" if v == "not found" else v) for k, v in super().view_rows()]
         return rows + [
             (f"{p.name} ({p.placement})",
-             eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {p.value:.4g}")
+             eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {eng(p.value, '')}")
             for p in self.parts]
 
     def _footer(self) -> list[str]:
@@ -404,5 +404,5 @@ class MatchDesign(Result):
         return self.summary()
 
     def __repr__(self) -> str:
-        vals = ", ".join(f"{p.name}={p.value:.6g}" for p in self.parts)
+        vals = ", ".join(f"{p.name}={eng(p.value, UNITS[p.kind], 6)}" for p in self.parts)
         return f"MatchDesign({self.kind!r}, {vals})"

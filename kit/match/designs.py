@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from kit.match.circuit import MatchDesign, Part, load_grid, load_name, load_z
-from kit.units import eng, quantity
+from kit.units import complex_quantity, eng, quantity
 
 REF_L = ("D. M. Pozar, Microwave Engineering, 4th ed., Wiley 2012, section 5.1, L-section "
          "matching (equation numbers from memory)")
@@ -211,14 +211,14 @@ def transformer(r_load_ohm, r_source_ohm: float = 50.0, *, f_hz: float | None = 
     part = Part("T1", "T", "transformer", n, turns=turns)
     return MatchDesign(
         kind="transformer",
-        title=f"ideal transformer Np/Ns = {n:.4g} ({quantity(rl, 'Ω')} -> {quantity(rs, 'Ω')})",
+        title=f"ideal transformer Np/Ns = {eng(n, '')} ({quantity(rl, 'Ω')} -> {quantity(rs, 'Ω')})",
         parts=(part,), r_source_ohm=rs, f_design_hz=f, z_load_design_ohm=z,
         params={"r_load_ohm": rl, "r_source_ohm": rs, "f_hz": f_hz,
                 "load": None if is_num else load_name(load)},
         references=(REF_XFMR,), f_grid_hz=None if is_num else load_grid(load),
         notes=("ideal: no leakage inductance, magnetising inductance or core loss",
                f"nearest whole turns with at most {max_turns}: {turns[0]}:{turns[1]} "
-               f"(ratio {turns[0] / turns[1]:.4g})"),
+               f"(ratio {eng(turns[0] / turns[1], '')})"),
     )
 
 
@@ -258,7 +258,7 @@ def tuned_transformer(load, f_hz: float, kind: str = "shunt", r_source_ohm: floa
     return MatchDesign(
         kind="tuned-transformer",
         title=(f"{kind} tuning inductor {eng(tune.parts[0].value, 'H')} + ideal transformer "
-               f"Np/Ns = {xf.parts[0].value:.4g} at {eng(f, 'Hz')}"),
+               f"Np/Ns = {eng(xf.parts[0].value, '')} at {eng(f, 'Hz')}"),
         parts=(xf.parts[0], tune.parts[0]), r_source_ohm=xf.r_source_ohm, f_design_hz=f,
         z_load_design_ohm=z,
         params={"f_hz": f, "kind": kind, "load": load_name(load),
@@ -288,7 +288,7 @@ def _l_solutions(zl: complex, z0: float, topology: str):
                 out.append(("shunt-load", sign, x, b))
         elif topology == "shunt-load":
             raise ValueError(
-                f"no shunt-at-load L-network: Re(1/ZL) > 1/R0 for ZL = {zl:.6g} Ω, "
+                f"no shunt-at-load L-network: Re(1/ZL) > 1/R0 for ZL = {complex_quantity(zl, 'Ω')}, "
                 f"R0 = {quantity(z0, 'Ω')}")
     if topology in ("series-load", "all"):
         if rl <= z0:

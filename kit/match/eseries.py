@@ -84,7 +84,7 @@ def round_design(design: MatchDesign, series: str = "E24") -> MatchDesign:
     for p in design.parts:
         if p.kind == "T":
             new = p.value if p.turns is None else p.turns[0] / p.turns[1]
-            words.append(f"{p.name} {p.value:.4g} -> {new:.4g}")
+            words.append(f"{p.name} Np/Ns {eng(p.value, '')} -> {eng(new, '')}")
         else:
             new = float(round_to_series(p.value, series))
             unit = UNITS[p.kind]

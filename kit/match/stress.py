@@ -52,11 +52,11 @@ class PartStress(Result):
         transformer).
     what : str
         Description.
-    v_rms : float
+    v_rms_v : float
         Largest RMS voltage across it over the frequencies given [V].
-    i_rms : float
+    i_rms_a : float
         Largest RMS current through it [A].
-    p_w : float
+    power_w : float
         Largest power dissipated in it (for the element: delivered to it) [W].
     f_at_v_hz : float
         Frequency of the largest voltage [Hz].
@@ -66,14 +66,14 @@ class PartStress(Result):
 
     name: str
     what: str
-    v_rms: float
-    i_rms: float
-    p_w: float
+    v_rms_v: float
+    i_rms_a: float
+    power_w: float
     f_at_v_hz: float
     f_at_i_hz: float
 
-    _ROWS = (("v_rms", "largest voltage (RMS)", "V"), ("v_peak", "largest voltage (peak)", "V"),
-             ("i_rms", "largest current (RMS)", "A"), ("p_w", "largest power", "W"),
+    _ROWS = (("v_rms_v", "largest voltage (RMS)", "V"), ("v_peak_v", "largest voltage (peak)", "V"),
+             ("i_rms_a", "largest current (RMS)", "A"), ("power_w", "largest power", "W"),
              ("f_at_v_hz", "largest voltage at", "Hz"), ("f_at_i_hz", "largest current at", "Hz"))
 
     @property
@@ -85,9 +85,9 @@ class PartStress(Result):
     reason = ""
 
     @property
-    def v_peak(self) -> float:
+    def v_peak_v(self) -> float:
         """Peak voltage of the sine [V]."""
-        return float(np.sqrt(2.0) * self.v_rms)
+        return float(np.sqrt(2.0) * self.v_rms_v)
 
 
 @dataclass(frozen=True, eq=False)
@@ -134,8 +134,8 @@ class StressReport(Result):
     def view_rows(self) -> list[tuple[str, str]]:
         """Drive and source, then per item its largest RMS voltage, current and power."""
         return Result.view_rows(self) + [
-            (r.name, f"{eng(r.v_rms, 'V')} RMS ({eng(r.v_peak, 'V')} peak), "
-                     f"{eng(r.i_rms, 'A')} RMS, {eng(r.p_w, 'W')} at {eng(r.f_at_v_hz, 'Hz')}")
+            (r.name, f"{eng(r.v_rms_v, 'V')} RMS ({eng(r.v_peak_v, 'V')} peak), "
+                     f"{eng(r.i_rms_a, 'A')} RMS, {eng(r.power_w, 'W')} at {eng(r.f_at_v_hz, 'Hz')}")
             for r in self.rows]
 
     def report(self) -> str:
@@ -186,7 +186,7 @@ class StressReport(Result):
         """pandas DataFrame, one row per item."""
         import pandas as pd
 
-        return pd.DataFrame([{**r.__dict__, "v_peak": r.v_peak} for r in self.rows])
+        return pd.DataFrame([{**r.__dict__, "v_peak_v": r.v_peak_v} for r in self.rows])
 
     def summary(self) -> str:
         """Plain text table with the assumption, every cell with its unit
@@ -194,9 +194,9 @@ class StressReport(Result):
         lines = [f"stress at {quantity(self.drive_w, 'W')} available drive",
                  f"{'item':<14} {'V rms':>11} {'V peak':>11} {'I rms':>11} {'P':>11}  at f"]
         for r in self.rows:
-            lines.append(f"{r.name:<14} {quantity(r.v_rms, 'V'):>11} "
-                         f"{quantity(r.v_peak, 'V'):>11} {quantity(r.i_rms, 'A'):>11} "
-                         f"{quantity(r.p_w, 'W'):>11}  {quantity(r.f_at_v_hz, 'Hz')}")
+            lines.append(f"{r.name:<14} {quantity(r.v_rms_v, 'V'):>11} "
+                         f"{quantity(r.v_peak_v, 'V'):>11} {quantity(r.i_rms_a, 'A'):>11} "
+                         f"{quantity(r.power_w, 'W'):>11}  {quantity(r.f_at_v_hz, 'Hz')}")
         lines.append(self.assumptions)
         return "\n".join(lines)
 

@@ -20,6 +20,7 @@ import numpy as np
 from kit.capture import CaptureError
 from kit.network.accept import network_of
 from kit.network.reflection import z_from_gamma
+from kit.units import eng
 
 Method = Literal["reflection", "series-through", "shunt-through"]
 METHODS: tuple[str, ...] = ("reflection", "series-through", "shunt-through")
@@ -34,9 +35,9 @@ def _warn_singular(bad: np.ndarray, f_hz: np.ndarray | None, what: str) -> None:
     if n == 0:
         return
     if f_hz is not None:
-        fs = ", ".join(f"{x:.6g}" for x in np.asarray(f_hz)[bad][:5])
+        fs = ", ".join(eng(float(x), "Hz", 7) for x in np.asarray(f_hz)[bad][:5])
         more = "" if n <= 5 else f" and {n - 5} more"
-        where = f" at f = {fs} Hz{more}"
+        where = f" at f = {fs}{more}"
     else:
         where = ""
     warnings.warn(

@@ -30,7 +30,7 @@ import numpy as np
 from kit.outputs.part_figure import AXES_RECT, PALETTE, VERDICT_STYLE, encode_png
 from kit.review.capability import capability
 from kit.review.verdicts import reason_kinds
-from kit.units import eng, percent, quantity, scale_for, unit_of
+from kit.units import column_label, eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["VERDICT_ORDER", "verdict_of", "counts_html", "quantities_html", "scatter_html",
            "overlay_html", "img_tag", "esc"]
@@ -84,14 +84,14 @@ def _column(summary, name: str) -> np.ndarray:
 
 
 def _label(q) -> str:
-    return q.label or q.name
+    """The limit's own label, else its column's (:func:`kit.units.column_label`): "fs"."""
+    return q.label or column_label(q.name)[0]
 
 
 def _axis_label(name: str, label: str, unit: str) -> str:
-    """"fs [MHz]": the column's stem (or the limit's label) and its prefixed unit."""
-    from kit.outputs.entries import split_unit
-
-    text = label or split_unit(name)[0]
+    """"fs [MHz]": the column's label (:func:`kit.units.column_label`, or the limit's
+    label) and its prefixed unit."""
+    text = label or column_label(name)[0]
     return f"{text} [{unit}]" if unit else text
 
 
@@ -237,8 +237,9 @@ def scatter_html(summary, limits, pair: tuple[str, str] | None, dpi: int = 80) -
     ax.set_xlabel(_axis_label(xn, "", ux), fontsize=8)
     ax.set_ylabel(_axis_label(yn, "", uy), fontsize=8)
     ax.legend(fontsize=7, loc="upper right", markerscale=1.5)
-    return (f"<h2>{esc(xn)} against {esc(yn)}</h2>"
-            f"<figure>{img_tag(encode_png(fig), f'{xn} against {yn}')}<figcaption>Each part "
+    xl, yl = column_label(xn)[0], column_label(yn)[0]
+    return (f"<h2>{esc(xl)} against {esc(yl)}</h2>"
+            f"<figure>{img_tag(encode_png(fig), f'{xl} against {yl}')}<figcaption>Each part "
             "by its limits verdict (colour and marker shape); dashed lines: the limits."
             "</figcaption></figure>")
 

@@ -63,7 +63,7 @@ from kit.outputs.part_figure import (  # noqa: F401 - figure_png, lot_figure: pu
 )
 from kit.outputs.summary import summary as lot_summary
 from kit.review.verdicts import reason_kinds, split_reasons
-from kit.units import percent, quantity, scale_for, unit_of
+from kit.units import column_label, percent, quantity, table, unit_of
 
 __all__ = ["report", "TABLE_COLUMNS", "CSP", "esc", "figure_png", "lot_figure"]
 
@@ -97,17 +97,17 @@ def _num_cols(summary, limits) -> list[str]:
 
 
 def _parts_table(summary, limits, anchors: dict[int, str]) -> str:
-    """All parts, one row each: numbers in the column's prefixed unit (in the header)."""
+    """All parts, one row each: headers "label [prefixed unit]" and cells written by
+    :func:`kit.units.table` (frequencies to 7 significant digits, the rest to 4)."""
     import pandas as pd
 
     cols = _num_cols(summary, limits)
-    heads, texts = [], []
-    for c in cols:
-        v = pd.to_numeric(summary[c], errors="coerce").to_numpy(dtype=float)
-        k, u = scale_for(v, unit_of(c))
-        stem = split_unit(c)[0]
-        heads.append(f"{stem} [{u}]" if u else stem)
-        texts.append(["" if not math.isfinite(x) else f"{x * k:.6g}" for x in v])
+    numbers = pd.DataFrame({c: pd.to_numeric(summary[c], errors="coerce").astype(float)
+                            for c in cols}, index=range(len(summary)))
+    digits = {c: 7 if unit_of(c) == "Hz" else 4 for c in cols}
+    shown = table(numbers, digits=digits)
+    heads = list(shown.columns)
+    texts = [list(shown[h]) for h in heads]
     n = len(summary)
     names = summary["capture"] if "capture" in summary.columns else [""] * n
     verdicts = summary["verdict"] if "verdict" in summary.columns else [None] * n
@@ -126,7 +126,7 @@ def _parts_table(summary, limits, anchors: dict[int, str]) -> str:
         why = "; ".join(reason_kinds(reasons[i])) if v in ("fail", "incomplete") else ""
         if status[i] == "error":
             why = "could not be read" + (f"; {why}" if why else "")
-        cells = "".join(f"<td>{t[i]}</td>" for t in texts)
+        cells = "".join(f"<td>{esc(t[i])}</td>" for t in texts)
         rv = f"<td>{esc(review[i])}</td>" if review is not None else ""
         rows.append(f"<tr><td>{i + 1}</td><td>{name}</td><td class=v-{v}>{v}</td>{rv}"
                     f"{cells}<td>{esc(why)}</td></tr>")
@@ -146,7 +146,8 @@ def _margins(row: dict) -> str:
         v = float(value) if isinstance(value, (int, float)) else math.nan
         r = float(rel) if isinstance(rel, (int, float)) else math.nan
         cls = "" if not math.isfinite(v) else (" class=v-pass" if v >= 0 else " class=v-fail")
-        out.append(f"<tr><td>{esc(check)}</td><td{cls}>"
+        label = column_label(check + suffix)[0] if suffix else column_label(check)[0]
+        out.append(f"<tr><td>{esc(label)}</td><td{cls}>"
                    f"{esc(quantity(v, unit_of(key)) if math.isfinite(v) else 'not computed')}</td>"
                    f"<td>{'' if not math.isfinite(r) else esc(percent(r, signed=True))}</td></tr>")
     if not out:

@@ -34,10 +34,17 @@ import math
 
 import numpy as np
 
+from kit.units import eng
+
 __all__ = [
     "k_eff", "kt", "k33", "k31", "kp", "kp_approx", "planar_root",
     "fs_from_kt", "fp_from_kt", "fp_from_k31", "fp_from_kp", "s11e_from_bar",
 ]
+
+
+def _hz(f_hz) -> str:
+    """A frequency [Hz] for a message: "1.975127 MHz" (an array as its values in Hz)."""
+    return eng(float(f_hz), "Hz", 7) if np.ndim(f_hz) == 0 else f"{f_hz!r} Hz"
 
 
 def _pair(fs_hz, fp_hz, what: str, upper: float | None = None):
@@ -48,12 +55,12 @@ def _pair(fs_hz, fp_hz, what: str, upper: float | None = None):
                          f"got fs={fs_hz!r}, fp={fp_hz!r}")
     if np.any(fs <= 0) or np.any(fp <= fs):
         raise ValueError(
-            f"{what}: needs 0 < fs < fp, got fs={fs_hz!r} Hz, fp={fp_hz!r} Hz "
+            f"{what}: needs 0 < fs < fp, got fs = {_hz(fs_hz)}, fp = {_hz(fp_hz)} "
             "(check that the two frequencies are not swapped)")
     if upper is not None and np.any(fp / fs >= upper):
         raise ValueError(
-            f"{what}: fp/fs = {np.max(fp / fs):.6g} is beyond the range of the formula "
-            f"(fp/fs < {upper:.6g}); the pair does not belong to this mode")
+            f"{what}: fp/fs = {eng(np.max(fp / fs), '', 6)} is beyond the range of the formula "
+            f"(fp/fs < {eng(upper, '', 6)}); the pair does not belong to this mode")
     return fs, fp
 
 

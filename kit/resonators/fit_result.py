@@ -15,7 +15,7 @@ import numpy as np
 
 from kit.resonators.registry import get_model
 from kit.results import Result
-from kit.units import percent, quantity, scale_for, unit_of
+from kit.units import column_label, eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["FitResult", "param_unit"]
 
@@ -125,7 +125,7 @@ class FitResult(Result):
     f_hz: Any = field(default=None, repr=False, compare=False)
     z: Any = field(default=None, repr=False, compare=False)
 
-    _ROWS = (("fs_hz", "fs_hz", "Hz"), ("fp_hz", "fp_hz", "Hz"), ("k_eff", "k_eff", ""),
+    _ROWS = (("fs_hz", "fs", "Hz"), ("fp_hz", "fp", "Hz"), ("k_eff", "k_eff", ""),
              ("qm", "qm", ""), ("residual_rel", "residual (normalised RMS)", ""),
              ("noise_rms", "noise (normalised RMS, from the data)", ""),
              ("residual_to_noise", "residual / noise", ""))
@@ -176,14 +176,15 @@ class FitResult(Result):
         """Plain-text summary: values with standard errors, derived figures, flags."""
         lines = [self.heading, f"ok: {self.ok}" + (f" ({self.reason})" if self.reason else ""),
                  f"flags: {', '.join(self.flags) or 'none'}",
-                 f"residual (normalised RMS): {self.residual_rel:.3g}; noise (normalised RMS, "
-                 f"from the data): {self.noise_rms:.3g}; residual / noise: "
-                 f"{self.residual_to_noise:.3g}",
+                 f"residual (normalised RMS): {eng(self.residual_rel, '', 3)}; noise "
+                 f"(normalised RMS, from the data): {eng(self.noise_rms, '', 3)}; residual / "
+                 f"noise: {eng(self.residual_to_noise, '', 3)}",
                  f"points: {self.n_points}; "
                  f"evaluations: {self.nfev} + {self.njev} Jacobian; weighting: {self.weighting}"]
         lines.append("values ± standard uncertainty (not a confidence interval)")
         for p, v, e, rel in self._rows():
-            lines.append(f"  {p:>10s} = {self._value(p, v, e)}  ({percent(rel / 100)})")
+            lines.append(f"  {column_label(p)[0]:>10s} = {self._value(p, v, e)}  "
+                         f"({percent(rel / 100)})")
         return "\n".join(lines)
 
     def __str__(self) -> str:
@@ -192,14 +193,15 @@ class FitResult(Result):
     def _repr_html_(self) -> str:
         esc = html.escape
         rows = "".join(
-            f"<tr><td>{esc(p)}</td><td style='text-align:right'>{esc(self._value(p, v, e))}</td>"
+            f"<tr><td>{esc(column_label(p)[0])}</td>"
+            f"<td style='text-align:right'>{esc(self._value(p, v, e))}</td>"
             f"<td style='text-align:right'>{esc(percent(rel / 100))}</td></tr>"
             for p, v, e, rel in self._rows())
         flags = esc(", ".join(self.flags) or "none")
         status = "ok" if self.ok else "NOT ok: " + esc(self.reason)
         return (f"<div><b>{esc(self.model)}</b> fit of {esc(self.name or '<arrays>')} &mdash; "
-                f"{status}<br>flags: {flags}; residual {self.residual_rel:.3g}; noise "
-                f"{self.noise_rms:.3g} (ratio {self.residual_to_noise:.3g})"
+                f"{status}<br>flags: {flags}; residual {eng(self.residual_rel, '', 3)}; noise "
+                f"{eng(self.noise_rms, '', 3)} (ratio {eng(self.residual_to_noise, '', 3)})"
                 "<table><tr><th>parameter</th><th>value ± standard uncertainty</th>"
                 f"<th>relative uncertainty</th></tr>{rows}</table></div>")
 

@@ -167,7 +167,7 @@ class QFactor(Result):
         elif not math.isfinite(self.q_unloaded):
             why.append("the unloaded Q could not be computed from the fitted circle")
         elif self.q_unloaded <= 0:
-            why.append(f"the unloaded Q is negative ({self.q_unloaded:.4g}): the fitted circle "
+            why.append(f"the unloaded Q is negative ({eng(self.q_unloaded, '')}): the fitted circle "
                        "does not describe a passive resonator")
         return "; ".join(dict.fromkeys(why))
 
@@ -408,7 +408,7 @@ def q_factor(capture, kind: str = "reflection", *, trace: str | None = None,
         flags.append("f-outside-span")
     step = float(np.median(np.diff(f)))
     if ql > 0 and fl / ql < 2 * step:
-        flags.append(f"bandwidth-below-2-steps:{fl / ql:.3g} Hz")
+        flags.append(f"bandwidth-below-2-steps:{eng(fl / ql, 'Hz', 3)}")
 
     def derived(pp: np.ndarray) -> np.ndarray:
         r = dict(res)

@@ -23,7 +23,7 @@ import numpy as np
 
 from kit.results import Result
 from kit.review.limits import SPAN_TOL, Limits, Mask, QuantityLimit, s_ports
-from kit.units import percent, quantity, scale_for, unit_of
+from kit.units import eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict",
            "split_reasons", "reason_kinds"]
@@ -127,9 +127,10 @@ class Verdict(Result):
 
 
 def _span(f0_hz: float, f1_hz: float) -> str:
-    """"1.8..2.4 MHz": a frequency span in one prefixed unit (:func:`kit.units.scale_for`)."""
+    """"1.8..2.4 MHz": a frequency span in one prefixed unit (:func:`kit.units.scale_for`),
+    the numbers by :func:`kit.units.eng` to 6 significant digits."""
     k, unit = scale_for([f0_hz, f1_hz], "Hz")
-    return f"{f0_hz * k:.6g}..{f1_hz * k:.6g} {unit}"
+    return f"{eng(f0_hz * k, '', 6)}..{eng(f1_hz * k, '', 6)} {unit}"
 
 
 def _rel(margin: float, bound: float) -> float:

@@ -204,8 +204,8 @@ class CorrectionsPanel:
             self.residual = residual(chk_c, self.check_ohms.value)
             self.residual_text.value = (
                 f"check part {self.check.value}: worst |Z &minus; Z<sub>exp</sub>|/|Z<sub>exp"
-                f"</sub>| = {self.residual.worst_rel:.3g} at {eng(self.residual.f_hz, 'Hz', 6)} "
-                f"(median {self.residual.median_rel:.3g})")
+                f"</sub>| = {eng(self.residual.worst_rel, '', 3)} at {eng(self.residual.f_hz, 'Hz', 6)} "
+                f"(median {eng(self.residual.median_rel, '', 3)})")
         self._draw()
 
     # ------------------------------------------------------------------ drawing

@@ -17,13 +17,14 @@ Computation happens in kit functions only: :func:`kit.load_folder`,
 from __future__ import annotations
 
 import functools
+import html
 from collections import OrderedDict
 from pathlib import Path
 from typing import Any, Callable
 
 from kit import views as kv
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
-from kit.units import table
+from kit.units import eng, table
 from kit.views.blit import BlitLayers
 
 PLANE_OPTIONS = [("Smith chart, Z grid", "smith:z"), ("Smith chart, Y grid", "smith:y"),
@@ -487,11 +488,12 @@ class LotBrowser:
         self._render()
 
     def _show_status(self) -> None:
-        lo, hi = self.span.value  # as the slider reads them (MHz)
+        lo, hi = self.span_hz()
         n, k = len(self.traces), len(self.pins)
         self.status.value = (
             f'<span style="color:#4d5b5e;font-size:12px">{n} capture{"s" * (n != 1)} · '
-            f"{kv.CHARTS[self.chart.value].title} · span {lo:.4f}–{hi:.4f} MHz · "
+            f"{html.escape(kv.CHARTS[self.chart.value].title)} · span {eng(lo, 'Hz', 7)} – "
+            f"{eng(hi, 'Hz', 7)} · "
             f'{k} pin{"s" * (k != 1)}</span>')
 
     def _draw_pins(self) -> None:

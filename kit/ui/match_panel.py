@@ -73,14 +73,14 @@ def parts_table_html(design, rounded, stress) -> str:
     def cells(name, a, b):
         s = by_name.get(name)
         v = "" if s is None else "</td><td>".join(
-            html.escape(quantity(x, u)) for x, u in ((s.v_rms, "V"), (s.v_peak, "V"), (s.i_rms, "A")))
+            html.escape(quantity(x, u)) for x, u in ((s.v_rms_v, "V"), (s.v_peak_v, "V"), (s.i_rms_a, "A")))
         return f"<tr><td>{html.escape(name)}</td><td>{a}</td><td>{b}</td><td>{v}</td></tr>"
 
     rows.append(cells("element", "", ""))
     for p, q in zip(design.parts, rounded.parts):
         if p.kind == "T":
-            t = f"{q.turns[0]}:{q.turns[1]} turns" if q.turns else f"{q.value:.4g}"
-            rows.append(cells(f"{p.name} primary", f"Np/Ns {p.value:.4g}", html.escape(t)))
+            t = f"{q.turns[0]}:{q.turns[1]} turns" if q.turns else eng(q.value, "")
+            rows.append(cells(f"{p.name} primary", f"Np/Ns {eng(p.value, '')}", html.escape(t)))
             rows.append(cells(f"{p.name} secondary", "", ""))
         else:
             rows.append(cells(p.name, html.escape(f"{p.placement} {eng(p.value, UNITS[p.kind])}"),
@@ -218,8 +218,8 @@ class MatchPanel:
         if self.limit is not None:
             lines.append(html.escape(self.limit.summary()).replace("\n", "<br>"))
             lines.append(html.escape(
-                f"share of the limit used in the band: designed {self.limit.ratio(ideal):.3g}, "
-                f"{self.series.value} values {self.limit.ratio(self.response_after):.3g}"))
+                f"share of the limit used in the band: designed {eng(self.limit.ratio(ideal), '', 3)}, "
+                f"{self.series.value} values {eng(self.limit.ratio(self.response_after), '', 3)}"))
         else:
             lines.append(html.escape(lim_text))
         lines.append(html.escape(self.stress.assumptions))

@@ -17,7 +17,7 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from kit.units import quantity, table
+from kit.units import complex_quantity, quantity, table
 from kit.views.data import LIMIT_COLOR, PIN_COLOR, Trace, return_loss_db, vswr
 
 #: Pin searches offered by :func:`find_pin`.
@@ -138,11 +138,8 @@ def pin_reading(t: Trace, index: int, name: str = "1") -> dict[str, Any]:
 
 
 def _cplx(v: complex, unit: str) -> str:
-    """"12.30 − j4.500 Ω": both parts by :func:`kit.units.quantity` in one prefix."""
-    sign = "+" if v.imag >= 0 else "−"
-    re_txt = quantity(v.real, unit)
-    im_txt = quantity(abs(v.imag), unit)
-    return f"{re_txt} {sign} j{im_txt}"
+    """"12.30 Ω − j4.500 Ω": :func:`kit.units.complex_quantity`."""
+    return complex_quantity(v, unit)
 
 
 def reading_text(r: dict[str, Any]) -> str:
