@@ -25,7 +25,7 @@ from typing import Any, Callable
 from kit import views as kv
 from kit.ui.common import FigureHost, MessageBar, classed, set_span_hz, show, span_hz, span_slider
 from kit.units import eng, table
-from kit.views.blit import BlitLayers
+from kit.views.blit import BlitLayers, axis_texts, ticks_only
 
 PLANE_OPTIONS = [("Smith chart, Z grid", "smith:z"), ("Smith chart, Y grid", "smith:y"),
                  ("Smith chart, Z and Y", "smith:both"), ("polar |Γ|", "polar"),
@@ -164,9 +164,12 @@ class LotBrowser:
         self.layers.add_band("plane", 0.0, _SPLIT, lambda: [self._plane_ax()])
         self.layers.add_band("rect", _SPLIT, 1.0, lambda: [self.ax_rect])
         self.layers.add_patch("legend", lambda: [self.ax_rect.get_legend()])
-        for axis in ("x", "y"):  # tick labels kept as pixels when only the other axis moves
-            self.layers.add_strip(f"{axis} labels", functools.partial(_axis_texts, self.ax_rect,
-                                                                      axis))
+        for which in ("x", "y"):  # an axis's labels kept as pixels when only the other moves
+            self.layers.add_strip(f"{which} labels", functools.partial(axis_texts, self.ax_rect,
+                                                                       which),
+                                  skip=functools.partial(_axis_of, self.ax_rect, which),
+                                  stand_in=ticks_only)
+        self.layers.add_strip("legend", lambda: [self.ax_rect.get_legend()])
         self._draw_plane_grid()
         kv.style_chart(self.ax_rect, chart)
         self._empty = self.ax_rect.text(0.5, 0.5, "select captures on the left", ha="center",
@@ -463,7 +466,8 @@ class LotBrowser:
             # when only one axis moved, the other one's labels keep their pixels
             same = [old is not None and rect[i] == old[i] for i in range(len(rect))]
             keep = (["x labels"] * same[1]                       # x labels: the span only
-                    + ["y labels"] * (same[0] and same[2] and same[3]))  # chart, limits, scale
+                    + ["y labels"] * (same[0] and same[2] and same[3])   # chart, limits, scale
+                    + ["legend"] * (legend == self._signature.get("legend drawn")))
             self.layers.invalidate("rect", key=(rect, legend), keep=keep)
         elif legend != self._signature.get("legend drawn"):
             self.layers.invalidate("legend")  # only the legend's own region
@@ -533,11 +537,8 @@ class LotBrowser:
                                                                  "facecolor": kv.color(0)})
 
 
-def _axis_texts(ax, axis: str) -> list[Any]:
-    """The tick labels (major and minor), the label and the offset text of one axis."""
-    a = ax.xaxis if axis == "x" else ax.yaxis
-    ticks = a.get_major_ticks() + a.get_minor_ticks()
-    return [t.label1 for t in ticks] + [t.label2 for t in ticks] + [a.label, a.offsetText]
+def _axis_of(ax, which: str) -> list[Any]:
+    return [ax.xaxis if which == "x" else ax.yaxis]
 
 
 def lot_browser(source, pattern: str | None = None, correction: Callable | None = None,

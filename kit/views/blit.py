@@ -22,6 +22,7 @@ References
 
 from __future__ import annotations
 
+import functools
 from collections import OrderedDict
 from typing import Any, Callable, Iterable
 
@@ -33,6 +34,26 @@ KEEP = 16
 
 def _skip(renderer) -> None:
     """Draw nothing (stands in for the draw of an artist whose pixels are kept)."""
+
+
+def ticks_only(axis, renderer) -> None:
+    """Stand-in for :meth:`matplotlib.axis.Axis.draw` that draws each tick's grid line
+    and tick marks, in matplotlib's order, but no tick label, axis label or offset text
+    (their pixels are kept, :func:`axis_texts`). Uses matplotlib's ``Axis._update_ticks``
+    (the ticks in view), as ``Axis.draw`` itself does. (Keeping the tick marks' pixels
+    too was tried: where a mark meets the axes' edge, its old pixels differ from a fresh
+    draw once the other axis has moved.)"""
+    for tick in axis._update_ticks():
+        if tick.get_visible():
+            for line in (tick.gridline, tick.tick1line, tick.tick2line):
+                line.draw(renderer)
+
+
+def axis_texts(ax, which: str) -> list[Any]:
+    """The tick labels (major and minor), the label and the offset text of one axis."""
+    a = ax.xaxis if which == "x" else ax.yaxis
+    ticks = a.get_major_ticks() + a.get_minor_ticks()
+    return [t.label1 for t in ticks] + [t.label2 for t in ticks] + [a.label, a.offsetText]
 
 
 class BlitLayers:
@@ -108,11 +129,18 @@ class BlitLayers:
         self.patches[name] = artists
         self._extents[name] = None
 
-    def add_strip(self, name: str, artists: Callable[[], list[Any]]) -> None:
+    def add_strip(self, name: str, artists: Callable[[], list[Any]],
+                  skip: Callable[[], list[Any]] | None = None,
+                  stand_in: Callable[[Any, Any], None] | None = None) -> None:
         """Artists inside a band whose pixels can be kept when the band is drawn again
         without them changing (an axis's tick labels and label when only the other axis
-        moved): :meth:`invalidate` with ``keep=(name,)``."""
-        self.strips[name] = artists
+        moved, a legend): :meth:`invalidate` with ``keep=(name,)``.
+
+        ``artists()`` are the artists whose pixel boxes are put back; ``skip()`` (default:
+        the same) the artists not drawn, and ``stand_in(artist, renderer)`` draws what of
+        a skipped artist lies outside those boxes (an axis's grid lines and tick marks,
+        see :func:`ticks_only`)."""
+        self.strips[name] = (artists, skip or artists, stand_in)
 
     def invalidate(self, band: str | None = None, key: Any = None,
                    keep: Iterable[str] = ()) -> None:
@@ -200,7 +228,7 @@ class BlitLayers:
         keep = self._keep.pop(name, set()) if name in self._drawn else set()
         self._drawn.add(name)
         kept = self._strip_boxes(keep, renderer)  # (artist, pixel box) before the draw
-        self._paint_band(x0, x1, axes, [a for a, _ in kept])
+        self._paint_band(x0, x1, axes, self._skipped(keep) if kept else [])
         if kept and self._overlaps_others(kept, keep, renderer):
             kept = []  # a kept label would cover a new one: draw the band in full instead
             self._paint_band(x0, x1, axes, [])
@@ -216,13 +244,20 @@ class BlitLayers:
             while len(self._kept) > KEEP:
                 self._kept.popitem(last=False)
 
-    def _paint_band(self, x0: float, x1: float, axes, skipped: list[Any]) -> None:
-        """Clear a band and draw its axes, leaving out the ``skipped`` artists."""
+    def _skipped(self, names: Iterable[str]) -> list[tuple[Any, Any]]:
+        """(artist, stand-in or None) of every artist the strips leave out of a draw."""
+        return [(a, stand_in) for n in sorted(names)
+                for a in self.strips[n][1]() if a is not None
+                for stand_in in [self.strips[n][2]]]
+
+    def _paint_band(self, x0: float, x1: float, axes, skipped: list[tuple[Any, Any]]) -> None:
+        """Clear a band and draw its axes, leaving out the ``skipped`` artists (drawing
+        their stand-ins in their place)."""
         renderer = self.fig.canvas.get_renderer()
-        for a in skipped:
+        for a, stand_in in skipped:
             # skipped, not hidden: a hidden tick label would move the axis label, which
             # matplotlib places from the tick labels' extents during the draw
-            a.draw = _skip
+            a.draw = _skip if stand_in is None else functools.partial(stand_in, a)
         try:
             self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
             self._blank.set_facecolor(self.fig.get_facecolor())
@@ -231,11 +266,11 @@ class BlitLayers:
                 if ax.get_visible():
                     ax.draw(renderer)  # animated children are left out
         finally:
-            for a in skipped:
+            for a, _ in skipped:
                 del a.draw
 
     def _texts(self, names: Iterable[str]) -> list[Any]:
-        return [a for n in names for a in self.strips[n]()
+        return [a for n in names for a in self.strips[n][0]()
                 if a is not None and a.get_visible()
                 and (not hasattr(a, "get_text") or a.get_text())]
 
@@ -323,4 +358,4 @@ class BlitLayers:
         return kind
 
 
-__all__ = ["BlitLayers", "KEEP", "RENDER_KINDS"]
+__all__ = ["BlitLayers", "KEEP", "RENDER_KINDS", "axis_texts", "ticks_only"]
