@@ -42,8 +42,9 @@ def test_png_rgba_refuses_other_arrays():
 
 
 def test_canvas_frames_decode_like_matplotlibs_own():
-    """Full frame, then a difference frame: the pixels sent equal those of matplotlib's
-    get_diff_image (Pillow encoder) for the same canvas state, and the image modes match."""
+    """Full frame, a difference frame, then a frame with translucent pixels (sent whole):
+    the pixels sent equal those of matplotlib's get_diff_image (Pillow encoder) for the
+    same canvas state, and the image modes match."""
     pytest.importorskip("ipympl")
     import matplotlib.pyplot as plt
 
@@ -71,13 +72,16 @@ def test_canvas_frames_decode_like_matplotlibs_own():
             c.draw()
             line.set_ydata([1, 0])
             c.draw()
+            fig.patch.set_alpha(0.5)  # translucent pixels: a difference frame cannot show them
+            c.draw()
             assert c.get_diff_image() is None  # nothing new to send
-            (first, mode1), (second, mode2) = sent
-            frames[fast] = (_decode(first), mode1, _decode(second), mode2)
+            (first, mode1), (second, mode2), (third, mode3) = sent
+            assert mode3 == "full"
+            frames[fast] = (_decode(first), mode1, _decode(second), mode2, _decode(third))
             plt.close(fig)
         slow, fast = frames[False], frames[True]
         assert slow[1] == fast[1] == "full" and slow[3] == fast[3] == "diff"
-        assert np.array_equal(slow[0], fast[0]) and np.array_equal(slow[2], fast[2])
+        assert all(np.array_equal(slow[i], fast[i]) for i in (0, 2, 4))
     finally:
         plt.switch_backend(old)
 

@@ -411,8 +411,8 @@ class LotBrowser:
         self._legend()
         self._draw_pins()
         self._note_changes(chart, pax)
-        self._show_status()
         self._render()
+        self._show_status()  # after the frame: the page draws the figure first
         for fn in self._listeners:
             fn()
 
@@ -488,8 +488,8 @@ class LotBrowser:
         """Show these pins (readings from :func:`kit.views.pin_reading`) on both views."""
         self.pins = list(readings)
         self._draw_pins()
-        self._show_status()
         self._render()
+        self._show_status()
 
     def _show_status(self) -> None:
         lo, hi = self.span_hz()
