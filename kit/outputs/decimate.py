@@ -74,16 +74,18 @@ def minmax_indices(columns: int, *values: np.ndarray, x=None, x_range=None) -> n
         col = np.clip(np.floor((xs - lo) * scale), 0, columns - 1).astype(np.int64)
         if xs.size != n or np.any(np.diff(col) < 0):
             raise ValueError("x must be sorted and as long as the values")
-    present = np.unique(col)
-    starts = np.searchsorted(col, present)
+    # col is sorted: a column starts where it differs from the one before (no sort needed)
+    starts = np.concatenate(([0], np.flatnonzero(col[1:] != col[:-1]) + 1))
     lengths = np.diff(np.append(starts, n))
     keep = np.zeros(n, bool)
     keep[starts] = True  # first and last point of each column: the line between two
     keep[starts + lengths - 1] = True  # columns then joins the same points as the full one
     for a in arrays:
         nan = np.isnan(a)
-        lo = np.where(nan, np.inf, a)
-        hi = np.where(nan, -np.inf, a)
+        if nan.any():
+            lo, hi = np.where(nan, np.inf, a), np.where(nan, -np.inf, a)
+        else:
+            lo = hi = a
         low = np.minimum.reduceat(lo, starts)
         high = np.maximum.reduceat(hi, starts)
         for hit in ((lo == np.repeat(low, lengths)) & ~nan,
