@@ -34,6 +34,19 @@ def test_png_rgba_round_trips_through_pillow(pixels, level):
     assert np.array_equal(_decode(png_rgba(pixels, level)), pixels)
 
 
+@settings(max_examples=30, deadline=None)
+@given(arrays(np.uint8, st.tuples(st.integers(1, 30), st.integers(1, 30), st.just(4))))
+def test_png_rgba_with_plain_zlib_round_trips(pixels):
+    """The zlib fallback (no ISA-L installed) writes a PNG Pillow reads back exactly."""
+    import zlib
+    from unittest import mock
+
+    from kit.ui import frames
+
+    with mock.patch.object(frames, "_deflate", zlib):
+        assert np.array_equal(_decode(png_rgba(pixels)), pixels)
+
+
 def test_png_rgba_refuses_other_arrays():
     with pytest.raises(ValueError, match="uint8"):
         png_rgba(np.zeros((4, 4, 3), np.uint8))
