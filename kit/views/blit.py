@@ -89,6 +89,7 @@ class BlitLayers:
         self.strips: dict[str, Callable[[], list[Any]]] = {}
         self._keep: dict[str, set[str]] = {}
         self._drawn: set[str] = set()  # bands whose artists match their pixels
+        self._boxes: dict[str, list[tuple[Any, Any]]] = {}  # strip -> measured boxes
         self._extents: dict[str, Any] = {}
         self._dirty: dict[str, Any] = {}  # band or patch -> key of its new look (or None)
         self._kept: OrderedDict[tuple[str, Any], Any] = OrderedDict()
@@ -197,6 +198,7 @@ class BlitLayers:
         width = self.fig.bbox.width
         if any(x0 * width <= box.x0 and box.x1 <= x1 * width for x0, x1 in redrawn):
             return False
+        self._boxes.clear()  # a strip's artist may be among those drawn anew
         self._blank_px.set_bounds(box.x0, box.y0, box.width, box.height)
         self._blank_px.set_facecolor(self.fig.get_facecolor())
         self._blank_px.draw(renderer)
@@ -224,6 +226,7 @@ class BlitLayers:
             # matplotlib's tick labels still hold the last drawn look, not this one: no
             # strip of this band can be kept until the band is drawn again
             self._drawn.discard(name)
+            self._boxes.clear()
             return
         keep = self._keep.pop(name, set()) if name in self._drawn else set()
         self._drawn.add(name)
@@ -232,6 +235,8 @@ class BlitLayers:
         if kept and self._overlaps_others(kept, keep, renderer):
             kept = []  # a kept label would cover a new one: draw the band in full instead
             self._paint_band(x0, x1, axes, [])
+        if not kept:
+            self._boxes.clear()  # artists drawn anew and not measured
         height = self.fig.bbox.height
         for _, box in kept:  # the strips' old pixels, from the picture before this render
             top, bottom = height - box.y1, height - box.y0  # the region's rows run downwards
@@ -275,21 +280,34 @@ class BlitLayers:
                 and (not hasattr(a, "get_text") or a.get_text())]
 
     def _strip_boxes(self, names: Iterable[str], renderer) -> list[tuple[Any, Any]]:
-        """(artist, whole-pixel box around it) of every visible artist of the strips."""
+        """(artist, whole-pixel box around it) of every visible artist of the strips.
+
+        Boxes are measured once and reused while the strip's artists are known not to
+        have changed (kept, or measured after being drawn); every other draw forgets
+        them (:attr:`_boxes`)."""
         from matplotlib.transforms import Bbox
 
         out = []
-        for a in self._texts(sorted(names)):
-            b = a.get_window_extent(renderer).padded(1.0)
-            out.append((a, Bbox.from_extents(int(max(b.x0, 0.0)), int(max(b.y0, 0.0)),
-                                             int(b.x1) + 1, int(b.y1) + 1)))
+        for name in sorted(names):
+            if name not in self._boxes:
+                boxes = []
+                for a in self._texts([name]):
+                    b = a.get_window_extent(renderer).padded(1.0)
+                    boxes.append((a, Bbox.from_extents(
+                        int(max(b.x0, 0.0)), int(max(b.y0, 0.0)), int(b.x1) + 1,
+                        int(b.y1) + 1)))
+                self._boxes[name] = boxes
+            out += self._boxes[name]
         return out
 
     def _overlaps_others(self, kept, keep: set[str], renderer) -> bool:
-        """Whether a kept box meets an artist of the other strips, as just drawn."""
-        others = [a.get_window_extent(renderer)
-                  for a in self._texts(n for n in self.strips if n not in keep)]
-        return any(box.overlaps(o) for _, box in kept for o in others)
+        """Whether a kept box meets an artist of the other strips, as just drawn (those
+        are measured now, and their boxes kept for the next render)."""
+        for name in self.strips:
+            if name not in keep:
+                self._boxes.pop(name, None)
+        others = self._strip_boxes([n for n in self.strips if n not in keep], renderer)
+        return any(box.overlaps(o) for _, box in kept for _, o in others)
 
     def _draw_dynamic(self, renderer) -> None:
         for a in self._ordered():
@@ -310,6 +328,7 @@ class BlitLayers:
         self._dirty.clear()
         self._keep.clear()
         self._kept.clear()  # a full draw: maybe another size, or other static parts
+        self._boxes.clear()
         self._drawn = set(self.bands)
         self._draw_dynamic(renderer)
 
