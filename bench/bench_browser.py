@@ -113,9 +113,29 @@ def write_long_lot(folder: Path, n: int, count: int = 3) -> None:
         write_touchstone(from_network(ntwk), folder / f"{name}.s1p")
 
 
-def write_notebook(path: Path, folders: dict[int, str]) -> None:
+#: Kernel side of each interaction: the browser's redraw (or pin update) is timed in the
+#: kernel and appended to a log file, one line per call: "<points> <seconds>".
+KERNEL_LOG = """
+import time as _time
+def _timed_calls(b, n, path):
+    for name in ("redraw", "set_pins"):
+        f = getattr(b, name)
+        def timed(*a, _f=f, **k):
+            t = _time.perf_counter()
+            try:
+                return _f(*a, **k)
+            finally:
+                with open(path, "a") as out:
+                    out.write(f"{n} {_time.perf_counter() - t:.6f}\\n")
+        setattr(b, name, timed)
+"""
+
+
+def write_notebook(path: Path, folders: dict[int, str], kernel_log: Path | None = None
+                   ) -> None:
     """A notebook with one lot browser and pin panel per capture length, each in a box
-    tagged ``data-bench=<points>`` (set from the kernel through a CSS class)."""
+    tagged ``data-bench=<points>`` (set from the kernel through a CSS class); with
+    ``kernel_log``, each browser's redraws are timed in the kernel (:data:`KERNEL_LOG`)."""
     import nbformat
 
     cells = ["import warnings\n"
@@ -126,8 +146,11 @@ def write_notebook(path: Path, folders: dict[int, str]) -> None:
              "from kit.ui.lot_browser import lot_browser\n"
              "from kit.ui.pins import pin_panel\n"
              "panels = {}"]
+    if kernel_log is not None:
+        cells.append(KERNEL_LOG)
     for n, folder in folders.items():
-        cells.append(f"b = lot_browser({folder!r}, select=0, display=False)\n"
+        timing = "" if kernel_log is None else f"_timed_calls(b, {n}, {str(kernel_log)!r})\n"
+        cells.append(f"b = lot_browser({folder!r}, select=0, display=False)\n" + timing +
                      "p = pin_panel(b, display=False)\n"
                      f"panels[{n}] = (b, p)\n"
                      f"display(w.VBox([b.widget, p.widget]).add_class('bench-{n}'))")
@@ -180,6 +203,10 @@ def lab_server(root: Path, scratch: Path, python_path: str | None = None):
                 proc.wait()
 
 
+#: The actions driven, in order, as (capture length, interaction or "settle").
+ORDER: list[tuple[int, str]] = []
+
+
 def _timed(page, bench: str, action) -> float:
     """Run ``action()``; the time [s] from its first DOM event to the figure's last frame."""
     n0 = page.evaluate("() => { window.__t0 = null; return window.__frames.length; }")
@@ -219,6 +246,8 @@ def drive(page, n: int, repeat: int) -> dict[str, list[float]]:
     parts = labels[1:] if len(labels) > 2 else labels
     for k in range(repeat):  # somewhere new each time: a new span, then a view and a part
         handle.focus()
+        ORDER.extend([(n, "span slider, new span"), (n, "view change, next"),
+                      (n, "capture change, next"), (n, "pin placement"), (n, "settle")])
         out["span slider, new span"].append(_timed(
             page, area, lambda: page.keyboard.press("ArrowRight")))
         out["view change, next"].append(_timed(
@@ -228,6 +257,9 @@ def drive(page, n: int, repeat: int) -> dict[str, list[float]]:
         out["pin placement"].append(_timed(
             page, area, lambda: box.locator("button.sb-pin-place").click()))
         _settle(page, area, lambda: box.locator("button.sb-pin-clear").click())
+    ORDER.extend((n, what) for what in ["capture change, back and forth"] * repeat
+                 + ["view change, back and forth"] * repeat
+                 + ["span slider, back and forth"] * repeat)
     for k in range(repeat):  # back and forth between two parts, nothing else changing
         out["capture change, back and forth"].append(_timed(
             page, area, lambda: select.select_option(label=labels[k % 2])))
@@ -241,10 +273,29 @@ def drive(page, n: int, repeat: int) -> dict[str, list[float]]:
     return out
 
 
+def kernel_times(log: Path) -> dict[int, dict[str, list[float]]]:
+    """Kernel time [s] per length and interaction from the kernel log, paired in order
+    with :data:`ORDER` (empty when the counts do not match)."""
+    calls: dict[int, list[float]] = {}
+    for line in log.read_text().splitlines():
+        n, sec = line.split()
+        calls.setdefault(int(n), []).append(float(sec))
+    out: dict[int, dict[str, list[float]]] = {}
+    for n, secs in calls.items():
+        names = [what for m, what in ORDER if m == n]
+        if len(names) != len(secs):
+            continue
+        for what, sec in zip(names, secs):
+            if what != "settle":
+                out.setdefault(n, {}).setdefault(what, []).append(sec)
+    return out
+
+
 def run(repeat: int = 15, lengths=LENGTHS, python_path: str | None = None,
-        workdir: Path | None = None, screenshot: Path | None = None
-        ) -> dict[int, dict[str, list[float]]]:
-    """Latencies [s] per length and interaction (see :func:`drive`)."""
+        workdir: Path | None = None, screenshot: Path | None = None,
+        kernel: dict | None = None) -> dict[int, dict[str, list[float]]]:
+    """Latencies [s] per length and interaction (see :func:`drive`); a dict given as
+    ``kernel`` receives the kernel's share of each (:func:`kernel_times`)."""
     from playwright.sync_api import sync_playwright
 
     with contextlib.ExitStack() as stack:
@@ -260,7 +311,9 @@ def run(repeat: int = 15, lengths=LENGTHS, python_path: str | None = None,
             else:
                 write_long_lot(root / f"lot_{n}", n)
                 folders[n] = f"lot_{n}"
-        write_notebook(root / "bench.ipynb", folders)
+        log = workdir / "kernel.log" if kernel is not None else None
+        write_notebook(root / "bench.ipynb", folders, log)
+        ORDER.clear()
         port, token = stack.enter_context(lab_server(root, workdir, python_path))
         hosts: set[str] = set()
         results: dict[int, dict[str, list[float]]] = {}
@@ -286,6 +339,8 @@ def run(repeat: int = 15, lengths=LENGTHS, python_path: str | None = None,
                 ctx.close()
         if hosts != {f"127.0.0.1:{port}"}:
             raise RuntimeError(f"the page contacted other hosts: {sorted(hosts)}")
+        if log is not None and log.exists():
+            kernel.update(kernel_times(log))
         return results
 
 
@@ -312,10 +367,14 @@ def main() -> None:
     if not CHROMIUM.exists():
         sys.exit(f"Chromium not found at {CHROMIUM}; install it (apt-get install chromium)")
     lengths = tuple(int(v) for v in args.points.split(","))
-    res = run(args.repeat, lengths, python_path=args.kit or str(ROOT))
+    kernel: dict = {}
+    res = run(args.repeat, lengths, python_path=args.kit or str(ROOT), kernel=kernel)
     print("lot browser in JupyterLab + ipympl + headless Chromium: interaction -> figure "
           "updated (goal: median < 100 ms, 95th percentile < 150 ms)")
     print(table(res))
+    if kernel:
+        print("\nof which in the kernel (the browser's redraw, timed inside the kernel):")
+        print(table(kernel))
 
 
 if __name__ == "__main__":

@@ -8,6 +8,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import kit.views as kv
+from kit.units import scale_for
 
 mpl = pytest.importorskip("matplotlib")
 from matplotlib.figure import Figure  # noqa: E402
@@ -138,13 +139,26 @@ def test_array_functions_return_artists_with_units():
     fig = Figure()
     a = fig.subplots(3, 3).ravel()
     assert len(kv.plot_z_mag_phase(a[0], a[1], f, z)) == 2 and a[0].get_ylabel() == "|Z| [Ω]"
-    assert len(kv.plot_r_x(a[2], f, z)) == 2 and a[2].get_ylabel() == "R, X [Ω]"
-    assert len(kv.plot_g_b(a[3], f, 1 / z)) == 2 and a[3].get_ylabel() == "G, B [mS]"
-    assert np.allclose(a[3].lines[0].get_ydata(), 1e3 * (1 / z).real)
+    assert len(kv.plot_r_x(a[2], f, z)) == 2
+    assert len(kv.plot_g_b(a[3], f, 1 / z)) == 2
+    assert np.allclose(a[3].lines[0].get_ydata(), (1 / z).real)  # plotted in siemens
     assert len(kv.plot_s_db(a[4], f, g)) == 1 and a[4].get_ylabel() == "|S| [dB]"
     assert len(kv.plot_return_loss(a[5], f, g)) == 1
     assert len(kv.plot_vswr(a[6], f, g)) == 1 and a[6].get_yscale() == "log"
-    assert len(kv.plot_group_delay(a[7], f, g)) == 1 and a[7].get_ylabel() == "group delay [ns]"
+    assert len(kv.plot_group_delay(a[7], f, g)) == 1
+    fig.draw_without_rendering()
+    # SI units with the prefix of the visible range, label and ticks alike (BIPM SI
+    # brochure, Table 7): the BVD disc's X reaches kilohms, its G millisiemens, its group
+    # delay microseconds
+    for ax, name, unit in ((a[2], "R, X", "Ω"), (a[3], "G, B", "S"),
+                           (a[7], "group delay", "s")):
+        factor, shown = scale_for(ax.get_ylim(), unit)
+        assert ax.get_ylabel() == f"{name} [{shown}]"
+        ticks = [t for t in ax.yaxis.get_major_ticks() if t.label1.get_text()]
+        assert len(ticks) >= 3
+        for tick in ticks:
+            assert float(tick.label1.get_text().replace("\u2212", "-")) == pytest.approx(
+                tick.get_loc() * factor, abs=1e-9)
     circ = kv.plot_admittance_circle(a[8], (f, z))
     assert a[8].get_xlabel() == "conductance G [mS]" and len(circ) == 1
     pol = Figure().add_subplot(projection="polar")
@@ -588,6 +602,12 @@ def test_lot_browser_pictures_equal_full_draws_along_a_session(ipympl_figures, d
              ("select", (rows[2], rows[3])),
              ("select", (rows[3], rows[2])), ("chart", "z_mag"), ("plane", "smith:y"),
              ("plane", "smith:z"), ("plane", "smith:y")]
+    # and as the browser benchmark drives it: every view, each after a new span and a
+    # new part (kept labels near the other axis are drawn, not kept)
+    charts = list(kv.CHARTS)
+    for k, name in enumerate(charts * 2):
+        steps += [("span", (lo + 0.002 * (k + 1), hi)), ("chart", name),
+                  ("select", (rows[k % len(rows)],))]
     for what, value in steps:
         for x in (a, b):
             setattr(getattr(x, what), "value", value)

@@ -37,7 +37,7 @@ import numpy as np
 
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
 from kit.outputs.decimate import columns_of, minmax_indices, window
-from kit.units import quantity, scale_for
+from kit.units import UNPREFIXED, quantity, scale_for
 from kit.views.data import (
     CHARTS,
     DASHES,
@@ -358,13 +358,26 @@ def style_chart(ax, chart: str) -> None:
     frequency_axis(ax)
     ax.set_ylabel(c.ylabel)
     ax.set_yscale(c.yscale)
-    name, unit = c.ylabel[:-1].rsplit(" [", 1) if c.ylabel.endswith("]") else (c.ylabel, "")
-    unit = "" if unit == "1" else unit
+    name, unit = _name_unit(c.ylabel)
     if c.yscale == "log":
         ax.yaxis.set_major_formatter(_log_formatter(unit, minor=False))
         ax.yaxis.set_minor_formatter(_log_formatter(unit, minor=True))
-    elif unit == "Ω":  # ohms span mΩ to MΩ: ticks and label in the prefix of the range
+    else:
+        _prefixed_y(ax, name, unit)
+
+
+def _name_unit(ylabel: str) -> tuple[str, str]:
+    """("|Z|", "Ω") from "|Z| [Ω]"; the unit "1" of a ratio is ""."""
+    name, unit = ylabel[:-1].rsplit(" [", 1) if ylabel.endswith("]") else (ylabel, "")
+    return name, "" if unit == "1" else unit
+
+
+def _prefixed_y(ax, name: str, unit: str) -> None:
+    """y ticks and label in the SI prefix of the visible range for a unit that takes one
+    (Ω, S, s; quantities are plotted in SI units); other units are left as labelled."""
+    if unit and unit not in UNPREFIXED:
         ax.yaxis.set_major_formatter(_prefixed_formatter(unit, name))
+        ax.set_ylabel(f"{name} [{scale_for(ax.get_ylim(), unit)[1]}]")
 
 
 def update_line(line, t: Trace, chart: str, columns: int | None = None, span_hz=None) -> None:
@@ -416,13 +429,16 @@ def plot_z_mag_phase(ax_mag, ax_phase, f_hz, z, label: str | None = None, i: int
             + plot_chart(ax_phase, t, "z_phase", i, label, columns, span_hz, **kw))
 
 
-def _pair(ax, t: Trace, charts: tuple[str, str], names: tuple[str, str], ylabel: str,
+def _pair(ax, t: Trace, charts: tuple[str, str], names: tuple[str, str],
           label: str | None, columns, span_hz, **kw) -> list[Any]:
-    """Two charts of one trace on one axes (solid, dashed), named in a legend."""
+    """Two charts of one trace on one axes (solid, dashed), named in a legend; the axis
+    label names both ("R, X [Ω]"), in the prefix of the visible range."""
     name = f"{label} " if label else ""
     arts = plot_chart(ax, t, charts[0], 0, f"{name}{names[0]}", columns, span_hz, **kw)
     arts += plot_chart(ax, t, charts[1], 1, f"{name}{names[1]}", columns, span_hz, ls="--", **kw)
-    ax.set_ylabel(ylabel)
+    unit = _name_unit(CHARTS[charts[0]].ylabel)[1]
+    ax.set_ylabel(f"{', '.join(names)} [{unit}]")
+    _prefixed_y(ax, ", ".join(names), unit)
     ax.legend(fontsize=7, frameon=False)
     return arts
 
@@ -431,14 +447,15 @@ def plot_r_x(ax, f_hz, z, label: str | None = None, columns: int | None = None, 
              **kw) -> list[Any]:
     """Resistance R and reactance X [Ω] against frequency on one axes (solid, dashed)."""
     t = _arr_trace(f_hz, z=z, label=label or "Z")
-    return _pair(ax, t, ("r", "x"), ("R", "X"), "R, X [Ω]", label, columns, span_hz, **kw)
+    return _pair(ax, t, ("r", "x"), ("R", "X"), label, columns, span_hz, **kw)
 
 
 def plot_g_b(ax, f_hz, y, label: str | None = None, columns: int | None = None, span_hz=None,
              **kw) -> list[Any]:
-    """Conductance G and susceptance B [mS] against frequency on one axes."""
+    """Conductance G and susceptance B [S, shown with the prefix of the range] against
+    frequency on one axes."""
     t = _arr_trace(f_hz, z=reciprocal(y), label=label or "Y")
-    return _pair(ax, t, ("g", "b"), ("G", "B"), "G, B [mS]", label, columns, span_hz, **kw)
+    return _pair(ax, t, ("g", "b"), ("G", "B"), label, columns, span_hz, **kw)
 
 
 def plot_s_db(ax, f_hz, s, label: str | None = None, i: int = 0, columns: int | None = None,
@@ -496,7 +513,8 @@ def plot_vswr(ax, f_hz, gamma, label: str | None = None, i: int = 0, columns: in
 
 def plot_group_delay(ax, f_hz, s, label: str | None = None, i: int = 0,
                      columns: int | None = None, span_hz=None, **kw) -> list[Any]:
-    """Group delay [ns] of an S-parameter against frequency."""
+    """Group delay [s, shown with the prefix of the range] of an S-parameter against
+    frequency."""
     t = _arr_trace(f_hz, s=s, gamma=s, label=label or "S")
     return plot_chart(ax, t, "group_delay", i, label, columns, span_hz, **kw)
 

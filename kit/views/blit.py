@@ -36,17 +36,24 @@ def _skip(renderer) -> None:
     """Draw nothing (stands in for the draw of an artist whose pixels are kept)."""
 
 
-def ticks_only(axis, renderer) -> None:
+def ticks_only(axis, renderer, draw: Callable[[Any], bool] = lambda a: False) -> None:
     """Stand-in for :meth:`matplotlib.axis.Axis.draw` that draws each tick's grid line
-    and tick marks, in matplotlib's order, but no tick label, axis label or offset text
-    (their pixels are kept, :func:`axis_texts`). Uses matplotlib's ``Axis._update_ticks``
-    (the ticks in view), as ``Axis.draw`` itself does. (Keeping the tick marks' pixels
-    too was tried: where a mark meets the axes' edge, its old pixels differ from a fresh
-    draw once the other axis has moved.)"""
+    and tick marks, in matplotlib's order, and of the tick labels, axis label and offset
+    text only those ``draw(text)`` asks for (the others keep their pixels,
+    :func:`axis_texts`). Uses matplotlib's ``Axis._update_ticks`` (the ticks in view), as
+    ``Axis.draw`` itself does. (Keeping the tick marks' pixels too was tried: where a mark
+    meets the axes' edge, its old pixels differ from a fresh draw once the other axis has
+    moved.)"""
     for tick in axis._update_ticks():
         if tick.get_visible():
             for line in (tick.gridline, tick.tick1line, tick.tick2line):
                 line.draw(renderer)
+            for text in (tick.label1, tick.label2):
+                if draw(text):
+                    text.draw(renderer)
+    for text in (axis.label, axis.offsetText):
+        if draw(text):
+            text.draw(renderer)
 
 
 def axis_texts(ax, which: str) -> list[Any]:
@@ -231,7 +238,11 @@ class BlitLayers:
         keep = self._keep.pop(name, set()) if name in self._drawn else set()
         self._drawn.add(name)
         kept = self._strip_boxes(keep, renderer)  # (artist, pixel box) before the draw
-        self._paint_band(x0, x1, axes, self._skipped(keep) if kept else [])
+        if kept:  # what lies where another strip's artists may come is drawn, not kept
+            zones = self._zones([n for n in self.strips if n not in keep], renderer)
+            kept = [(a, b) for a, b in kept if not any(b.overlaps(z) for z in zones)]
+        self._paint_band(x0, x1, axes,
+                         self._skipped(keep, {id(a) for a, _ in kept}) if kept else [])
         if kept and self._overlaps_others(kept, keep, renderer):
             kept = []  # a kept label would cover a new one: draw the band in full instead
             self._paint_band(x0, x1, axes, [])
@@ -242,6 +253,13 @@ class BlitLayers:
             top, bottom = height - box.y1, height - box.y0  # the region's rows run downwards
             canvas.restore_region(self._bg, bbox=(box.x0, top, box.x1, bottom), xy=(0, 0))
         self.counts["strip"] += bool(kept)
+        w = self.fig.bbox.width
+        for ax in axes():  # an axis label pushed out of its band by wide tick labels
+            for text in (ax.xaxis.label, ax.yaxis.label):
+                if ax.get_visible() and text.get_visible() and text.get_text():
+                    box = text.get_window_extent(renderer)
+                    if box.x0 < x0 * w or box.x1 > x1 * w:
+                        self._full = True  # the render ends with a full draw
         if key is not None:
             w, h = self.fig.bbox.width, self.fig.bbox.height
             self._kept[(name, key)] = canvas.copy_from_bbox(
@@ -249,20 +267,47 @@ class BlitLayers:
             while len(self._kept) > KEEP:
                 self._kept.popitem(last=False)
 
-    def _skipped(self, names: Iterable[str]) -> list[tuple[Any, Any]]:
-        """(artist, stand-in or None) of every artist the strips leave out of a draw."""
-        return [(a, stand_in) for n in sorted(names)
-                for a in self.strips[n][1]() if a is not None
-                for stand_in in [self.strips[n][2]]]
+    def _skipped(self, names: Iterable[str], kept: set[int]) -> list[tuple[Any, Any]]:
+        """(artist, its draw in this render) of every artist the strips leave out: a
+        stand-in, told to draw the strip's artists that are not kept (``kept``: ids), or
+        nothing for a kept artist without stand-in."""
+        out = []
+        for n in sorted(names):
+            _, skip, stand_in = self.strips[n]
+            for a in skip():
+                if a is None:
+                    continue
+                if stand_in is not None:
+                    out.append((a, functools.partial(stand_in, a,
+                                                     draw=lambda t: id(t) not in kept)))
+                elif id(a) in kept:
+                    out.append((a, _skip))
+        return out
+
+    def _zones(self, names: Iterable[str], renderer) -> list[Any]:
+        """Where the artists of other strips may be drawn anew: the union of their boxes,
+        stretched across the figure along its longer side (tick labels move along their
+        axis, not across it)."""
+        from matplotlib.transforms import Bbox
+
+        w, h = self.fig.bbox.width, self.fig.bbox.height
+        out = []
+        for name in names:
+            boxes = [b for _, b in self._strip_boxes([name], renderer)]
+            if boxes:
+                u = Bbox.union(boxes)
+                out.append(Bbox.from_extents(0, u.y0, w, u.y1) if u.width >= u.height
+                           else Bbox.from_extents(u.x0, 0, u.x1, h))
+        return out
 
     def _paint_band(self, x0: float, x1: float, axes, skipped: list[tuple[Any, Any]]) -> None:
         """Clear a band and draw its axes, leaving out the ``skipped`` artists (drawing
         their stand-ins in their place)."""
         renderer = self.fig.canvas.get_renderer()
-        for a, stand_in in skipped:
+        for a, instead in skipped:
             # skipped, not hidden: a hidden tick label would move the axis label, which
             # matplotlib places from the tick labels' extents during the draw
-            a.draw = _skip if stand_in is None else functools.partial(stand_in, a)
+            a.draw = instead
         try:
             self._blank.set_bounds(x0, 0.0, x1 - x0, 1.0)
             self._blank.set_facecolor(self.fig.get_facecolor())
@@ -368,6 +413,10 @@ class BlitLayers:
             self._dirty.clear()
             self._keep.clear()
             self._bg = canvas.copy_from_bbox(self.fig.bbox)
+        if self._full:  # a band's artists reached beyond it: draw everything
+            self.counts["full"] += 1
+            canvas.draw()  # -> _on_draw
+            return "full"
         self._draw_dynamic(renderer)
         canvas.blit(self.fig.bbox)
         # the picture is current: a figure left "stale" would be drawn again in full by

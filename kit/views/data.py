@@ -16,7 +16,6 @@ import numpy as np
 from kit.network.coerce import name_of, sweep
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
 from kit.outputs.part_figure import PALETTE as OKABE_ITO
-from kit.units import to_unit
 
 #: Trace colours, in order of use: six of the eight colours of the Okabe-Ito palette
 #: (M. Okabe and K. Ito, "Color Universal Design (CUD): how to make figures and
@@ -181,7 +180,8 @@ def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None
 
 @dataclass(frozen=True)
 class Chart:
-    """How a rectangular chart shows a trace: quantity, axis label with unit, y scale."""
+    """How a rectangular chart shows a trace: quantity (in SI units), axis label with its
+    unit (the axis writes it with the prefix of the visible range), y scale."""
 
     name: str
     title: str
@@ -200,11 +200,11 @@ CHARTS: dict[str, Chart] = {c.name: c for c in (
     Chart("z_phase", "phase of Z", "phase of Z [°]", _phase_deg),
     Chart("r", "R", "R [Ω]", lambda t: t.z.real),
     Chart("x", "X", "X [Ω]", lambda t: t.z.imag),
-    Chart("g", "G", "G [mS]", lambda t: to_unit(t.y.real, "mS")),
-    Chart("b", "B", "B [mS]", lambda t: to_unit(t.y.imag, "mS")),
+    Chart("g", "G", "G [S]", lambda t: t.y.real),
+    Chart("b", "B", "B [S]", lambda t: t.y.imag),
     Chart("s_db", "|S|", "|S| [dB]", lambda t: db20(t.s)),
     Chart("return_loss", "return loss", "return loss [dB]", lambda t: return_loss_db(t.gamma)),
     Chart("vswr", "VSWR", "VSWR [1]", lambda t: vswr(t.gamma), "log"),
-    Chart("group_delay", "group delay", "group delay [ns]",
-          lambda t: to_unit(group_delay_s(t.f_hz, t.s), "ns")),
+    Chart("group_delay", "group delay", "group delay [s]",
+          lambda t: group_delay_s(t.f_hz, t.s)),
 )}
