@@ -282,11 +282,14 @@ def test_interactive_canvas_when_ipympl_present(lot):
 
     from kit.ui.lot_browser import lot_browser
 
-    b = lot_browser(lot, select=[1], display=False, interactive=True)
+    old = plt.get_backend()  # this test's own backend: it used to rely on an earlier test's
+    plt.switch_backend("module://ipympl.backend_nbagg")
     try:
+        b = lot_browser(lot, select=[1], display=False, interactive=True)
         assert type(b.host.widget).__name__ == "Canvas" and b._span_selector is not None
         b._span_selector.onselect(1.8e6, 2.0e6)
         assert b.span.value == pytest.approx((1.8, 2.0), abs=b.span.step)
-    finally:
         b.host.close()
+    finally:
         plt.close("all")
+        plt.switch_backend(old)
