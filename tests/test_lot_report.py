@@ -167,7 +167,7 @@ def test_summary_and_verdicts_shown(tmp_path):
     # (kit.units.table; BIPM SI brochure, 9th ed., Table 7 for the prefix)
     assert re.search(r"<td>0\.500000</td>", doc) and re.search(r"<td>2\.000000</td>", doc)
     assert "fs_hz" not in "".join(re.findall(r"<th>[^<]*</th>", doc))  # labels, not names
-    assert "fs_hz: below the minimum" in text  # kind of reason, counted in the overview
+    assert "fs: below the minimum" in text  # kind of reason, counted in the overview
     assert "Yield: 1 of 2 part(s) passed" in text
     assert "Cpk" in text and "Cp" in text
     assert "accept" in text and "k.m" in text

@@ -23,7 +23,7 @@ import numpy as np
 
 from kit.results import Result
 from kit.review.limits import SPAN_TOL, Limits, Mask, QuantityLimit, s_ports
-from kit.units import eng, percent, quantity, scale_for, unit_of
+from kit.units import column_label, eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict",
            "split_reasons", "reason_kinds"]
@@ -149,7 +149,7 @@ def _get(row: Any, name: str) -> Any:
 def check_quantity(q: QuantityLimit, row: Any) -> Check:
     """Check one quantity bound against a summary row (dict, Series or object)."""
     unit = unit_of(q.name)
-    label = q.label or q.name
+    label = q.label or column_label(q.name)[0]  # "fs", not the column name "fs_hz"
     v = _get(row, q.name)
     try:
         x = float(v)
@@ -344,7 +344,7 @@ def split_reasons(text: Any) -> list[str]:
 def reason_kinds(text: Any) -> list[str]:
     """Kinds of the failed or incomplete checks in a ``verdict_reasons`` text.
 
-    E.g. "fs_hz: below the minimum", "k_eff: missing", "mask 'z': above the upper bound",
+    E.g. "fs: below the minimum", "k_eff: missing", "mask 'z': above the upper bound",
     "mask 'z': span not covered", "no checks defined"; reasons of checks that passed
     give none. A reason in other words is "other: <reason>". Each kind once, in order.
     """
