@@ -260,12 +260,15 @@ def drive(page, n: int, repeat: int) -> dict[str, list[float]]:
     ORDER.extend((n, what) for what in ["capture change, back and forth"] * repeat
                  + ["view change, back and forth"] * repeat
                  + ["span slider, back and forth"] * repeat)
+    shown = "s => s.options[s.selectedIndex] ? s.options[s.selectedIndex].text.trim() : ''"
+    pair = labels[:2] if select.evaluate(shown) != labels[0] else labels[1::-1]
     for k in range(repeat):  # back and forth between two parts, nothing else changing
         out["capture change, back and forth"].append(_timed(
-            page, area, lambda: select.select_option(label=labels[k % 2])))
-    for k in range(repeat):
+            page, area, lambda: select.select_option(label=pair[k % 2])))
+    pair = ["R", "|Z|"] if chart.evaluate(shown) != "R" else ["|Z|", "R"]
+    for k in range(repeat):  # (each pair starts away from the state shown)
         out["view change, back and forth"].append(_timed(
-            page, area, lambda: chart.select_option(label=["R", "|Z|"][k % 2])))
+            page, area, lambda: chart.select_option(label=pair[k % 2])))
     handle.focus()
     for k in range(repeat):
         out["span slider, back and forth"].append(_timed(
