@@ -383,12 +383,17 @@ def column_label(name: str) -> tuple[str, str]:
         if low.endswith(suffix) and u == unit:
             stem = name[: -len(suffix)]
             break
-    head, _, rest = stem.partition("_")
+    tokens, words = stem.split("_"), []
+    while tokens:  # a two-part symbol (k_eff, tan_delta) stays whole anywhere in the name
+        if len(tokens) > 1 and f"{tokens[0]}_{tokens[1]}".lower() in _DIMENSIONLESS:
+            words.append(f"{tokens.pop(0)}_{tokens.pop(0)}")
+        else:
+            words.append(tokens.pop(0))
+    head, rest = words[0], " ".join(words[1:])
     if head.lower() in _ELEMENT_STEM or (head[:1].lower() in "rlc" and head[1:].isdigit()
                                          and head[1:] != ""):
         head = head.upper() if head.lower() in ("esr", "esl") else head[0].upper() + head[1:]
-    label = head + (" " + rest.replace("_", " ") if rest else "")
-    return label, unit
+    return head + (" " + rest if rest else ""), unit
 
 
 def table(frame, digits=4, labels: dict | None = None):

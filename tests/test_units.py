@@ -191,6 +191,11 @@ def test_table_puts_units_in_the_headers():
     # symbols keep their spelling (common practice, no source): k_eff, Cp, ESR
     assert column_label("k_eff") == ("k_eff", "")
     assert column_label("Cp") == ("Cp", "F") and column_label("ESR") == ("ESR", "Ω")
+    # also inside a longer name: the symbol stays whole
+    assert column_label("k_eff_stderr") == ("k_eff stderr", "")
+    assert column_label("fit_k_eff") == ("fit k_eff", "")
+    assert column_label("fit_k_eff_stderr") == ("fit k_eff stderr", "")
+    assert column_label("tan_delta_stderr") == ("tan_delta stderr", "")
 
 
 @given(st.floats(min_value=-1e13, max_value=1e13, allow_nan=False).filter(lambda v: v != 0),
