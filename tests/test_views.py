@@ -660,3 +660,22 @@ def test_log_axis_ticks_are_plain_prefixed_numbers():
     texts = [t for _, t in shown]
     assert len(texts) >= 3 and len(set(texts)) == len(texts)
     assert all(abs(float(t) - y) < 1e-6 * y + 0.051 for y, t in shown)
+
+
+def test_smith_grid_labels_carry_si_prefixes():
+    """Grid labels for a 10 kΩ reference read "2k", "+j5k" and "50 µS" (BIPM SI brochure,
+    Table 7), never e-notation; a 50 Ω grid keeps its usual "10", "+j25", "20 mS"."""
+    import re
+
+    texts = {}
+    for z0 in (50.0, 1.0e4):
+        for kind in ("z", "y"):
+            ax = Figure().add_subplot()
+            texts[z0, kind] = [a.get_text() for a in kv.smith_grid(ax, z0_ohm=z0, kind=kind)
+                               if hasattr(a, "get_text") and a.get_text()]
+    every = [t for ts in texts.values() for t in ts]
+    assert not any(re.search(r"\de[+-]?\d", t) for t in every)
+    assert {"2k", "+j5k", "−j10k"} <= set(texts[1.0e4, "z"])
+    assert {"50 µS", "200 µS"} <= set(texts[1.0e4, "y"])
+    assert {"10", "+j25", "−j50"} <= set(texts[50.0, "z"]) and "20 mS" in texts[50.0, "y"]
+    assert any(t.startswith("Z0 = 10 kΩ") for t in texts[1.0e4, "z"])

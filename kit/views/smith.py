@@ -10,7 +10,7 @@ from typing import Any
 import numpy as np
 
 from kit.outputs.decimate import columns_of, minmax_indices, window
-from kit.units import to_unit
+from kit.units import eng, to_unit
 from kit.views.data import GRID_Y, GRID_Z, Trace, style_kw, trace
 
 #: Normalised resistance / reactance values of the grid (our choice of circles).
@@ -25,7 +25,9 @@ def _w(z: np.ndarray) -> np.ndarray:
 
 
 def _ohm(v: float) -> str:
-    return f"{v:.4g}"
+    """A grid value in ohms with an SI prefix and no unit ("25", "18.75", "2.5k"); the
+    caption names the unit."""
+    return eng(v, "Ω").removesuffix("Ω").replace(" ", "")
 
 
 def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
@@ -83,13 +85,13 @@ def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
                                         fontsize=7, color="#6b5f50", ha="center", va="center"))
                 else:
                     p = -_w(v + 0j)
-                    arts.append(ax.text(p.real, -0.015, f"{_ohm(to_unit(v / z0_ohm, 'mS'))} mS",
+                    arts.append(ax.text(p.real, -0.015, eng(v / z0_ohm, "S"),
                                         fontsize=7, color="#3f7f88", rotation=90, ha="left",
                                         va="top"))
     if label:
-        what = {"z": "impedance grid [Ω]", "y": "admittance grid [mS]",
-                "both": "Z grid [Ω], Y grid [mS]"}[kind]
-        arts.append(ax.text(0.0, -1.16, f"Z0 = {_ohm(z0_ohm)} Ω · {what}", ha="center",
+        what = {"z": "impedance grid [Ω]", "y": "admittance grid",
+                "both": "Z grid [Ω], Y grid"}[kind]
+        arts.append(ax.text(0.0, -1.16, f"Z0 = {eng(z0_ohm, 'Ω')} · {what}", ha="center",
                             va="top", fontsize=8, color="#333333"))
     ax.set_aspect("equal")
     ax.set_xlim(-1.12, 1.12)
