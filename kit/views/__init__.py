@@ -358,18 +358,12 @@ def style_chart(ax, chart: str) -> None:
     frequency_axis(ax)
     ax.set_ylabel(c.ylabel)
     ax.set_yscale(c.yscale)
-    name, unit = _name_unit(c.ylabel)
+    name, unit = c.title, "" if c.unit == "1" else c.unit
     if c.yscale == "log":
         ax.yaxis.set_major_formatter(_log_formatter(unit, minor=False))
         ax.yaxis.set_minor_formatter(_log_formatter(unit, minor=True))
     else:
         _prefixed_y(ax, name, unit)
-
-
-def _name_unit(ylabel: str) -> tuple[str, str]:
-    """("|Z|", "Ω") from "|Z| [Ω]"; the unit "1" of a ratio is ""."""
-    name, unit = ylabel[:-1].rsplit(" [", 1) if ylabel.endswith("]") else (ylabel, "")
-    return name, "" if unit == "1" else unit
 
 
 def _prefixed_y(ax, name: str, unit: str) -> None:
@@ -436,7 +430,7 @@ def _pair(ax, t: Trace, charts: tuple[str, str], names: tuple[str, str],
     name = f"{label} " if label else ""
     arts = plot_chart(ax, t, charts[0], 0, f"{name}{names[0]}", columns, span_hz, **kw)
     arts += plot_chart(ax, t, charts[1], 1, f"{name}{names[1]}", columns, span_hz, ls="--", **kw)
-    unit = _name_unit(CHARTS[charts[0]].ylabel)[1]
+    unit = CHARTS[charts[0]].unit
     ax.set_ylabel(f"{', '.join(names)} [{unit}]")
     _prefixed_y(ax, ", ".join(names), unit)
     ax.legend(fontsize=7, frameon=False)

@@ -180,14 +180,19 @@ def trace(obj: Any, method: str = "reflection", port: int = 1, label: str | None
 
 @dataclass(frozen=True)
 class Chart:
-    """How a rectangular chart shows a trace: quantity (in SI units), axis label with its
-    unit (the axis writes it with the prefix of the visible range), y scale."""
+    """How a rectangular chart shows a trace: quantity (in SI units), its unit ("1" for a
+    ratio; the axis writes it with the prefix of the visible range), y scale."""
 
     name: str
     title: str
-    ylabel: str
+    unit: str
     quantity: Callable[[Trace], np.ndarray]
     yscale: str = "linear"
+
+    @property
+    def ylabel(self) -> str:
+        """Axis label with the unit before any prefix, e.g. "|Z| [Ω]"."""
+        return f"{self.title} [{self.unit}]"
 
 
 def _phase_deg(t: Trace) -> np.ndarray:
@@ -196,15 +201,15 @@ def _phase_deg(t: Trace) -> np.ndarray:
 
 #: Rectangular charts by name. ``quantity(trace)`` returns the real values drawn.
 CHARTS: dict[str, Chart] = {c.name: c for c in (
-    Chart("z_mag", "|Z|", "|Z| [Ω]", lambda t: np.abs(t.z), "log"),
-    Chart("z_phase", "phase of Z", "phase of Z [°]", _phase_deg),
-    Chart("r", "R", "R [Ω]", lambda t: t.z.real),
-    Chart("x", "X", "X [Ω]", lambda t: t.z.imag),
-    Chart("g", "G", "G [S]", lambda t: t.y.real),
-    Chart("b", "B", "B [S]", lambda t: t.y.imag),
-    Chart("s_db", "|S|", "|S| [dB]", lambda t: db20(t.s)),
-    Chart("return_loss", "return loss", "return loss [dB]", lambda t: return_loss_db(t.gamma)),
-    Chart("vswr", "VSWR", "VSWR [1]", lambda t: vswr(t.gamma), "log"),
-    Chart("group_delay", "group delay", "group delay [s]",
+    Chart("z_mag", "|Z|", "Ω", lambda t: np.abs(t.z), "log"),
+    Chart("z_phase", "phase of Z", "°", _phase_deg),
+    Chart("r", "R", "Ω", lambda t: t.z.real),
+    Chart("x", "X", "Ω", lambda t: t.z.imag),
+    Chart("g", "G", "S", lambda t: t.y.real),
+    Chart("b", "B", "S", lambda t: t.y.imag),
+    Chart("s_db", "|S|", "dB", lambda t: db20(t.s)),
+    Chart("return_loss", "return loss", "dB", lambda t: return_loss_db(t.gamma)),
+    Chart("vswr", "VSWR", "1", lambda t: vswr(t.gamma), "log"),
+    Chart("group_delay", "group delay", "s",
           lambda t: group_delay_s(t.f_hz, t.s)),
 )}
