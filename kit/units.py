@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 
-__all__ = ["SUFFIXES", "PREFIXES", "UNPREFIXED", "unit_of", "circuit_unit", "scale_for", "eng",
+__all__ = ["SUFFIXES", "PREFIXES", "UNPREFIXED", "unit_of", "circuit_unit", "scale_for", "eng", "tick_text",
            "to_unit", "from_unit", "quantity", "complex_quantity", "delta", "percent", "column_label",
            "table"]
 
@@ -103,6 +103,13 @@ def eng(value: float, unit: str, digits: int = 4) -> str:
     """
     return quantity(value, unit, digits=digits, trim=True)
 
+
+
+def tick_text(value: float, unit: str, digits: int = 4) -> str:
+    """:func:`eng` without the unit and without the space, for tick and grid labels whose
+    axis or caption names the unit: ``tick_text(2500.0, "Ω") == "2.5k"``,
+    ``tick_text(5e-5, "S") == "50µ"``, ``tick_text(25.0, "Ω") == "25"``."""
+    return eng(value, unit, digits).removesuffix(unit).replace(" ", "")
 
 def _prefix_exp(unit: str) -> int:
     """Power of ten of the prefix of ``unit`` (0 without a prefix), e.g. -3 for "mS"."""

@@ -37,7 +37,7 @@ import numpy as np
 
 from kit.network.reflection import db20, gamma_from_z, return_loss_db, vswr
 from kit.outputs.decimate import columns_of, minmax_indices, window
-from kit.units import UNPREFIXED, quantity, scale_for
+from kit.units import UNPREFIXED, quantity, scale_for, tick_text
 from kit.views.data import (
     CHARTS,
     DASHES,
@@ -136,16 +136,16 @@ def _log_formatter(unit: str, minor: bool):
 
         def _num_to_string(self, x, vmin, vmax) -> str:
             # less than a decade: one prefix for the view, decimals that tell ticks apart
-            factor, shown = scale_for([vmax if self.step else x], unit)
+            if not self.step:
+                return tick_text(x, unit, 3)
+            factor, shown = scale_for([vmax], unit)
             prefix = shown[:len(shown) - len(unit)] if unit else ""
-            if self.step:
-                step = self.step * factor
-                decimals = max(0, -math.floor(math.log10(step) + 1e-9))
-                while decimals < 9 and abs(step * 10 ** decimals
-                                           - round(step * 10 ** decimals)) > 1e-6:
-                    decimals += 1  # 0.0025 needs four decimals, not three
-                return f"{x * factor:.{decimals}f}{prefix}"
-            return f"{x * factor:.3g}{prefix}"
+            step = self.step * factor
+            decimals = max(0, -math.floor(math.log10(step) + 1e-9))
+            while decimals < 9 and abs(step * 10 ** decimals
+                                       - round(step * 10 ** decimals)) > 1e-6:
+                decimals += 1  # 0.0025 needs four decimals, not three
+            return f"{x * factor:.{decimals}f}{prefix}"
 
         def format_data_short(self, value) -> str:  # the cursor read-out of ipympl
             return quantity(value, unit, digits=5)

@@ -10,7 +10,7 @@ from typing import Any
 import numpy as np
 
 from kit.outputs.decimate import columns_of, minmax_indices, window
-from kit.units import eng, to_unit
+from kit.units import eng, tick_text, to_unit
 from kit.views.data import GRID_Y, GRID_Z, Trace, style_kw, trace
 
 #: Normalised resistance / reactance values of the grid (our choice of circles).
@@ -24,10 +24,6 @@ def _w(z: np.ndarray) -> np.ndarray:
     return (z - 1.0) / (z + 1.0)
 
 
-def _ohm(v: float) -> str:
-    """A grid value in ohms with an SI prefix and no unit ("25", "18.75", "2.5k"); the
-    caption names the unit."""
-    return eng(v, "Ω").removesuffix("Ω").replace(" ", "")
 
 
 def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
@@ -76,12 +72,13 @@ def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
             if label:
                 if grid == "z":
                     p = _w(v + 0j)
-                    arts.append(ax.text(p.real, 0.015, _ohm(v * z0_ohm), fontsize=7,
+                    ohms = tick_text(v * z0_ohm, "Ω")  # grid value; the caption names Ω
+                    arts.append(ax.text(p.real, 0.015, ohms, fontsize=7,
                                         color="#6b5f50", rotation=90, ha="right", va="bottom"))
                     q = _w(1j * v)
-                    arts.append(ax.text(1.06 * q.real, 1.06 * q.imag, f"+j{_ohm(v * z0_ohm)}",
+                    arts.append(ax.text(1.06 * q.real, 1.06 * q.imag, f"+j{ohms}",
                                         fontsize=7, color="#6b5f50", ha="center", va="center"))
-                    arts.append(ax.text(1.06 * q.real, -1.06 * q.imag, f"−j{_ohm(v * z0_ohm)}",
+                    arts.append(ax.text(1.06 * q.real, -1.06 * q.imag, f"−j{ohms}",
                                         fontsize=7, color="#6b5f50", ha="center", va="center"))
                 else:
                     p = -_w(v + 0j)
