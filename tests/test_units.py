@@ -216,9 +216,9 @@ def test_eng_is_quantity_without_trailing_zeros(value, unit, digits):
 def test_tick_text_is_eng_without_the_unit():
     """Tick and grid labels: the SI prefix stays, the unit goes to the axis label (BIPM SI
     brochure, Table 7)."""
-    from kit.units import eng, tick_text
+    from kit.units import tick_text
 
     assert tick_text(2500.0, "Ω") == "2.5k" and tick_text(5e-5, "S") == "50µ"
     assert tick_text(25.0, "Ω") == "25" and tick_text(-0.5, "") == "\u22120.5"
-    assert all(tick_text(v, "Ω") == eng(v, "Ω").removesuffix("Ω").replace(" ", "")
-               for v in (1e-3, 0.47, 33.0, 4.7e4, 2.2e6))
+    assert [tick_text(v, "Ω") for v in (1e-3, 0.47, 4.7e4, 2.2e6)] == ["1m", "470m", "47k",
+                                                                        "2.2M"]
