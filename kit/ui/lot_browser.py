@@ -163,13 +163,14 @@ class LotBrowser:
         self.layers = BlitLayers(fig, self._dynamic_artists, fallback=self.host.refresh)
         self.layers.add_band("plane", 0.0, _SPLIT, lambda: [self._plane_ax()])
         self.layers.add_band("rect", _SPLIT, 1.0, lambda: [self.ax_rect])
-        self.layers.add_patch("legend", lambda: [self.ax_rect.get_legend()])
+        legend = lambda: [self.ax_rect.get_legend()]  # noqa: E731 - one getter, two uses
+        self.layers.add_patch("legend", legend)  # redrawn alone when only it changed
         for which in ("x", "y"):  # an axis's labels kept as pixels when only the other moves
             self.layers.add_strip(f"{which} labels", functools.partial(axis_texts, self.ax_rect,
                                                                        which),
                                   skip=functools.partial(_axis_of, self.ax_rect, which),
                                   stand_in=ticks_only)
-        self.layers.add_strip("legend", lambda: [self.ax_rect.get_legend()])
+        self.layers.add_strip("legend", legend)  # kept while the axes around it change
         self._draw_plane_grid()
         kv.style_chart(self.ax_rect, chart)
         self._empty = self.ax_rect.text(0.5, 0.5, "select captures on the left", ha="center",

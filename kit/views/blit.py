@@ -268,9 +268,8 @@ class BlitLayers:
                     if box.x0 < x0 * w or box.x1 > x1 * w:
                         self._full = True  # the render ends with a full draw
         if key is not None:
-            w, h = self.fig.bbox.width, self.fig.bbox.height
             self._kept[(name, key)] = canvas.copy_from_bbox(
-                Bbox.from_extents(x0 * w, 0.0, x1 * w, h))
+                Bbox.from_extents(x0 * w, 0.0, x1 * w, height))
             while len(self._kept) > KEEP:
                 self._kept.popitem(last=False)
 
