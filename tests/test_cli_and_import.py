@@ -267,11 +267,13 @@ def test_run_reads_the_procedure_and_builds_its_corrections_once(tmp_path, small
     assert seen == {"parsed": 1, "built": 1, "listed": 1}
 
 
-def test_ctrl_c_stops_a_run_with_nothing_half_written(tmp_path, demo_dir):
+@pytest.mark.parametrize("workers, whole_group", [(1, False), (2, True)])
+def test_ctrl_c_stops_a_run_with_nothing_half_written(tmp_path, demo_dir, workers, whole_group):
     """SIGINT (what Ctrl-C sends, POSIX signal.h) to `python -m kit run` during the analysis
     stops it after the captures in hand with exit code 130 (128 + SIGINT, as shells report
     it: common practice, no source), clear lines and no traceback; --out is not created and
-    no temporary export folder is left beside it."""
+    no temporary export folder is left beside it. With workers, the signal goes to the whole
+    process group, as a terminal sends it: the workers leave it to the parent."""
     import os
     import signal
     import time
@@ -288,14 +290,18 @@ def test_ctrl_c_stops_a_run_with_nothing_half_written(tmp_path, demo_dir):
     cache, out = tmp_path / "cache", tmp_path / "out"
     env = {**os.environ, "PYTHONPATH": os.pathsep.join(sys.path)}
     child = subprocess.Popen([sys.executable, "-m", "kit", "run", str(proc), str(lot), "--out",
-                              str(out), "--workers", "1", "--cache", str(cache)],
-                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+                              str(out), "--workers", str(workers), "--cache", str(cache)],
+                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env,
+                             start_new_session=whole_group)
     try:
         deadline = time.monotonic() + 120
         while not any(p.is_file() for p in cache.rglob("*.npz")):  # the analysis has begun
             assert child.poll() is None and time.monotonic() < deadline, child.communicate()
             time.sleep(0.05)
-        child.send_signal(signal.SIGINT)
+        if whole_group:
+            os.killpg(child.pid, signal.SIGINT)
+        else:
+            child.send_signal(signal.SIGINT)
         _, err = child.communicate(timeout=120)
     finally:
         if child.poll() is None:

@@ -88,6 +88,16 @@ def default_start_method() -> str:
     return "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
 
 
+def _worker_start() -> None:
+    """Worker start-up: one BLAS thread, and Ctrl-C left to the parent. A terminal sends
+    SIGINT to the whole process group; a worker that took it would break the pool, where
+    the parent stops the run through its cancel flag (:class:`Cancelled`)."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    one_blas_thread()
+
+
 def one_blas_thread() -> None:
     """Worker start-up: BLAS and OpenMP run one thread in this process.
 
@@ -237,7 +247,7 @@ def _in_workers(func: Callable[..., list], chunks: list[list], args: tuple,
     if ctx.get_start_method() == "forkserver":
         ctx.set_forkserver_preload(list(PRELOAD))
     n_proc = min(workers, len(chunks))
-    ex = ProcessPoolExecutor(max_workers=n_proc, mp_context=ctx, initializer=one_blas_thread)
+    ex = ProcessPoolExecutor(max_workers=n_proc, mp_context=ctx, initializer=_worker_start)
     pending: dict[Future, int] = {}
     queue = iter(range(len(chunks)))
     finished = False
