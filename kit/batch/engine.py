@@ -322,7 +322,8 @@ def _analyse(item: Any, proc: Procedure, digest: str, cache_dir: str | None) -> 
 def _process_chunk(items: list, proc_doc: dict, base_dir: str, source: str | None,
                    digest: str, cache_dir: str | None, keep_captures: bool = True,
                    figures: str = "flagged", one_thread: bool = False) -> list[dict[str, Any]]:
-    proc = Procedure.from_dict(proc_doc, base_dir=base_dir, source=source or "<procedure>")
+    # run() checked the procedure before any chunk was sent: nothing is checked or read again
+    proc = Procedure.of_checked(proc_doc, base_dir=base_dir, source=source or "<procedure>")
     if not one_thread:
         return [process_one(it, proc, digest, cache_dir, keep_captures, figures) for it in items]
     # In a worker process the BLAS library must not start threads of its own: with one
