@@ -319,3 +319,16 @@ def test_from_demo_capture(demo_dir):
     r = m.response(d, cap)
     assert r.return_loss_db[k] > 40.0
     assert cap.name in d.describe()["params"]["load"]
+
+
+def test_transformer_ratio_is_written_without_a_prefix():
+    """A turns ratio is a number: a 500 Ω load seen as 50 Ω needs Np/Ns = sqrt(50/500) =
+    0.3162 (ideal transformer, Zp = (Np/Ns)^2 Zs, common practice, no source), never
+    "316.2 mNp/Ns"."""
+    from kit.match.designs import transformer
+
+    d = transformer(500.0, 50.0)
+    texts = [repr(d), d.parts[0].label(), d.parts[0].value_text()] + [v for _, v in
+                                                                      d.view_rows()]
+    assert "Np/Ns = 0.316228" in repr(d) and "Np/Ns = 0.3162" in d.parts[0].label()
+    assert not any("mNp" in t or "kNp" in t for t in texts), texts

@@ -114,13 +114,20 @@ class Part:
             m[:, 1, 0] = 1.0 / z
         return m
 
+    def value_text(self, digits: int = 4) -> str:
+        """The value as read: "38.98 nH", "1.2 pF", or "Np/Ns = 3.162" for a transformer
+        (a ratio takes no SI prefix)."""
+        if self.kind == "T":
+            return f"Np/Ns = {eng(self.value, '', digits)}"
+        return eng(self.value, UNITS[self.kind], digits)
+
     def label(self) -> str:
         """Human text such as ``"L1 series inductor 38.98 nH"``."""
         if self.kind == "T":
             t = f" ({self.turns[0]}:{self.turns[1]} turns)" if self.turns else ""
-            return f"{self.name} ideal transformer Np/Ns = {eng(self.value, '')}{t}"
+            return f"{self.name} ideal transformer {self.value_text()}{t}"
         what = "inductor" if self.kind == "L" else "capacitor"
-        return f"{self.name} {self.placement} {what} {eng(self.value, UNITS[self.kind])}"
+        return f"{self.name} {self.placement} {what} {self.value_text()}"
 
 
 def chain(parts, f_hz, q_inductor=None, q_capacitor=None) -> np.ndarray:
@@ -290,9 +297,7 @@ class MatchDesign(Result):
         """Source and design frequency ("not used" when NaN), then one row per part."""
         rows = [(k, "not used" if v == "not found" else v) for k, v in super().view_rows()]
         return rows + [
-            (f"{p.name} ({p.placement})",
-             eng(p.value, UNITS[p.kind]) if p.kind != "T" else f"Np/Ns = {eng(p.value, '')}")
-            for p in self.parts]
+            (f"{p.name} ({p.placement})", p.value_text()) for p in self.parts]
 
     def _footer(self) -> list[str]:
         return super()._footer() + [f"note: {n}" for n in self.notes]
@@ -404,5 +409,5 @@ class MatchDesign(Result):
         return self.summary()
 
     def __repr__(self) -> str:
-        vals = ", ".join(f"{p.name}={eng(p.value, UNITS[p.kind], 6)}" for p in self.parts)
+        vals = ", ".join(f"{p.name}: {p.value_text(6)}" for p in self.parts)
         return f"MatchDesign({self.kind!r}, {vals})"
