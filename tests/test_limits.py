@@ -220,6 +220,10 @@ def test_draw_limits_on_axes():
     assert sorted(v.get_xdata()[0] for v in vlines) == [1.95, 2.05]
     assert [v.get_label() for v in vlines].count("series resonance limit") == 1
     assert lim.draw(ax, curve="z_mag_ohm", quantities=False) == []
+    # a bound without its own label is named by its column's label, not the column name
+    bare = parse_limits("[quantity.fs_hz]\nmin = 1.9e6\n")
+    ax = Figure().add_subplot()
+    assert [a.get_label() for a in draw_limits(ax, bare, f_scale=1e6)] == ["fs limit"]
 
 
 def test_documented_example_parses():

@@ -83,15 +83,8 @@ def _column(summary, name: str) -> np.ndarray:
     return pd.to_numeric(summary[name], errors="coerce").to_numpy(dtype=float)
 
 
-def _label(q) -> str:
-    """The limit's own label, else its column's (:func:`kit.units.column_label`): "fs"."""
-    return q.label or column_label(q.name)[0]
-
-
-def _axis_label(name: str, label: str, unit: str) -> str:
-    """"fs [MHz]": the column's label (:func:`kit.units.column_label`, or the limit's
-    label) and its prefixed unit."""
-    text = label or column_label(name)[0]
+def _axis_label(text: str, unit: str) -> str:
+    """"fs [MHz]": a quantity's label and its prefixed unit."""
     return f"{text} [{unit}]" if unit else text
 
 
@@ -163,7 +156,7 @@ def _histogram_png(values: np.ndarray, q, dpi: int = 80) -> bytes:
     for b, ls in zip((q.min, q.max), ("--", "-")):
         if b is not None:
             ax.axvline(b * k, color=PALETTE["vermilion"], ls=ls, lw=1.5)
-    ax.set_xlabel(_axis_label(q.name, q.label, shown), fontsize=8)
+    ax.set_xlabel(_axis_label(q.shown, shown), fontsize=8)
     ax.set_ylabel("parts", fontsize=8)
     return encode_png(fig)
 
@@ -187,14 +180,14 @@ def quantities_html(summary, limits, dpi: int = 80) -> str:
             return "" if v is None or not math.isfinite(v) else quantity(v, "", digits=3)
 
         rows.append(
-            f"<tr><td>{esc(_label(q))}</td><td>{esc(eng(q.min, unit) if q.min is not None else '')}"
+            f"<tr><td>{esc(q.shown)}</td><td>{esc(eng(q.min, unit) if q.min is not None else '')}"
             f"</td><td>{esc(eng(q.max, unit) if q.max is not None else '')}</td>"
             f"<td class=num>{cap.n:,}</td><td>{esc(eng(cap.mean, unit, 6))}</td>"
             f"<td>{esc(eng(cap.std, unit))}</td><td class=num>{num(cap.cp)}</td>"
             f"<td class=num>{num(cap.cpk)}</td><td class=num>{cap.n_below:,}</td>"
             f"<td class=num>{cap.n_above:,}</td><td>{esc(cap.reason)}</td></tr>")
-        pics.append(f"<figure>{img_tag(_histogram_png(finite, q, dpi), _label(q))}"
-                    f"<figcaption>{esc(_label(q))}: {cap.n:,} value(s); dashed line lower "
+        pics.append(f"<figure>{img_tag(_histogram_png(finite, q, dpi), q.shown)}"
+                    f"<figcaption>{esc(q.shown)}: {cap.n:,} value(s); dashed line lower "
                     "bound, solid line upper bound</figcaption></figure>")
     note = ("<p class=note>Cp = (upper - lower) / (6 s), Cpk = min(upper - mean, mean - lower) "
             "/ (3 s), s the sample standard deviation (NIST/SEMATECH e-Handbook of Statistical "
@@ -234,10 +227,10 @@ def scatter_html(summary, limits, pair: tuple[str, str] | None, dpi: int = 80) -
         for b in (() if q is None else (q.min, q.max)):
             if b is not None:
                 line(b * k, color=PALETTE["vermilion"], ls="--", lw=1.2)
-    ax.set_xlabel(_axis_label(xn, "", ux), fontsize=8)
-    ax.set_ylabel(_axis_label(yn, "", uy), fontsize=8)
-    ax.legend(fontsize=7, loc="upper right", markerscale=1.5)
     xl, yl = column_label(xn)[0], column_label(yn)[0]
+    ax.set_xlabel(_axis_label(xl, ux), fontsize=8)
+    ax.set_ylabel(_axis_label(yl, uy), fontsize=8)
+    ax.legend(fontsize=7, loc="upper right", markerscale=1.5)
     return (f"<h2>{esc(xl)} against {esc(yl)}</h2>"
             f"<figure>{img_tag(encode_png(fig), f'{xl} against {yl}')}<figcaption>Each part "
             "by its limits verdict (colour and marker shape); dashed lines: the limits."

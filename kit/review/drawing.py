@@ -59,7 +59,7 @@ def draw_limits(ax, limits: Any, curve: str = "z_mag_ohm", f_scale: float = 1.0,
                 continue
             bounds = [b for b in (q.min, q.max) if b is not None]
             for k, b in enumerate(bounds):
-                label = f"{q.label or q.name} limit" if k == 0 else "_nolegend_"
+                label = f"{q.shown} limit" if k == 0 else "_nolegend_"
                 artists.append(ax.axvline(b / f_scale, color=colour, ls=":", lw=1.0,
                                           alpha=0.7, label=label))
     return artists

@@ -27,7 +27,7 @@ import numpy as np
 
 from kit.capture import CaptureError
 from kit.io.atomic import write_text
-from kit.units import unit_of
+from kit.units import column_label, unit_of
 
 FORMAT = "sweepbook-limits"
 FORMAT_VERSION = 1
@@ -60,6 +60,12 @@ class QuantityLimit:
     max: float | None = None
     label: str = ""
     required: bool = True
+
+    @property
+    def shown(self) -> str:
+        """The name a reader sees: the limit's own label, else its column's
+        (:func:`kit.units.column_label`): "fs", never the column name "fs_hz"."""
+        return self.label or column_label(self.name)[0]
 
 
 @dataclass(frozen=True)

@@ -23,7 +23,7 @@ import numpy as np
 
 from kit.results import Result
 from kit.review.limits import SPAN_TOL, Limits, Mask, QuantityLimit, s_ports
-from kit.units import column_label, eng, percent, quantity, scale_for, unit_of
+from kit.units import eng, percent, quantity, scale_for, unit_of
 
 __all__ = ["Check", "Verdict", "check_quantity", "check_mask", "curve_values", "verdict",
            "split_reasons", "reason_kinds"]
@@ -149,7 +149,7 @@ def _get(row: Any, name: str) -> Any:
 def check_quantity(q: QuantityLimit, row: Any) -> Check:
     """Check one quantity bound against a summary row (dict, Series or object)."""
     unit = unit_of(q.name)
-    label = q.label or column_label(q.name)[0]  # "fs", not the column name "fs_hz"
+    label = q.shown
     v = _get(row, q.name)
     try:
         x = float(v)
