@@ -128,3 +128,15 @@ def test_round_trips(k):
     assert coupling.kt(coupling.fs_from_kt(k, 1e6), 1e6) == pytest.approx(k, abs=1e-9)
     assert coupling.k31(1e6, coupling.fp_from_k31(k, 1e6)) == pytest.approx(k, abs=1e-9)
     assert coupling.kp(1e6, coupling.fp_from_kp(k, 1e6)) == pytest.approx(k, abs=1e-9)
+
+
+def test_swapped_arrays_are_refused_with_their_frequencies_written_out():
+    """A refused pair of arrays is named with SI-prefixed frequencies, not an array repr."""
+    import numpy as np
+
+    from kit.resonators.coupling import k_eff
+
+    with pytest.raises(ValueError) as err:
+        k_eff(np.array([2e6, 1e6]), np.array([1e6, 2e6]))
+    assert "fs = [2 MHz, 1 MHz], fp = [1 MHz, 2 MHz]" in str(err.value)
+    assert "array(" not in str(err.value)

@@ -215,7 +215,7 @@ class FanoLimit(Result):
                  f"{quantity(self.f_lo_hz, 'Hz', digits=6)}..{quantity(self.f_hi_hz, 'Hz', digits=6)}",
                  f"  limit on the integral of ln(1/|Gamma|) d omega = "
                  f"{quantity(self.bound_rad_s, 'rad/s')}; best constant |Gamma| over the band "
-                 f"{quantity(self.gamma_min, '')} (return loss {self.rl_max_db:.2f} dB)"]
+                 f"{quantity(self.gamma_min, '')} (return loss {quantity(self.rl_max_db, 'dB')})"]
         lines += ["  caution: " + x for x in self.flags]
         return "\n".join(lines)
 

@@ -146,7 +146,7 @@ def _margins(row: dict) -> str:
         v = float(value) if isinstance(value, (int, float)) else math.nan
         r = float(rel) if isinstance(rel, (int, float)) else math.nan
         cls = "" if not math.isfinite(v) else (" class=v-pass" if v >= 0 else " class=v-fail")
-        label = column_label(check + suffix)[0] if suffix else column_label(check)[0]
+        label = column_label(check + suffix)[0]
         out.append(f"<tr><td>{esc(label)}</td><td{cls}>"
                    f"{esc(quantity(v, unit_of(key)) if math.isfinite(v) else 'not computed')}</td>"
                    f"<td>{'' if not math.isfinite(r) else esc(percent(r, signed=True))}</td></tr>")

@@ -43,8 +43,10 @@ __all__ = [
 
 
 def _hz(f_hz) -> str:
-    """A frequency [Hz] for a message: "1.975127 MHz" (an array as its values in Hz)."""
-    return eng(float(f_hz), "Hz", 7) if np.ndim(f_hz) == 0 else f"{f_hz!r} Hz"
+    """Frequencies [Hz] for a message: "1.975127 MHz", an array as "[2 MHz, 1 MHz]"."""
+    if np.ndim(f_hz) == 0:
+        return eng(float(f_hz), "Hz", 7)
+    return "[" + ", ".join(eng(float(x), "Hz", 7) for x in np.ravel(f_hz)) + "]"
 
 
 def _pair(fs_hz, fp_hz, what: str, upper: float | None = None):
@@ -52,7 +54,7 @@ def _pair(fs_hz, fp_hz, what: str, upper: float | None = None):
     fp = np.asarray(fp_hz, dtype=float)
     if np.any(~np.isfinite(fs)) or np.any(~np.isfinite(fp)):
         raise ValueError(f"{what}: fs and fp must be finite numbers, "
-                         f"got fs={fs_hz!r}, fp={fp_hz!r}")
+                         f"got fs = {_hz(fs_hz)}, fp = {_hz(fp_hz)}")
     if np.any(fs <= 0) or np.any(fp <= fs):
         raise ValueError(
             f"{what}: needs 0 < fs < fp, got fs = {_hz(fs_hz)}, fp = {_hz(fp_hz)} "

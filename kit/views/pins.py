@@ -137,18 +137,13 @@ def pin_reading(t: Trace, index: int, name: str = "1") -> dict[str, Any]:
     }
 
 
-def _cplx(v: complex, unit: str) -> str:
-    """"12.30 Ω − j4.500 Ω": :func:`kit.units.complex_quantity`."""
-    return complex_quantity(v, unit)
-
-
 def reading_text(r: dict[str, Any]) -> str:
     """Multi-line text of a reading, every quantity with its unit (:func:`kit.units.quantity`)."""
     return "\n".join([
         f"pin {r['pin']}  {r['trace']}  {quantity(r['f_hz'], 'Hz', digits=7)}",
-        f"Z = {_cplx(r['z_ohm'], 'Ω')}",
+        f"Z = {complex_quantity(r['z_ohm'], 'Ω')}",
         f"|Z| = {quantity(r['z_mag_ohm'], 'Ω')}, {quantity(r['z_phase_deg'], '°')}",
-        f"Y = {_cplx(r['y_siemens'], 'S')}",
+        f"Y = {complex_quantity(r['y_siemens'], 'S')}",
         f"Γ = {quantity(r['gamma_mag'], '')} ∠ {quantity(r['gamma_deg'], '°')}",
         f"VSWR = {quantity(r['vswr'], '')}",
     ])

@@ -24,8 +24,6 @@ def _w(z: np.ndarray) -> np.ndarray:
     return (z - 1.0) / (z + 1.0)
 
 
-
-
 def smith_grid(ax, z0_ohm: float = 50.0, kind: str = "z", values=GRID_VALUES,
                label: bool = True) -> list[Any]:
     """Draw a Smith chart grid on ``ax``, labelled with the reference impedance.
