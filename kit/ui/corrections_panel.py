@@ -10,6 +10,7 @@ describe what is left between the new reference plane and the device.
 
 from __future__ import annotations
 
+import html
 import warnings
 from pathlib import Path
 from typing import Any
@@ -18,7 +19,7 @@ from kit import views as kv
 from kit.network.coerce import reference_ohm
 from kit.network.immittance import SingularPointsWarning
 from kit.ui.common import FigureHost, MessageBar, classed, guess, section, show, touchstone_names
-from kit.units import eng, from_unit
+from kit.units import from_unit
 
 NONE = "(none)"
 
@@ -202,10 +203,8 @@ class CorrectionsPanel:
             chk = self.capture(self.check.value)
             chk_c = self.chain(chk) if self.chain is not None else chk
             self.residual = residual(chk_c, self.check_ohms.value)
-            self.residual_text.value = (
-                f"check part {self.check.value}: worst |Z &minus; Z<sub>exp</sub>|/|Z<sub>exp"
-                f"</sub>| = {eng(self.residual.worst_rel, '', 3)} at {eng(self.residual.f_hz, 'Hz', 6)} "
-                f"(median {eng(self.residual.median_rel, '', 3)})")
+            # the result's own words (kit.corrections.residual.Residual), reason included
+            self.residual_text.value = f"check part {html.escape(str(self.residual))}"
         self._draw()
 
     # ------------------------------------------------------------------ drawing
