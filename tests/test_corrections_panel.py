@@ -39,6 +39,8 @@ def test_panel_builds_with_standards_preselected(folder):
     assert p.compensation.value == "open/short/load"
     assert p.chain is not None and p.host.renders >= 1
     assert p.residual is not None and p.residual.worst_rel < 1e-6  # 100 ohm after OSL
+    assert p.residual_text.value.startswith("check part ")  # the residual, named, in words
+    assert "worst |Z" in p.residual_text.value and " MHz (median " in p.residual_text.value
     assert p.message.last == ""
 
 
