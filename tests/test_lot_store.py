@@ -276,14 +276,14 @@ def test_the_lot_key_reads_inputs_as_every_reader_does(tmp_path):
     """file_sha256 reads through kit.io.preflight.read_bytes: the SHA-256 of the bytes
     (FIPS 180-4; checked against hashlib on the same bytes), and an unreadable input is that
     reader's CaptureError naming the file, which leaves the lot store out of the run."""
-    import hashlib
-
     from kit.batch.lot_store import file_sha256
     from kit.capture import CaptureError
 
     f = tmp_path / "a.s1p"
-    f.write_bytes(b"# Hz S RI R 50\n1e6 0.1 0\n")
-    assert file_sha256(f) == hashlib.sha256(f.read_bytes()).hexdigest()
+    f.write_bytes(b"abc")
+    # FIPS 180-2, appendix B.1: SHA-256("abc")
+    assert file_sha256(f) == ("ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015"
+                              "ad")
     with pytest.raises(CaptureError, match="file not found") as err:
         file_sha256(tmp_path / "gone.s1p")
     assert "gone.s1p" in str(err.value)
